@@ -1,0 +1,113 @@
+//! External ids and the dense indices used internally.
+//!
+//! Users and items arrive as strings; every computation works on dense indices `0..n` in
+//! first-seen order. [`IdMap`] interns the strings once and answers both directions.
+
+use std::collections::HashMap;
+
+/// Dense index of a user (`0..users`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct UserIndex(pub u32);
+
+/// Dense index of an item (`0..items`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct ItemIndex(pub u32);
+
+/// Interned ids: external string id ↔ dense index, in first-seen order.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct IdMap {
+    names: Vec<String>,
+    index: HashMap<String, u32>,
+}
+
+impl IdMap {
+    /// An empty map.
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// The dense index of `id`, adding it at the end if new.
+    pub fn intern(&mut self, id: &str) -> u32 {
+        if let Some(&i) = self.index.get(id) {
+            return i;
+        }
+        let i = u32::try_from(self.names.len()).expect("fewer than 2^32 distinct ids");
+        self.names.push(id.to_owned());
+        self.index.insert(id.to_owned(), i);
+        i
+    }
+
+    /// Adds `id` at the end; returns `None` (and changes nothing) if it is already present.
+    pub fn push_new(&mut self, id: &str) -> Option<u32> {
+        if self.index.contains_key(id) {
+            return None;
+        }
+        Some(self.intern(id))
+    }
+
+    /// The dense index of `id`, if known.
+    pub fn get(&self, id: &str) -> Option<u32> {
+        self.index.get(id).copied()
+    }
+
+    /// The external id at dense index `i`.
+    pub fn name(&self, i: u32) -> &str {
+        &self.names[i as usize]
+    }
+
+    /// All external ids in index order.
+    pub fn names(&self) -> &[String] {
+        &self.names
+    }
+
+    /// Number of ids.
+    pub fn len(&self) -> usize {
+        self.names.len()
+    }
+
+    /// True when there are no ids.
+    pub fn is_empty(&self) -> bool {
+        self.names.is_empty()
+    }
+}
+
+/// Formats up to `limit` ids as `" (first: 'a', 'b', …)"`, or an empty string.
+pub fn first_few<'a>(ids: impl IntoIterator<Item = &'a str>, limit: usize) -> String {
+    let mut shown = Vec::new();
+    let mut more = false;
+    for id in ids {
+        if shown.len() == limit {
+            more = true;
+            break;
+        }
+        shown.push(format!("'{id}'"));
+    }
+    if shown.is_empty() {
+        return String::new();
+    }
+    let ellipsis = if more { ", …" } else { "" };
+    format!(" (first: {}{ellipsis})", shown.join(", "))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn interning_keeps_first_seen_order() {
+        let mut ids = IdMap::new();
+        assert_eq!(ids.intern("b"), 0);
+        assert_eq!(ids.intern("a"), 1);
+        assert_eq!(ids.intern("b"), 0);
+        assert_eq!(ids.names(), ["b", "a"]);
+        assert_eq!(ids.get("a"), Some(1));
+        assert_eq!(ids.push_new("a"), None);
+    }
+
+    #[test]
+    fn first_few_lists_and_elides() {
+        assert_eq!(first_few(["x", "y", "z"], 2), " (first: 'x', 'y', …)");
+        assert_eq!(first_few(["x"], 2), " (first: 'x')");
+        assert_eq!(first_few(std::iter::empty(), 2), "");
+    }
+}

@@ -1,0 +1,457 @@
+//! Loading ratings from CSV (RFC 4180 with a header row).
+//!
+//! Columns are found by name (`user,item,rating` unless renamed); extra columns are ignored;
+//! a UTF-8 byte-order mark, CRLF line ends and quoted fields are accepted; surrounding
+//! spaces are trimmed. Every problem is reported with the file, the line and the reason.
+
+use std::fs::File;
+use std::io::Read;
+use std::path::Path;
+
+use super::ids::IdMap;
+use super::scale::RatingScale;
+use crate::error::DataError;
+
+/// One observed rating, by dense indices.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Rating {
+    /// Dense user index.
+    pub user: u32,
+    /// Dense item index.
+    pub item: u32,
+    /// The rating value.
+    pub value: f64,
+    /// True when the rating is held out from training.
+    pub holdout: bool,
+}
+
+/// A set of ratings with interned ids, sorted by (user, item), without duplicate pairs.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Ratings {
+    /// User ids in index order.
+    pub users: IdMap,
+    /// Item ids in index order.
+    pub items: IdMap,
+    /// The ratings, sorted by (user, item).
+    pub entries: Vec<Rating>,
+}
+
+impl Ratings {
+    /// Number of ratings used for training.
+    pub fn train_count(&self) -> usize {
+        self.entries.iter().filter(|r| !r.holdout).count()
+    }
+
+    /// Number of held-out ratings.
+    pub fn holdout_count(&self) -> usize {
+        self.entries.iter().filter(|r| r.holdout).count()
+    }
+
+    /// Training ratings per user and per item.
+    pub fn train_support(&self) -> (Vec<u32>, Vec<u32>) {
+        let mut users = vec![0u32; self.users.len()];
+        let mut items = vec![0u32; self.items.len()];
+        for r in self.entries.iter().filter(|r| !r.holdout) {
+            users[r.user as usize] += 1;
+            items[r.item as usize] += 1;
+        }
+        (users, items)
+    }
+}
+
+/// What to do when the same (user, item) pair is rated more than once.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub enum Duplicates {
+    /// Refuse the file (default): a duplicate usually means a broken export.
+    #[default]
+    Error,
+    /// Keep the rating that comes last in the file.
+    Last,
+    /// Keep the mean of all ratings of the pair.
+    Mean,
+}
+
+use serde::{Deserialize, Serialize};
+
+/// Column names of a ratings file.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RatingColumns {
+    /// Column holding the user id (default `user`).
+    pub user: String,
+    /// Column holding the item id (default `item`).
+    pub item: String,
+    /// Column holding the rating (default `rating`).
+    pub rating: String,
+    /// Optional column marking `train` / `holdout` rows (model directories use `split`).
+    pub split: Option<String>,
+}
+
+impl Default for RatingColumns {
+    fn default() -> Self {
+        Self { user: "user".into(), item: "item".into(), rating: "rating".into(), split: None }
+    }
+}
+
+/// How to read a ratings file.
+#[derive(Debug, Clone, Default)]
+pub struct RatingsOptions {
+    /// Column names.
+    pub columns: RatingColumns,
+    /// When given, every rating must lie on this scale.
+    pub scale: Option<RatingScale>,
+    /// Policy for repeated (user, item) pairs.
+    pub duplicates: Duplicates,
+    /// When true, user and item ids must already be in the maps passed to
+    /// [`read_ratings_with_ids`] (used when loading a model directory).
+    pub known_ids_only: bool,
+}
+
+/// Loads a ratings CSV file.
+pub fn load_ratings(path: &Path, options: &RatingsOptions) -> Result<Ratings, DataError> {
+    let file = File::open(path).map_err(|e| DataError::read(path, e))?;
+    read_ratings(file, path, options)
+}
+
+/// Reads ratings CSV from any reader; `path` is used in messages only.
+pub fn read_ratings(
+    reader: impl Read,
+    path: &Path,
+    options: &RatingsOptions,
+) -> Result<Ratings, DataError> {
+    read_ratings_with_ids(reader, path, options, IdMap::new(), IdMap::new())
+}
+
+/// Reads ratings CSV, interning ids into the given maps (pre-filled maps fix the index order).
+pub fn read_ratings_with_ids(
+    reader: impl Read,
+    path: &Path,
+    options: &RatingsOptions,
+    users: IdMap,
+    items: IdMap,
+) -> Result<Ratings, DataError> {
+    let mut csv = csv_reader(reader);
+    let header = read_header(&mut csv, path, "user, item, rating")?;
+    let cols = &options.columns;
+    let user_col = find_column(&header, &cols.user, "--user-col", path)?;
+    let item_col = find_column(&header, &cols.item, "--item-col", path)?;
+    let rating_col = find_column(&header, &cols.rating, "--rating-col", path)?;
+    let split_col = match &cols.split {
+        Some(name) => Some(find_column(&header, name, "--split-col", path)?),
+        None => None,
+    };
+    let mut loader = Loader { path, users, items, raw: Vec::new(), lines: Vec::new() };
+    let mut record = csv::ByteRecord::new();
+    loop {
+        match csv.read_byte_record(&mut record) {
+            Ok(true) => {}
+            Ok(false) => break,
+            Err(e) => return Err(csv_error(path, &e)),
+        }
+        let line = record_line(&record);
+        let user = field(&record, user_col, "user id", path, line)?;
+        let item = field(&record, item_col, "item id", path, line)?;
+        let value = parse_rating(field(&record, rating_col, "rating", path, line)?, path, line)?;
+        if let Some(scale) = &options.scale {
+            check_on_scale(scale, value, path, line)?;
+        }
+        let holdout = match split_col {
+            Some(col) => parse_split(field(&record, col, "split", path, line)?, path, line)?,
+            None => false,
+        };
+        loader.push(user, item, value, holdout, line, options.known_ids_only)?;
+    }
+    if loader.raw.is_empty() {
+        return Err(DataError::in_file(path, "no ratings: the file has a header row but no data rows"));
+    }
+    loader.finish(options.duplicates)
+}
+
+struct Loader<'a> {
+    path: &'a Path,
+    users: IdMap,
+    items: IdMap,
+    raw: Vec<Rating>,
+    lines: Vec<u64>,
+}
+
+impl Loader<'_> {
+    fn push(
+        &mut self,
+        user: &str,
+        item: &str,
+        value: f64,
+        holdout: bool,
+        line: u64,
+        known_only: bool,
+    ) -> Result<(), DataError> {
+        let (user, item) = if known_only {
+            let u = self.users.get(user).ok_or_else(|| {
+                DataError::at_line(self.path, line, format!("user '{user}' is not in the users table"))
+            })?;
+            let i = self.items.get(item).ok_or_else(|| {
+                DataError::at_line(self.path, line, format!("item '{item}' is not in the items table"))
+            })?;
+            (u, i)
+        } else {
+            (self.users.intern(user), self.items.intern(item))
+        };
+        self.raw.push(Rating { user, item, value, holdout });
+        self.lines.push(line);
+        Ok(())
+    }
+
+    fn finish(self, duplicates: Duplicates) -> Result<Ratings, DataError> {
+        let Self { path, users, items, raw, lines } = self;
+        let mut order: Vec<u32> = (0..raw.len() as u32).collect();
+        // Sort by pair, then by position in the file, so "last" and error lines are exact.
+        order.sort_unstable_by_key(|&k| {
+            let r = &raw[k as usize];
+            (r.user, r.item, k)
+        });
+        let mut entries: Vec<Rating> = Vec::with_capacity(raw.len());
+        let mut run = 0usize; // ratings merged into the last entry
+        for (pos, &k) in order.iter().enumerate() {
+            let r = raw[k as usize];
+            let same_pair = entries.last().is_some_and(|e| e.user == r.user && e.item == r.item);
+            if !same_pair {
+                entries.push(r);
+                run = 1;
+                continue;
+            }
+            let last = entries.last_mut().expect("same_pair implies an entry");
+            match duplicates {
+                Duplicates::Error => {
+                    let first_line = lines[order[pos - run] as usize];
+                    return Err(DataError::at_line(
+                        path,
+                        lines[k as usize],
+                        format!(
+                            "duplicate rating for user '{}' and item '{}' (first rated on line \
+                             {first_line}); use --duplicates last or --duplicates mean to combine them",
+                            users.name(r.user),
+                            items.name(r.item)
+                        ),
+                    ));
+                }
+                Duplicates::Last => *last = r,
+                Duplicates::Mean => {
+                    // Running mean keeps the value exact for equal ratings.
+                    run += 1;
+                    last.value += (r.value - last.value) / run as f64;
+                    last.holdout = r.holdout;
+                }
+            }
+        }
+        Ok(Ratings { users, items, entries })
+    }
+}
+
+/// A CSV reader configured the way every sextant input is read.
+pub(crate) fn csv_reader<R: Read>(reader: R) -> csv::Reader<R> {
+    csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .trim(csv::Trim::All)
+        .from_reader(reader)
+}
+
+/// Reads the header row; an empty file is an error that says what was expected.
+pub(crate) fn read_header<R: Read>(
+    csv: &mut csv::Reader<R>,
+    path: &Path,
+    expected: &str,
+) -> Result<Vec<String>, DataError> {
+    let mut record = csv::ByteRecord::new();
+    let has_row = csv.read_byte_record(&mut record).map_err(|e| csv_error(path, &e))?;
+    if !has_row || record.iter().all(<[u8]>::is_empty) {
+        return Err(DataError::in_file(
+            path,
+            format!("the file is empty; expected a header row naming the columns {expected}"),
+        ));
+    }
+    let mut names = Vec::with_capacity(record.len());
+    for raw in &record {
+        let text = std::str::from_utf8(raw).map_err(|_| {
+            DataError::at_line(path, 1, "the header row is not valid UTF-8 text")
+        })?;
+        names.push(text.trim_start_matches('\u{feff}').trim().to_owned());
+    }
+    Ok(names)
+}
+
+/// Finds a column by exact name, or case-insensitively when the exact name is absent.
+pub(crate) fn find_column(
+    header: &[String],
+    name: &str,
+    option: &str,
+    path: &Path,
+) -> Result<usize, DataError> {
+    let exact: Vec<usize> = (0..header.len()).filter(|&c| header[c] == name).collect();
+    let found = if exact.is_empty() {
+        (0..header.len()).filter(|&c| header[c].eq_ignore_ascii_case(name)).collect()
+    } else {
+        exact
+    };
+    match found.as_slice() {
+        [c] => Ok(*c),
+        [] => Err(DataError::at_line(
+            path,
+            1,
+            format!(
+                "missing column '{name}' in the header (found: {}); name the right column with {option}",
+                header.join(", ")
+            ),
+        )),
+        _ => Err(DataError::at_line(path, 1, format!("column '{name}' appears more than once in the header"))),
+    }
+}
+
+/// Optional column: `Some(index)` when present exactly once.
+pub(crate) fn optional_column(header: &[String], name: &str) -> Option<usize> {
+    header.iter().position(|h| h.eq_ignore_ascii_case(name))
+}
+
+/// The 1-based line on which a record starts.
+pub(crate) fn record_line(record: &csv::ByteRecord) -> u64 {
+    record.position().map_or(0, csv::Position::line)
+}
+
+/// Turns a csv crate error into a located error.
+pub(crate) fn csv_error(path: &Path, error: &csv::Error) -> DataError {
+    let line = error.position().map(csv::Position::line);
+    let reason = match error.kind() {
+        csv::ErrorKind::Io(e) => return DataError::read(path, std::io::Error::new(e.kind(), e.to_string())),
+        csv::ErrorKind::Utf8 { .. } => "text is not valid UTF-8".to_owned(),
+        other => format!("malformed CSV: {other:?}"),
+    };
+    match line {
+        Some(line) => DataError::at_line(path, line, reason),
+        None => DataError::in_file(path, reason),
+    }
+}
+
+/// Field `col` of a record as trimmed UTF-8 text; missing or empty fields are errors.
+pub(crate) fn field<'r>(
+    record: &'r csv::ByteRecord,
+    col: usize,
+    what: &str,
+    path: &Path,
+    line: u64,
+) -> Result<&'r str, DataError> {
+    let Some(raw) = record.get(col) else {
+        return Err(DataError::at_line(
+            path,
+            line,
+            format!("the row has {} field(s) but the {what} is in column {}", record.len(), col + 1),
+        ));
+    };
+    let text = std::str::from_utf8(raw)
+        .map_err(|_| DataError::at_line(path, line, format!("the {what} is not valid UTF-8 text")))?;
+    if text.is_empty() {
+        return Err(DataError::at_line(path, line, format!("the {what} is empty")));
+    }
+    Ok(text)
+}
+
+/// Parses a rating value; it must be a finite number.
+pub(crate) fn parse_rating(text: &str, path: &Path, line: u64) -> Result<f64, DataError> {
+    match text.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(DataError::at_line(path, line, format!("rating '{text}' is not a finite number"))),
+        Err(_) => Err(DataError::at_line(path, line, format!("rating '{text}' is not a number"))),
+    }
+}
+
+fn check_on_scale(scale: &RatingScale, value: f64, path: &Path, line: u64) -> Result<(), DataError> {
+    if scale.contains(value) {
+        return Ok(());
+    }
+    let reason = if value < scale.min() || value > scale.max() {
+        format!("rating '{value}' is outside the scale {} to {} given by --scale", scale.min(), scale.max())
+    } else {
+        format!("rating '{value}' is not on the scale given by --scale ({})", scale.describe())
+    };
+    Err(DataError::at_line(path, line, reason))
+}
+
+fn parse_split(text: &str, path: &Path, line: u64) -> Result<bool, DataError> {
+    match text {
+        "train" => Ok(false),
+        "holdout" => Ok(true),
+        other => Err(DataError::at_line(
+            path,
+            line,
+            format!("split '{other}' must be 'train' or 'holdout'"),
+        )),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn read(text: &str, options: &RatingsOptions) -> Result<Ratings, DataError> {
+        read_ratings(text.as_bytes(), Path::new("r.csv"), options)
+    }
+
+    fn message(text: &str, options: &RatingsOptions) -> String {
+        read(text, options).unwrap_err().to_string()
+    }
+
+    #[test]
+    fn reads_bom_crlf_quotes_and_extra_columns() {
+        let text = "\u{feff}when,user,item,rating\r\nx,\"a\",\"i,1\",4\r\ny, b ,i2,3.5\r\n";
+        let r = read(text, &RatingsOptions::default()).unwrap();
+        assert_eq!(r.users.names(), ["a", "b"]);
+        assert_eq!(r.items.names(), ["i,1", "i2"]);
+        assert_eq!(r.entries.len(), 2);
+        assert_eq!(r.entries[1].value, 3.5);
+    }
+
+    #[test]
+    fn renamed_columns() {
+        let options = RatingsOptions {
+            columns: RatingColumns {
+                user: "member".into(),
+                item: "recipe".into(),
+                rating: "stars".into(),
+                split: None,
+            },
+            ..RatingsOptions::default()
+        };
+        let r = read("member,recipe,stars\nm1,r1,5\n", &options).unwrap();
+        assert_eq!(r.entries[0].value, 5.0);
+    }
+
+    #[test]
+    fn errors_name_line_and_reason() {
+        let d = RatingsOptions::default();
+        assert_eq!(message("", &d), "r.csv: the file is empty; expected a header row naming the columns user, item, rating");
+        assert_eq!(message("user,item,rating\n", &d), "r.csv: no ratings: the file has a header row but no data rows");
+        assert!(message("user,item\na,b\n", &d).starts_with("r.csv, line 1: missing column 'rating'"));
+        assert_eq!(message("user,item,rating\na,b,4\n,c,3\n", &d), "r.csv, line 3: the user id is empty");
+        assert_eq!(message("user,item,rating\na,b,abc\n", &d), "r.csv, line 2: rating 'abc' is not a number");
+        assert_eq!(message("user,item,rating\na,b,NaN\n", &d), "r.csv, line 2: rating 'NaN' is not a finite number");
+        assert_eq!(
+            message("user,item,rating\na,b,4\nc,d,1\na,b,5\n", &d),
+            "r.csv, line 4: duplicate rating for user 'a' and item 'b' (first rated on line 2); \
+             use --duplicates last or --duplicates mean to combine them"
+        );
+        let scaled = RatingsOptions { scale: Some(RatingScale::parse("1:5:1").unwrap()), ..d };
+        assert_eq!(
+            message("user,item,rating\na,b,6\n", &scaled),
+            "r.csv, line 2: rating '6' is outside the scale 1 to 5 given by --scale"
+        );
+    }
+
+    #[test]
+    fn duplicates_last_and_mean() {
+        let text = "user,item,rating\na,b,4\nc,d,1\na,b,5\na,b,3\n";
+        let last = RatingsOptions { duplicates: Duplicates::Last, ..RatingsOptions::default() };
+        assert_eq!(read(text, &last).unwrap().entries[0].value, 3.0);
+        let mean = RatingsOptions { duplicates: Duplicates::Mean, ..RatingsOptions::default() };
+        let r = read(text, &mean).unwrap();
+        assert_eq!(r.entries.len(), 2);
+        assert_eq!(r.entries[0].value, 4.0);
+    }
+}

@@ -1,0 +1,96 @@
+//! Assembling a [`Model`] from a finished fit or from imported vectors.
+
+use super::fit::{Center, FitOptions, FitResult};
+use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Input, Manifest, Origin, RunOptions};
+use super::store::{Model, default_files};
+use super::FactorModel;
+use crate::analysis::fit_metrics;
+use crate::data::{ItemsMeta, RatingScale, Ratings};
+
+fn counts(ratings: &Ratings) -> Counts {
+    Counts {
+        users: ratings.users.len(),
+        items: ratings.items.len(),
+        ratings: ratings.entries.len(),
+        train_ratings: ratings.train_count(),
+        holdout_ratings: ratings.holdout_count(),
+    }
+}
+
+/// Everything recorded about a model besides its vectors and ratings.
+#[derive(Debug, Clone)]
+pub struct Provenance {
+    /// The rating scale.
+    pub scale: RatingScale,
+    /// Fingerprints of the input files.
+    pub inputs: Vec<Input>,
+    /// Items metadata, if given.
+    pub meta: Option<ItemsMeta>,
+}
+
+impl Model {
+    /// A model from a finished fit. Returns `None` if there are no training ratings.
+    pub fn from_fit(
+        ratings: Ratings,
+        options: &FitOptions,
+        run: RunOptions,
+        result: FitResult,
+        provenance: Provenance,
+    ) -> Option<Self> {
+        let metrics = fit_metrics(&result.factors, &ratings, &provenance.scale)?;
+        let manifest = Manifest {
+            format: FORMAT_TAG.into(),
+            version: FORMAT_VERSION,
+            origin: Origin::Fit,
+            rank: options.rank,
+            lambda: options.lambda,
+            sigma2: options.sigma2,
+            mu: result.factors.mu,
+            center: options.center,
+            scale: provenance.scale,
+            counts: counts(&ratings),
+            seed: options.seed,
+            options: Some(run),
+            converged: result.converged,
+            trace: result.trace,
+            metrics,
+            inputs: provenance.inputs,
+            files: default_files(provenance.meta.is_some()),
+        };
+        Some(Self { manifest, ratings, factors: result.factors, meta: provenance.meta })
+    }
+
+    /// A model from vectors fitted elsewhere. `lambda` and `sigma2` describe the prior the
+    /// vectors were fitted with (used for uncertainty and fold-in). Returns `None` if there
+    /// are no training ratings.
+    pub fn from_import(
+        ratings: Ratings,
+        factors: FactorModel,
+        lambda: f64,
+        sigma2: f64,
+        center: Center,
+        provenance: Provenance,
+    ) -> Option<Self> {
+        let metrics = fit_metrics(&factors, &ratings, &provenance.scale)?;
+        let manifest = Manifest {
+            format: FORMAT_TAG.into(),
+            version: FORMAT_VERSION,
+            origin: Origin::Import,
+            rank: factors.rank,
+            lambda,
+            sigma2,
+            mu: factors.mu,
+            center,
+            scale: provenance.scale,
+            counts: counts(&ratings),
+            seed: 0,
+            options: None,
+            converged: false,
+            trace: Vec::new(),
+            metrics,
+            inputs: provenance.inputs,
+            files: default_files(provenance.meta.is_some()),
+        };
+        Some(Self { manifest, ratings, factors, meta: provenance.meta })
+    }
+}

@@ -1,0 +1,391 @@
+//! Fitting by coordinate ascent (MAP), with a per-iteration trace.
+//!
+//! Each iteration updates every user vector, then every item vector, each by an exact ridge
+//! solve ([`RidgeWorkspace`]). Users (and items) are independent given the other side, so a
+//! half-step runs in parallel; every solve writes only its own row and every sum is reduced
+//! in a fixed order, so the result is bit-identical whatever the number of threads.
+
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use super::solve::{NotPositiveDefinite, RidgeWorkspace};
+use super::{FactorModel, dot, squared_norm};
+use crate::data::ids::first_few;
+use crate::data::{FactorTable, Ratings};
+use crate::error::{DataError, FitError};
+use crate::rng::Rng;
+
+/// How the global offset μ is chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub enum Center {
+    /// μ = mean of the training ratings (default).
+    #[default]
+    Global,
+    /// μ = 0.
+    None,
+}
+
+impl Center {
+    /// The name used on the command line and in JSON (`global`, `none`).
+    pub fn name(self) -> &'static str {
+        match self {
+            Self::Global => "global",
+            Self::None => "none",
+        }
+    }
+}
+
+/// Options of a fit. Defaults: rank 10, λ = 1, σ² = 1, centring on, at most 100 iterations,
+/// tolerance 1e-6 (relative change of L), seed 0.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FitOptions {
+    /// Rank D of the factorization.
+    pub rank: usize,
+    /// Prior precision λ of every vector coordinate.
+    pub lambda: f64,
+    /// Noise variance σ² of a rating.
+    pub sigma2: f64,
+    /// Whether to subtract the global mean.
+    pub center: Center,
+    /// Largest number of iterations.
+    pub max_iters: usize,
+    /// Stop when `|ΔL| ≤ tol·|L|`.
+    pub tol: f64,
+    /// Seed for the initial item vectors.
+    pub seed: u64,
+}
+
+impl Default for FitOptions {
+    fn default() -> Self {
+        Self { rank: 10, lambda: 1.0, sigma2: 1.0, center: Center::Global, max_iters: 100, tol: 1e-6, seed: 0 }
+    }
+}
+
+impl FitOptions {
+    /// Checks that the options can work at all.
+    pub fn validate(&self) -> Result<(), FitError> {
+        let bad = |m: String| Err(FitError::Option(m));
+        if self.rank == 0 {
+            return bad("--rank must be at least 1".into());
+        }
+        if self.rank > 1024 {
+            return bad(format!("--rank {} is larger than the supported 1024", self.rank));
+        }
+        if !(self.lambda.is_finite() && self.lambda >= 0.0) {
+            return bad(format!("--lambda must be a finite number ≥ 0, not {}", self.lambda));
+        }
+        if !(self.sigma2.is_finite() && self.sigma2 > 0.0) {
+            return bad(format!("--sigma2 must be a finite number > 0, not {}", self.sigma2));
+        }
+        if !(self.tol.is_finite() && self.tol >= 0.0) {
+            return bad(format!("--tol must be a finite number ≥ 0, not {}", self.tol));
+        }
+        if self.max_iters == 0 {
+            return bad("--max-iters must be at least 1".into());
+        }
+        Ok(())
+    }
+}
+
+/// The state after one iteration.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct IterationRecord {
+    /// Iteration number, from 1.
+    pub iter: usize,
+    /// Log joint likelihood L (up to a constant).
+    pub log_joint: f64,
+    /// Root mean squared error on the training ratings (raw predictions).
+    pub train_rmse: f64,
+    /// Root mean squared error on the held-out ratings, when there are any.
+    pub holdout_rmse: Option<f64>,
+}
+
+/// What a fit produces.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FitResult {
+    /// The fitted vectors.
+    pub factors: FactorModel,
+    /// One record per iteration.
+    pub trace: Vec<IterationRecord>,
+    /// True when the tolerance was reached before the iteration limit.
+    pub converged: bool,
+}
+
+/// Compressed rows: for each row, its column indices and target values.
+#[derive(Debug, Clone, Default)]
+struct Compressed {
+    start: Vec<usize>,
+    columns: Vec<u32>,
+    targets: Vec<f64>,
+}
+
+impl Compressed {
+    fn build(rows: usize, pairs: impl Iterator<Item = (u32, u32, f64)> + Clone) -> Self {
+        let mut start = vec![0usize; rows + 1];
+        for (r, _, _) in pairs.clone() {
+            start[r as usize + 1] += 1;
+        }
+        for k in 0..rows {
+            start[k + 1] += start[k];
+        }
+        let total = start[rows];
+        let mut fill = start.clone();
+        let mut columns = vec![0u32; total];
+        let mut targets = vec![0f64; total];
+        for (r, c, y) in pairs {
+            let at = &mut fill[r as usize];
+            columns[*at] = c;
+            targets[*at] = y;
+            *at += 1;
+        }
+        Self { start, columns, targets }
+    }
+
+    fn row(&self, r: usize) -> (&[u32], &[f64]) {
+        let range = self.start[r]..self.start[r + 1];
+        (&self.columns[range.clone()], &self.targets[range])
+    }
+
+    fn rows(&self) -> usize {
+        self.start.len() - 1
+    }
+}
+
+/// A fit in progress: exposes the half-steps so callers (and tests) can watch L.
+pub struct Fitter<'a> {
+    options: FitOptions,
+    ratings: &'a Ratings,
+    by_user: Compressed,
+    by_item: Compressed,
+    holdout: Vec<(u32, u32, f64)>,
+    model: FactorModel,
+}
+
+impl<'a> Fitter<'a> {
+    /// Prepares a fit: validates options, applies the λ = 0 guard, computes μ and draws
+    /// (or copies from `init_items`) the starting item vectors.
+    pub fn new(
+        ratings: &'a Ratings,
+        options: &FitOptions,
+        init_items: Option<(&FactorTable, &std::path::Path)>,
+    ) -> Result<Self, FitError> {
+        options.validate()?;
+        let d = options.rank;
+        let train = || ratings.entries.iter().filter(|r| !r.holdout);
+        let train_count = train().count();
+        if train_count == 0 {
+            return Err(FitError::Option("there are no training ratings to fit".into()));
+        }
+        let mu = match options.center {
+            Center::Global => train().map(|r| r.value).sum::<f64>() / train_count as f64,
+            Center::None => 0.0,
+        };
+        if options.lambda == 0.0 {
+            guard_underdetermined(ratings, d)?;
+        }
+        let by_user = Compressed::build(ratings.users.len(), train().map(|r| (r.user, r.item, r.value - mu)));
+        let by_item = Compressed::build(ratings.items.len(), train().map(|r| (r.item, r.user, r.value - mu)));
+        let holdout = ratings.entries.iter().filter(|r| r.holdout).map(|r| (r.user, r.item, r.value)).collect();
+        let items = match init_items {
+            Some((table, path)) => items_from_table(ratings, table, path, d)?,
+            None => random_items(ratings.items.len(), d, options.lambda, options.seed),
+        };
+        let model = FactorModel { rank: d, mu, users: vec![0.0; ratings.users.len() * d], items };
+        Ok(Self { options: options.clone(), ratings, by_user, by_item, holdout, model })
+    }
+
+    /// The current vectors.
+    pub fn model(&self) -> &FactorModel {
+        &self.model
+    }
+
+    /// Updates every user vector (one ridge solve each) for the current item vectors.
+    pub fn update_users(&mut self) -> Result<(), FitError> {
+        let ridge = self.options.lambda * self.options.sigma2;
+        let failed = solve_side(&mut self.model.users, &self.model.items, &self.by_user, self.model.rank, ridge);
+        failed.map_or(Ok(()), |i| Err(self.not_positive_definite("user", self.ratings.users.name(i))))
+    }
+
+    /// Updates every item vector for the current user vectors.
+    pub fn update_items(&mut self) -> Result<(), FitError> {
+        let ridge = self.options.lambda * self.options.sigma2;
+        let failed = solve_side(&mut self.model.items, &self.model.users, &self.by_item, self.model.rank, ridge);
+        failed.map_or(Ok(()), |j| Err(self.not_positive_definite("item", self.ratings.items.name(j))))
+    }
+
+    fn not_positive_definite(&self, kind: &'static str, id: &str) -> FitError {
+        let hint = if self.options.lambda > 0.0 {
+            "; check the input for extreme values"
+        } else {
+            "; its rated vectors are linearly dependent: use --lambda > 0"
+        };
+        FitError::NotPositiveDefinite { kind, id: id.to_owned(), hint }
+    }
+
+    /// Sum of squared training residuals, reduced in user order.
+    fn training_sse(&self) -> f64 {
+        let m = &self.model;
+        let per_user: Vec<f64> = (0..self.by_user.rows())
+            .into_par_iter()
+            .with_min_len(256)
+            .map(|i| {
+                let (items, targets) = self.by_user.row(i);
+                let u = m.user(i as u32);
+                items.iter().zip(targets).map(|(&j, &y)| (y - dot(u, m.item(j))).powi(2)).sum::<f64>()
+            })
+            .collect();
+        per_user.iter().sum()
+    }
+
+    fn holdout_rmse(&self) -> Option<f64> {
+        if self.holdout.is_empty() {
+            return None;
+        }
+        let m = &self.model;
+        let squares: Vec<f64> =
+            self.holdout.par_iter().with_min_len(1024).map(|&(i, j, y)| (y - m.predict(i, j)).powi(2)).collect();
+        Some((squares.iter().sum::<f64>() / squares.len() as f64).sqrt())
+    }
+
+    /// The log joint likelihood L of the current vectors (up to a constant).
+    pub fn log_joint(&self) -> f64 {
+        self.log_joint_with(self.training_sse())
+    }
+
+    fn log_joint_with(&self, sse: f64) -> f64 {
+        let m = &self.model;
+        let norms: f64 = m.users.chunks_exact(m.rank).map(squared_norm).sum::<f64>()
+            + m.items.chunks_exact(m.rank).map(squared_norm).sum::<f64>();
+        -sse / (2.0 * self.options.sigma2) - self.options.lambda / 2.0 * norms
+    }
+
+    /// One full iteration (users, then items) and its record.
+    pub fn iterate(&mut self, iter: usize) -> Result<IterationRecord, FitError> {
+        self.update_users()?;
+        self.update_items()?;
+        let sse = self.training_sse();
+        let n = self.by_user.columns.len() as f64;
+        Ok(IterationRecord {
+            iter,
+            log_joint: self.log_joint_with(sse),
+            train_rmse: (sse / n).sqrt(),
+            holdout_rmse: self.holdout_rmse(),
+        })
+    }
+
+    /// Iterates until `|ΔL| ≤ tol·|L|` or the iteration limit, reporting each iteration.
+    pub fn run(mut self, mut progress: impl FnMut(&IterationRecord)) -> Result<FitResult, FitError> {
+        let mut trace: Vec<IterationRecord> = Vec::new();
+        let mut converged = false;
+        for iter in 1..=self.options.max_iters {
+            let record = self.iterate(iter)?;
+            progress(&record);
+            let previous = trace.last().map(|r| r.log_joint);
+            trace.push(record);
+            if previous.is_some_and(|p| (record.log_joint - p).abs() <= self.options.tol * record.log_joint.abs()) {
+                converged = true;
+                break;
+            }
+        }
+        Ok(FitResult { factors: self.model, trace, converged })
+    }
+}
+
+/// Fits the model to the training ratings (see the module docs of [`crate::model`]).
+///
+/// ```
+/// use sextant::data::{read_ratings, RatingsOptions};
+/// use sextant::model::{fit, FitOptions};
+///
+/// let csv = "user,item,rating\na,x,5\na,y,1\nb,x,4\nb,y,2\nc,x,5\n";
+/// let ratings = read_ratings(csv.as_bytes(), "demo.csv".as_ref(), &RatingsOptions::default()).unwrap();
+/// let options = FitOptions { rank: 2, ..FitOptions::default() };
+/// let result = fit(&ratings, &options, None, |_| {}).unwrap();
+/// assert!(result.trace.windows(2).all(|w| w[1].log_joint >= w[0].log_joint));
+/// ```
+pub fn fit(
+    ratings: &Ratings,
+    options: &FitOptions,
+    init_items: Option<(&FactorTable, &std::path::Path)>,
+    progress: impl FnMut(&IterationRecord),
+) -> Result<FitResult, FitError> {
+    Fitter::new(ratings, options, init_items)?.run(progress)
+}
+
+/// Solves every row of one side; returns the first row (in index order) that failed.
+fn solve_side(out: &mut [f64], other: &[f64], rows: &Compressed, d: usize, ridge: f64) -> Option<u32> {
+    let failures: Vec<u32> = out
+        .par_chunks_mut(d)
+        .enumerate()
+        .with_min_len(64)
+        .map_init(
+            || RidgeWorkspace::new(d),
+            |ws, (r, vector)| {
+                let (columns, targets) = rows.row(r);
+                match ws.solve(other, columns, targets, ridge, vector) {
+                    Ok(()) => None,
+                    Err(NotPositiveDefinite) => Some(r as u32),
+                }
+            },
+        )
+        .flatten()
+        .collect();
+    failures.first().copied()
+}
+
+fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {
+    let (users, items) = ratings.train_support();
+    let short_users: Vec<u32> = (0..users.len() as u32).filter(|&i| (users[i as usize] as usize) < d).collect();
+    let short_items: Vec<u32> = (0..items.len() as u32).filter(|&j| (items[j as usize] as usize) < d).collect();
+    if short_users.is_empty() && short_items.is_empty() {
+        return Ok(());
+    }
+    Err(FitError::Underdetermined {
+        rank: d,
+        short_users: short_users.len(),
+        short_items: short_items.len(),
+        user_list: first_few(short_users.iter().map(|&i| ratings.users.name(i)), 5),
+        item_list: first_few(short_items.iter().map(|&j| ratings.items.name(j)), 5),
+    })
+}
+
+/// Initial item vectors drawn i.i.d. `N(0, 1/λ)` (or `N(0, 1)` when λ = 0).
+fn random_items(count: usize, d: usize, lambda: f64, seed: u64) -> Vec<f64> {
+    let scale = if lambda > 0.0 { 1.0 / lambda.sqrt() } else { 1.0 };
+    let mut rng = Rng::new(seed);
+    (0..count * d).map(|_| scale * rng.normal()).collect()
+}
+
+fn items_from_table(
+    ratings: &Ratings,
+    table: &FactorTable,
+    path: &std::path::Path,
+    d: usize,
+) -> Result<Vec<f64>, FitError> {
+    if table.rank != d {
+        return Err(DataError::in_file(
+            path,
+            format!("the initial item table has {} factor columns but --rank is {d}", table.rank),
+        )
+        .into());
+    }
+    let missing: Vec<&str> =
+        ratings.items.names().iter().filter(|id| table.ids.get(id).is_none()).map(String::as_str).collect();
+    if !missing.is_empty() {
+        return Err(DataError::in_file(
+            path,
+            format!(
+                "{} rated item(s) have no initial vector{}",
+                missing.len(),
+                first_few(missing.iter().copied(), 5)
+            ),
+        )
+        .into());
+    }
+    let mut items = Vec::with_capacity(ratings.items.len() * d);
+    for id in ratings.items.names() {
+        let row = table.ids.get(id).expect("checked above") as usize;
+        items.extend_from_slice(table.row(row));
+    }
+    Ok(items)
+}

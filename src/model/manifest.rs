@@ -1,0 +1,128 @@
+//! The manifest of a model directory (`manifest.ron`): what the model is, how it was made,
+//! how well it fits, and which files hold its tables.
+
+use serde::{Deserialize, Serialize};
+
+use super::fit::{Center, IterationRecord};
+use crate::analysis::FitMetrics;
+use crate::data::{Duplicates, RatingScale};
+
+/// The `format` tag every manifest carries.
+pub const FORMAT_TAG: &str = "sextant-model";
+/// The manifest version this build writes and reads.
+pub const FORMAT_VERSION: u32 = 1;
+
+/// How the vectors came to be.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum Origin {
+    /// Fitted by `sextant fit`.
+    Fit,
+    /// Read from factor tables fitted elsewhere (`sextant import`).
+    Import,
+}
+
+/// Counts the loader checks against the files.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Counts {
+    /// Rows of `users.csv`.
+    pub users: usize,
+    /// Rows of `items.csv`.
+    pub items: usize,
+    /// Rows of `ratings.csv`.
+    pub ratings: usize,
+    /// Ratings marked `train`.
+    pub train_ratings: usize,
+    /// Ratings marked `holdout`.
+    pub holdout_ratings: usize,
+}
+
+/// Options of the run that produced the model (fits only).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RunOptions {
+    /// Iteration limit.
+    pub max_iters: usize,
+    /// Convergence tolerance.
+    pub tol: f64,
+    /// Held-out fraction.
+    pub holdout: f64,
+    /// Duplicate policy used when reading the ratings.
+    pub duplicates: Duplicates,
+    /// Name of the initial item table, when one was given.
+    pub init_items: Option<String>,
+}
+
+/// A fingerprint of one input file.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Input {
+    /// What the file was (`ratings`, `items-meta`, `init-items`, `users`, `items`).
+    pub role: String,
+    /// The file's name (without its directory, which may move).
+    pub name: String,
+    /// Size in bytes.
+    pub bytes: u64,
+    /// FNV-1a 64 hash of the content, hex.
+    pub fnv1a64: String,
+}
+
+/// Names of the files of a model directory, relative to it.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Files {
+    /// User factor table.
+    pub users: String,
+    /// Item factor table.
+    pub items: String,
+    /// Ratings with their split.
+    pub ratings: String,
+    /// Items metadata, when the model has some.
+    pub items_meta: Option<String>,
+}
+
+impl Default for Files {
+    fn default() -> Self {
+        Self {
+            users: "users.csv".into(),
+            items: "items.csv".into(),
+            ratings: "ratings.csv".into(),
+            items_meta: None,
+        }
+    }
+}
+
+/// Everything `manifest.ron` holds.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Manifest {
+    /// Always [`FORMAT_TAG`].
+    pub format: String,
+    /// Format version, [`FORMAT_VERSION`].
+    pub version: u32,
+    /// Fitted here or imported.
+    pub origin: Origin,
+    /// Rank D.
+    pub rank: usize,
+    /// Prior precision λ.
+    pub lambda: f64,
+    /// Noise variance σ².
+    pub sigma2: f64,
+    /// Global offset μ.
+    pub mu: f64,
+    /// How μ was chosen.
+    pub center: Center,
+    /// The rating scale.
+    pub scale: RatingScale,
+    /// Row counts.
+    pub counts: Counts,
+    /// Seed of the initialisation and split.
+    pub seed: u64,
+    /// Options of the fit (None for imports).
+    pub options: Option<RunOptions>,
+    /// Whether the fit reached its tolerance.
+    pub converged: bool,
+    /// Per-iteration trace.
+    pub trace: Vec<IterationRecord>,
+    /// Accuracy and support.
+    pub metrics: FitMetrics,
+    /// Fingerprints of the inputs.
+    pub inputs: Vec<Input>,
+    /// The table files.
+    pub files: Files,
+}
