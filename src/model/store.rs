@@ -202,7 +202,7 @@ fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
 
 /// The manifest as RON text.
 pub fn manifest_text(manifest: &Manifest) -> String {
-    let config = ron::ser::PrettyConfig::new().depth_limit(3).struct_names(false);
+    let config = ron::ser::PrettyConfig::new().depth_limit(2).struct_names(false);
     let mut text = ron::ser::to_string_pretty(manifest, config).expect("a manifest always serialises");
     text.push('\n');
     text

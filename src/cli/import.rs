@@ -1,0 +1,120 @@
+//! `sextant import`: a model directory from factor tables fitted elsewhere.
+
+use std::path::PathBuf;
+
+use anyhow::Context;
+use clap::Args;
+use sextant::data::{RatingScale, read_factor_table, read_items_meta};
+use sextant::error::DataError;
+use sextant::model::{Center, FactorModel, Model, Provenance, save_model};
+
+use super::UsageError;
+use super::fit::CenterArg;
+use super::inputs::{self, RatingsArgs};
+use super::output::{self, Format};
+use super::summary;
+
+/// Build a model directory from user and item factor tables (id,f1,…,fD) and the ratings
+/// they were fitted on. A `split` column (train/holdout) in the ratings is used when present;
+/// otherwise every rating counts as training.
+#[derive(Debug, Args)]
+pub struct ImportArgs {
+    /// Ratings CSV; every user and item in it must have a vector.
+    #[arg(long, value_name = "FILE")]
+    ratings: PathBuf,
+    /// User factor table: id,f1,…,fD.
+    #[arg(long, value_name = "FILE")]
+    users: PathBuf,
+    /// Item factor table: id,f1,…,fD.
+    #[arg(long, value_name = "FILE")]
+    items: PathBuf,
+    /// Items metadata CSV: item plus optional title, category and other columns.
+    #[arg(long, value_name = "FILE")]
+    items_meta: Option<PathBuf>,
+    /// Model directory to write.
+    #[arg(long, value_name = "DIR")]
+    out: PathBuf,
+    /// The global offset μ the vectors were fitted around (prediction = μ + u·v).
+    #[arg(long, conflicts_with = "center", allow_hyphen_values = true)]
+    mu: Option<f64>,
+    /// Or: μ = mean of the training ratings (global) or 0 (none, the default).
+    #[arg(long, value_enum)]
+    center: Option<CenterArg>,
+    /// Prior precision λ the vectors were fitted with (used for uncertainty and fold-in).
+    #[arg(long, default_value_t = 1.0)]
+    lambda: f64,
+    /// Noise variance σ² the vectors were fitted with.
+    #[arg(long, default_value_t = 1.0)]
+    sigma2: f64,
+    /// Output format of the summary printed after the import.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+    #[command(flatten)]
+    input: RatingsArgs,
+}
+
+pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
+    if !(args.lambda.is_finite() && args.lambda >= 0.0) || !(args.sigma2.is_finite() && args.sigma2 > 0.0) {
+        return Err(UsageError("--lambda must be ≥ 0 and --sigma2 > 0".into()).into());
+    }
+    if args.mu.is_some_and(|mu| !mu.is_finite()) {
+        return Err(UsageError("--mu must be a finite number".into()).into());
+    }
+    let scale = args.input.scale()?;
+    let (users, users_input) = read_table(&args.users, "users")?;
+    let (items, items_input) = read_table(&args.items, "items")?;
+    if users.rank != items.rank {
+        return Err(DataError::at_line(
+            &args.items,
+            1,
+            format!("the item table has {} factors but the user table ({}) has {}", items.rank, args.users.display(), users.rank),
+        )
+        .into());
+    }
+    let split = inputs::has_column(&args.ratings, "split")?.then(|| "split".to_owned());
+    let options = args.input.options(scale.clone(), split, true);
+    let (ratings, ratings_input) =
+        inputs::load_ratings(&args.ratings, &options, users.ids.clone(), items.ids.clone())?;
+    let scale = scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
+    let mut prints = vec![ratings_input, users_input, items_input];
+    let meta = match &args.items_meta {
+        Some(path) => {
+            let mut reader = inputs::open(path)?;
+            let meta = read_items_meta(&mut reader, path, &args.input.item_col, &ratings.items)?;
+            prints.push(inputs::input("items-meta", path, &reader));
+            if !meta.unknown.is_empty() {
+                eprintln!(
+                    "note: the items metadata describes {} item(s) without a vector; they are left out{}",
+                    meta.unknown.len(),
+                    sextant::data::ids::first_few(meta.unknown.iter().map(String::as_str), 5)
+                );
+            }
+            Some(meta)
+        }
+        None => None,
+    };
+    let center = args.center.map_or(Center::None, Center::from);
+    let mu = match (args.mu, center) {
+        (Some(mu), _) => mu,
+        (None, Center::Global) => {
+            let train: Vec<f64> = ratings.entries.iter().filter(|r| !r.holdout).map(|r| r.value).collect();
+            train.iter().sum::<f64>() / train.len().max(1) as f64
+        }
+        (None, Center::None) => 0.0,
+    };
+    let center = if args.mu.is_some_and(|mu| mu != 0.0) { Center::Global } else { center };
+    let factors = FactorModel { rank: users.rank, mu, users: users.values, items: items.values };
+    let provenance = Provenance { scale, inputs: prints, meta };
+    let model = Model::from_import(ratings, factors, args.lambda, args.sigma2, center, provenance)
+        .with_context(|| format!("{}: no training ratings (every row is marked holdout)", args.ratings.display()))
+        .map_err(|e| UsageError(format!("{e:#}")))?;
+    save_model(&args.out, &model)?;
+    eprintln!("wrote model directory {}", args.out.display());
+    output::print(&summary::render(&model, &args.out.display().to_string(), args.format)?)
+}
+
+fn read_table(path: &std::path::Path, role: &str) -> Result<(sextant::data::FactorTable, sextant::model::manifest::Input), DataError> {
+    let mut reader = inputs::open(path)?;
+    let table = read_factor_table(&mut reader, path)?;
+    Ok((table, inputs::input(role, path, &reader)))
+}

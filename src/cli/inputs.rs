@@ -1,0 +1,119 @@
+//! Options shared by the commands that read a ratings CSV, and loading with fingerprints.
+
+use std::fs::File;
+use std::io::Read;
+use std::path::Path;
+
+use clap::{Args, ValueEnum};
+use sextant::data::fingerprint::HashingReader;
+use sextant::data::ratings::{RatingColumns, read_ratings_with_ids};
+use sextant::data::{Duplicates, IdMap, RatingScale, Ratings, RatingsOptions};
+use sextant::error::DataError;
+use sextant::model::manifest::Input;
+
+use super::UsageError;
+
+/// What to do with repeated (user, item) pairs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DuplicatePolicy {
+    /// Refuse the file, naming both lines.
+    Error,
+    /// Keep the rating that comes last.
+    Last,
+    /// Keep the mean of the ratings.
+    Mean,
+}
+
+impl From<DuplicatePolicy> for Duplicates {
+    fn from(p: DuplicatePolicy) -> Self {
+        match p {
+            DuplicatePolicy::Error => Self::Error,
+            DuplicatePolicy::Last => Self::Last,
+            DuplicatePolicy::Mean => Self::Mean,
+        }
+    }
+}
+
+/// How to read the ratings CSV.
+#[derive(Debug, Clone, Args)]
+pub struct RatingsArgs {
+    /// Name of the column holding user ids.
+    #[arg(long, value_name = "NAME", default_value = "user")]
+    pub user_col: String,
+    /// Name of the column holding item ids (also used in the items metadata file).
+    #[arg(long, value_name = "NAME", default_value = "item")]
+    pub item_col: String,
+    /// Name of the column holding ratings.
+    #[arg(long, value_name = "NAME", default_value = "rating")]
+    pub rating_col: String,
+    /// The rating scale, MIN:MAX:STEP (STEP 0 for continuous); ratings off it are refused.
+    /// Inferred from the data when absent.
+    #[arg(long, value_name = "MIN:MAX:STEP")]
+    pub scale: Option<String>,
+    /// What to do when a (user, item) pair is rated more than once.
+    #[arg(long, value_enum, default_value_t = DuplicatePolicy::Error)]
+    pub duplicates: DuplicatePolicy,
+}
+
+impl RatingsArgs {
+    /// The scale given with --scale, if any.
+    pub fn scale(&self) -> Result<Option<RatingScale>, UsageError> {
+        self.scale.as_deref().map(RatingScale::parse).transpose().map_err(|e| UsageError(format!("--scale: {e}")))
+    }
+
+    /// Reader options for these arguments.
+    pub fn options(&self, scale: Option<RatingScale>, split: Option<String>, known_ids_only: bool) -> RatingsOptions {
+        RatingsOptions {
+            columns: RatingColumns {
+                user: self.user_col.clone(),
+                item: self.item_col.clone(),
+                rating: self.rating_col.clone(),
+                split,
+            },
+            scale,
+            duplicates: self.duplicates.into(),
+            known_ids_only,
+        }
+    }
+}
+
+/// Opens `path` for reading through a fingerprinting reader.
+pub fn open(path: &Path) -> Result<HashingReader<File>, DataError> {
+    let file = File::open(path).map_err(|e| DataError::read(path, e))?;
+    if file.metadata().is_ok_and(|m| m.is_dir()) {
+        return Err(DataError::in_file(path, "is a directory, not a file"));
+    }
+    Ok(HashingReader::new(file))
+}
+
+/// The fingerprint record of a file read through `reader`.
+pub fn input<R: Read>(role: &str, path: &Path, reader: &HashingReader<R>) -> Input {
+    let (bytes, fnv1a64) = reader.summary();
+    let name = path.file_name().map_or_else(|| path.display().to_string(), |n| n.to_string_lossy().into_owned());
+    Input { role: role.into(), name, bytes, fnv1a64 }
+}
+
+/// Loads a ratings CSV with fingerprint; ids may be restricted to pre-filled maps.
+pub fn load_ratings(
+    path: &Path,
+    options: &RatingsOptions,
+    users: IdMap,
+    items: IdMap,
+) -> anyhow::Result<(Ratings, Input)> {
+    let mut reader = open(path)?;
+    let ratings = read_ratings_with_ids(&mut reader, path, options, users, items)?;
+    // Hash whatever the CSV reader left unread (nothing, normally) so the print is complete.
+    std::io::copy(&mut reader, &mut std::io::sink()).map_err(|e| DataError::read(path, e))?;
+    let input = input("ratings", path, &reader);
+    Ok((ratings, input))
+}
+
+/// True when the CSV at `path` has a header column named `name`.
+pub fn has_column(path: &Path, name: &str) -> Result<bool, DataError> {
+    let mut csv = csv::ReaderBuilder::new().has_headers(false).trim(csv::Trim::All).from_reader(open(path)?);
+    let mut record = csv::StringRecord::new();
+    match csv.read_record(&mut record) {
+        Ok(true) => Ok(record.iter().any(|h| h.trim_start_matches('\u{feff}').eq_ignore_ascii_case(name))),
+        Ok(false) | Err(_) => Ok(false),
+    }
+}

@@ -1,0 +1,84 @@
+//! Command-line front end: argument definitions and one module per subcommand. Each
+//! subcommand parses and validates, resolves a plan (data loaded, model fitted or loaded),
+//! then does the work through the library and prints through [`output`].
+
+mod demo;
+mod fit;
+mod import;
+mod info;
+mod inputs;
+mod output;
+mod summary;
+
+use clap::{Parser, Subcommand};
+
+use sextant::error::{DataError, FitError};
+use sextant::model::store::SaveError;
+
+/// Take bearings in the latent space of a rating-based recommender.
+///
+/// sextant fits a probabilistic matrix factorization to a ratings CSV (or imports vectors
+/// fitted elsewhere) and keeps it as a self-contained model directory. Ratings are personal
+/// data: sextant keeps everything on this machine and sends nothing anywhere.
+///
+/// Run without arguments to see the bundled demo model.
+#[derive(Debug, Parser)]
+#[command(name = "sextant", version, propagate_version = true)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Option<Command>,
+}
+
+#[derive(Debug, Subcommand)]
+enum Command {
+    /// Fit a model to a ratings CSV and write a model directory.
+    Fit(fit::FitArgs),
+    /// Build a model directory from factor tables fitted elsewhere.
+    Import(import::ImportArgs),
+    /// Summarise a model directory: options, counts, convergence, accuracy.
+    Info(info::InfoArgs),
+}
+
+/// Runs the parsed command line.
+pub fn run(cli: Cli) -> anyhow::Result<()> {
+    match cli.command {
+        Some(Command::Fit(args)) => fit::run(&args),
+        Some(Command::Import(args)) => import::run(&args),
+        Some(Command::Info(args)) => info::run(&args),
+        None => demo::run(),
+    }
+}
+
+/// A problem with how sextant was called that clap cannot see (exit code 2).
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct UsageError(pub String);
+
+/// Maps an error to the documented exit code: 2 for bad usage or bad input, 1 otherwise.
+pub fn exit_code(err: &anyhow::Error) -> u8 {
+    for cause in err.chain() {
+        if cause.is::<DataError>() || cause.is::<UsageError>() {
+            return 2;
+        }
+        if let Some(fit) = cause.downcast_ref::<FitError>() {
+            return match fit {
+                FitError::NotPositiveDefinite { .. } => 1,
+                FitError::Option(_) | FitError::Underdetermined { .. } | FitError::Init(_) => 2,
+            };
+        }
+        if let Some(save) = cause.downcast_ref::<SaveError>() {
+            return match save {
+                SaveError::Refused { .. } => 2,
+                SaveError::Io { .. } => 1,
+            };
+        }
+    }
+    1
+}
+
+/// True when the error is only that stdout was closed (e.g. `sextant info m | head -1`).
+pub fn is_broken_pipe(err: &anyhow::Error) -> bool {
+    err.chain().any(|cause| {
+        cause.downcast_ref::<std::io::Error>().is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
+    })
+}

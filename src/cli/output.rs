@@ -1,0 +1,56 @@
+//! Output formats and writing to stdout.
+
+use std::io::Write;
+
+use clap::ValueEnum;
+
+/// How results are printed on stdout.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, ValueEnum)]
+pub enum Format {
+    /// A readable summary or table.
+    #[default]
+    Table,
+    /// A header row and one row per list entry.
+    Csv,
+    /// One JSON object.
+    Json,
+}
+
+/// Writes `text` to stdout in one go.
+pub fn print(text: &str) -> anyhow::Result<()> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())?;
+    out.flush()?;
+    Ok(())
+}
+
+/// `12345` → `12,345`.
+pub fn group(n: usize) -> String {
+    let digits = n.to_string();
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3);
+    for (k, c) in digits.chars().enumerate() {
+        if k > 0 && (digits.len() - k) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    out
+}
+
+/// A float with `digits` decimals, or `–` when absent.
+pub fn fixed(value: Option<f64>, digits: usize) -> String {
+    value.map_or_else(|| "–".to_owned(), |v| format!("{v:.digits$}"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn grouping() {
+        assert_eq!(group(0), "0");
+        assert_eq!(group(999), "999");
+        assert_eq!(group(1000), "1,000");
+        assert_eq!(group(1_234_567), "1,234,567");
+    }
+}

@@ -1,0 +1,203 @@
+//! The model summary shared by `info`, `fit`, `import` and the bare `sextant` command, in
+//! the three output formats. Field names of the JSON and CSV forms are fixed (DESIGN.md,
+//! "Machine-readable output"): fields may be added, never renamed or removed.
+
+use std::fmt::Write as _;
+
+use serde::Serialize;
+use sextant::analysis::ErrorMetrics;
+use sextant::data::RatingScale;
+use sextant::model::Model;
+use sextant::model::fit::IterationRecord;
+use sextant::model::manifest::Origin;
+
+use super::output::{Format, fixed, group};
+
+#[derive(Serialize)]
+struct ScaleJson {
+    kind: &'static str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    levels: Option<Vec<f64>>,
+    min: f64,
+    max: f64,
+}
+
+#[derive(Serialize)]
+struct MetricsJson {
+    rmse: f64,
+    mae: f64,
+    rmse_rounded: f64,
+    mae_rounded: f64,
+    exact_rate: f64,
+    count: usize,
+}
+
+impl From<&ErrorMetrics> for MetricsJson {
+    fn from(m: &ErrorMetrics) -> Self {
+        Self {
+            rmse: m.rmse,
+            mae: m.mae,
+            rmse_rounded: m.rmse_rounded,
+            mae_rounded: m.mae_rounded,
+            exact_rate: m.exact_rate,
+            count: m.count,
+        }
+    }
+}
+
+#[derive(Serialize)]
+struct InfoJson<'a> {
+    rank: usize,
+    lambda: f64,
+    sigma2: f64,
+    mu: f64,
+    center: &'static str,
+    scale: ScaleJson,
+    users: usize,
+    items: usize,
+    ratings: usize,
+    train_ratings: usize,
+    holdout_ratings: usize,
+    seed: u64,
+    converged: bool,
+    iterations: &'a [IterationRecord],
+    train: MetricsJson,
+    holdout: Option<MetricsJson>,
+    low_support_users: usize,
+    low_support_items: usize,
+    origin: &'static str,
+    final_log_joint: Option<f64>,
+    described_items: usize,
+}
+
+/// Renders the summary of `model` (called `label` in the table form).
+pub fn render(model: &Model, label: &str, format: Format) -> anyhow::Result<String> {
+    Ok(match format {
+        Format::Table => table(model, label),
+        Format::Json => {
+            let mut text = serde_json::to_string_pretty(&json(model))?;
+            text.push('\n');
+            text
+        }
+        Format::Csv => trace_csv(&model.manifest.trace),
+    })
+}
+
+fn json(model: &Model) -> InfoJson<'_> {
+    let m = &model.manifest;
+    let scale = match &m.scale {
+        RatingScale::Levels(levels) => {
+            ScaleJson { kind: "levels", levels: Some(levels.clone()), min: m.scale.min(), max: m.scale.max() }
+        }
+        RatingScale::Continuous { min, max } => ScaleJson { kind: "continuous", levels: None, min: *min, max: *max },
+    };
+    InfoJson {
+        rank: m.rank,
+        lambda: m.lambda,
+        sigma2: m.sigma2,
+        mu: m.mu,
+        center: m.center.name(),
+        scale,
+        users: m.counts.users,
+        items: m.counts.items,
+        ratings: m.counts.ratings,
+        train_ratings: m.counts.train_ratings,
+        holdout_ratings: m.counts.holdout_ratings,
+        seed: m.seed,
+        converged: m.converged,
+        iterations: &m.trace,
+        train: (&m.metrics.train).into(),
+        holdout: m.metrics.holdout.as_ref().map(Into::into),
+        low_support_users: m.metrics.low_support_users,
+        low_support_items: m.metrics.low_support_items,
+        origin: origin_name(m.origin),
+        final_log_joint: m.trace.last().map(|r| r.log_joint),
+        described_items: model.meta.as_ref().map_or(0, sextant::data::ItemsMeta::described),
+    }
+}
+
+fn origin_name(origin: Origin) -> &'static str {
+    match origin {
+        Origin::Fit => "fit",
+        Origin::Import => "import",
+    }
+}
+
+fn trace_csv(trace: &[IterationRecord]) -> String {
+    let mut out = String::from("iter,log_joint,train_rmse,holdout_rmse\n");
+    for r in trace {
+        let holdout = r.holdout_rmse.map(|v| v.to_string()).unwrap_or_default();
+        let _ = writeln!(out, "{},{},{},{holdout}", r.iter, r.log_joint, r.train_rmse);
+    }
+    out
+}
+
+fn table(model: &Model, label: &str) -> String {
+    let m = &model.manifest;
+    let c = &m.counts;
+    let mut out = String::new();
+    let mut line = |key: &str, value: String| {
+        let _ = writeln!(out, "{key:<12} {value}");
+    };
+    let origin = match m.origin {
+        Origin::Fit => "fitted by sextant",
+        Origin::Import => "imported from factor tables",
+    };
+    line("model", format!("{label} ({origin})"));
+    let center = match m.center {
+        sextant::model::Center::Global => "global mean of the training ratings",
+        sextant::model::Center::None => "no centring",
+    };
+    line("rank", format!("{}    lambda {}    sigma2 {}", m.rank, m.lambda, m.sigma2));
+    line("mu", format!("{:.4} ({center})", m.mu));
+    line("scale", m.scale.describe());
+    line(
+        "ratings",
+        format!("{} ({} train, {} held out)", group(c.ratings), group(c.train_ratings), group(c.holdout_ratings)),
+    );
+    let support = |n: usize, what: &str| {
+        if n == 0 {
+            format!("all have at least {} training ratings", m.rank)
+        } else {
+            format!("{} with fewer than {} training ratings ({what} dominated by the prior)", group(n), m.rank)
+        }
+    };
+    line("users", format!("{}; {}", group(c.users), support(m.metrics.low_support_users, "vectors")));
+    line("items", format!("{}; {}", group(c.items), support(m.metrics.low_support_items, "vectors")));
+    if let Some(meta) = &model.meta {
+        line("metadata", format!("{} items described", group(meta.described())));
+    }
+    if let (Origin::Fit, Some(options)) = (m.origin, &m.options) {
+        let state = if m.converged { "converged" } else { "stopped without converging" };
+        line(
+            "fit",
+            format!(
+                "{state} after {} of at most {} iterations (tol {:e}), seed {}",
+                m.trace.len(),
+                options.max_iters,
+                options.tol,
+                m.seed
+            ),
+        );
+        if let Some(last) = m.trace.last() {
+            line("log joint", format!("{:.4} (final)", last.log_joint));
+        }
+    }
+    let _ = writeln!(out);
+    let _ = writeln!(out, "{:<12} {:>9} {:>9} {:>14} {:>13} {:>8}", "accuracy", "RMSE", "MAE", "RMSE rounded", "MAE rounded", "exact");
+    let mut row = |name: &str, metrics: Option<&ErrorMetrics>| {
+        let v = |f: fn(&ErrorMetrics) -> f64| fixed(metrics.map(f), 4);
+        let exact = metrics.map_or_else(|| "–".to_owned(), |m| format!("{:.1}%", 100.0 * m.exact_rate));
+        let _ = writeln!(
+            out,
+            "{name:<12} {:>9} {:>9} {:>14} {:>13} {exact:>8}",
+            v(|m| m.rmse),
+            v(|m| m.mae),
+            v(|m| m.rmse_rounded),
+            v(|m| m.mae_rounded)
+        );
+    };
+    row("train", Some(&m.metrics.train));
+    row("held out", m.metrics.holdout.as_ref());
+    out
+}
