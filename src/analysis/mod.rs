@@ -1,5 +1,7 @@
-//! Analyses of a fitted model: accuracy metrics (more to come: neighbours, loadings).
+//! Analyses of a fitted model: accuracy metrics and subspace comparison.
 
 pub mod metrics;
+pub mod subspace;
 
 pub use metrics::{ErrorMetrics, FitMetrics, error_metrics, fit_metrics};
+pub use subspace::principal_angles;

@@ -66,7 +66,7 @@ impl RidgeWorkspace {
             self.gram[(k, k)] += ridge;
         }
         self.rhs.gemv(1.0, &x_t, &DVectorView::from_slice(targets, n), 0.0);
-        let largest_diagonal = (0..d).map(|k| self.gram[(k, k)]).fold(0.0, f64::max);
+        let diagonal: Vec<f64> = if ridge == 0.0 { (0..d).map(|k| self.gram[(k, k)]).collect() } else { Vec::new() };
         let gram = std::mem::replace(&mut self.gram, DMatrix::zeros(0, 0));
         let Some(factor) = Cholesky::new(gram) else {
             self.gram = DMatrix::zeros(d, d);
@@ -74,10 +74,10 @@ impl RidgeWorkspace {
         };
         if ridge == 0.0 {
             // Without a ridge term, a rank-deficient Gram matrix can survive factorisation
-            // with a pivot that is only rounding noise; treat pivots below 1e-12 of the
-            // largest diagonal entry (condition number ~1e12) as singular.
+            // with a pivot that is only rounding noise. L_kk² / G_kk is the share of column
+            // k not explained by the columns before it (scale-free); below 64 ε it is noise.
             let l = factor.l_dirty();
-            if (0..d).any(|k| l[(k, k)] * l[(k, k)] <= 1e-12 * largest_diagonal) {
+            if (0..d).any(|k| l[(k, k)] * l[(k, k)] <= 64.0 * f64::EPSILON * diagonal[k]) {
                 self.gram = factor.unpack_dirty();
                 return Err(NotPositiveDefinite);
             }

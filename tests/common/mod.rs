@@ -1,0 +1,58 @@
+//! Helpers shared by the integration tests.
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+
+use serde_json::Value;
+use sextant::data::{FactorTable, IdMap, Rating, Ratings};
+
+/// Path of a file in the repository.
+pub fn repo(path: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join(path)
+}
+
+/// A reference fixture written by tests/reference/make_fixtures.py.
+pub fn fixture(name: &str) -> Value {
+    let text = std::fs::read_to_string(repo(&format!("tests/reference/fixtures/{name}")))
+        .unwrap_or_else(|e| panic!("fixture {name}: {e}; run python3 tests/reference/make_fixtures.py"));
+    serde_json::from_str(&text).expect("fixture is JSON")
+}
+
+/// A JSON array of numbers as a vector.
+pub fn floats(value: &Value) -> Vec<f64> {
+    value.as_array().expect("array").iter().map(|v| v.as_f64().expect("number")).collect()
+}
+
+/// A JSON array of rows as a row-major vector and its width.
+pub fn matrix(value: &Value) -> (Vec<f64>, usize) {
+    let rows = value.as_array().expect("rows");
+    let width = rows.first().map_or(0, |r| r.as_array().expect("row").len());
+    (rows.iter().flat_map(floats).collect(), width)
+}
+
+/// Ratings from `[[user, item, value], ...]`, interned in the order given.
+pub fn ratings_from(rows: &Value) -> Ratings {
+    let mut ratings = Ratings::default();
+    for row in rows.as_array().expect("rows") {
+        let user = ratings.users.intern(row[0].as_str().expect("user"));
+        let item = ratings.items.intern(row[1].as_str().expect("item"));
+        ratings.entries.push(Rating { user, item, value: row[2].as_f64().expect("value"), holdout: false });
+    }
+    ratings.entries.sort_by_key(|r| (r.user, r.item));
+    ratings
+}
+
+/// A factor table with ids `prefix0..` from row-major values.
+pub fn table(prefix: &str, values: Vec<f64>, rank: usize) -> FactorTable {
+    let mut ids = IdMap::new();
+    for k in 0..values.len() / rank {
+        ids.intern(&format!("{prefix}{k}"));
+    }
+    FactorTable { ids, rank, values }
+}
+
+/// Largest absolute difference, relative to max(1, |expected|).
+pub fn max_rel_diff(actual: &[f64], expected: &[f64]) -> f64 {
+    assert_eq!(actual.len(), expected.len());
+    actual.iter().zip(expected).map(|(a, e)| (a - e).abs() / e.abs().max(1.0)).fold(0.0, f64::max)
+}

@@ -1,0 +1,182 @@
+#!/usr/bin/env python3
+"""Reference fixtures for sextant's tests, computed with numpy, scipy and scikit-learn.
+
+Run from the repository root:
+
+    python3 tests/reference/make_fixtures.py           # (re)write tests/reference/fixtures/
+    python3 tests/reference/make_fixtures.py --check   # recompute, compare with the committed files
+
+The Rust tests read the JSON files; `.ci/run` runs `--check` so the committed numbers are
+proven to be what the libraries compute. Inputs are drawn from numpy's seeded PCG64
+generator (numpy.random.default_rng), so they are reproducible everywhere.
+"""
+
+import json
+import math
+import sys
+from pathlib import Path
+
+import numpy as np
+import scipy.linalg
+import sklearn
+from sklearn.linear_model import Ridge
+
+HERE = Path(__file__).resolve().parent
+FIXTURES = HERE / "fixtures"
+
+
+def ridge_half_steps(seed, n_users, n_items, rank, lam, sigma2, density, center):
+    """One user half-step then one item half-step, each a ridge regression.
+
+    scikit-learn's Ridge minimises ||y - Xw||^2 + alpha ||w||^2, so the user step equals
+    Ridge(alpha = lam * sigma2, fit_intercept=False) on the rated items' vectors and the
+    centred ratings. With lam = 0 the reference is numpy.linalg.lstsq instead.
+    """
+    rng = np.random.default_rng(seed)
+    mask = rng.random((n_users, n_items)) < density
+    # Every user and item gets at least rank + 1 ratings so lam = 0 is solvable too.
+    for i in range(n_users):
+        mask[i, rng.permutation(n_items)[: rank + 1]] = True
+    for j in range(n_items):
+        mask[rng.permutation(n_users)[: rank + 1], j] = True
+    values = rng.integers(1, 6, size=(n_users, n_items)).astype(float)
+    v0 = rng.normal(size=(n_items, rank))
+    mu = values[mask].mean() if center else 0.0
+    alpha = lam * sigma2
+
+    def solve(x, y):
+        if alpha == 0.0:
+            return np.linalg.lstsq(x, y, rcond=None)[0], np.linalg.lstsq(x, y, rcond=None)[0]
+        model = Ridge(alpha=alpha, fit_intercept=False, solver="cholesky").fit(x, y)
+        direct = np.linalg.solve(x.T @ x + alpha * np.eye(rank), x.T @ y)
+        return model.coef_, direct
+
+    u1, u1_direct = np.zeros((n_users, rank)), np.zeros((n_users, rank))
+    for i in range(n_users):
+        cols = np.flatnonzero(mask[i])
+        u1[i], u1_direct[i] = solve(v0[cols], values[i, cols] - mu)
+    v1, v1_direct = np.zeros((n_items, rank)), np.zeros((n_items, rank))
+    for j in range(n_items):
+        rows = np.flatnonzero(mask[:, j])
+        v1[j], v1_direct[j] = solve(u1[rows], values[rows, j] - mu)
+    ratings = [[f"u{i}", f"i{j}", values[i, j]] for i in range(n_users) for j in range(n_items) if mask[i, j]]
+    return {
+        "source": "scikit-learn Ridge(alpha=lambda*sigma2, fit_intercept=False)"
+        if alpha > 0
+        else "numpy.linalg.lstsq",
+        "rank": rank,
+        "lambda": lam,
+        "sigma2": sigma2,
+        "center": "global" if center else "none",
+        "mu": mu,
+        "ratings": ratings,
+        "items_init": v0.tolist(),
+        "users_after": u1.tolist(),
+        "users_after_numpy_solve": u1_direct.tolist(),
+        "items_after": v1.tolist(),
+        "items_after_numpy_solve": v1_direct.tolist(),
+    }
+
+
+def soft_threshold_svd(seed, n_users, n_items, rank, lam):
+    """A fully observed matrix: the MAP fit's product UV' has singular values
+    max(s_i - lam*sigma2, 0) (sigma2 = 1) and its item subspace is the top right singular
+    subspace of R (Srebro, Rennie & Jaakkola 2004; Mazumder, Hastie & Tibshirani 2010)."""
+    rng = np.random.default_rng(seed)
+    a = rng.normal(size=(n_users, rank))
+    b = rng.normal(size=(n_items, rank))
+    r = a @ np.diag([3.0, 2.0, 1.2][:rank]) @ b.T + 0.1 * rng.normal(size=(n_users, n_items))
+    r = np.round(r, 6)
+    _, s, vt = np.linalg.svd(r)
+    return {
+        "source": "numpy.linalg.svd",
+        "rank": rank,
+        "lambda": lam,
+        "matrix": r.tolist(),
+        "singular_values": s.tolist(),
+        "expected_singular_values": np.maximum(s[:rank] - lam, 0.0).tolist(),
+        "top_right_singular_vectors": vt[:rank].tolist(),
+    }
+
+
+def subspace_angle_cases():
+    """Principal angles (Bjorck & Golub 1973) from scipy.linalg.subspace_angles (radians,
+    largest first)."""
+    rng = np.random.default_rng(7)
+    cases = []
+    t = 0.3
+    a = np.array([[1.0, 0.0], [0.0, 1.0], [0.0, 0.0]])
+    b = np.array([[1.0, 0.0], [0.0, math.cos(t)], [0.0, math.sin(t)]])
+    cases.append({"a": a.tolist(), "b": b.tolist(), "angles": scipy.linalg.subspace_angles(a, b).tolist()})
+    for n, k in [(6, 2), (10, 3), (8, 4)]:
+        a = rng.normal(size=(n, k))
+        b = a + 1e-3 * rng.normal(size=(n, k))
+        cases.append({"a": a.tolist(), "b": b.tolist(), "angles": scipy.linalg.subspace_angles(a, b).tolist()})
+        c = rng.normal(size=(n, k))
+        cases.append({"a": a.tolist(), "b": c.tolist(), "angles": scipy.linalg.subspace_angles(a, c).tolist()})
+    return {"source": "scipy.linalg.subspace_angles", "cases": cases}
+
+
+def longley():
+    """NIST StRD Longley through ordinary least squares; data from statsmodels.datasets."""
+    from statsmodels.datasets import longley as data
+
+    frame = data.load_pandas()
+    x = np.column_stack([np.ones(len(frame.endog)), frame.exog.to_numpy(dtype=float)])
+    y = frame.endog.to_numpy(dtype=float)
+    beta = np.linalg.lstsq(x, y, rcond=None)[0]
+    return {"source": "statsmodels.datasets.longley + numpy.linalg.lstsq", "x": x.tolist(), "y": y.tolist(), "beta": beta.tolist()}
+
+
+def build():
+    return {
+        "ridge_steps.json": {
+            "cases": [
+                ridge_half_steps(1, 12, 9, 3, 0.7, 1.3, 0.5, True),
+                ridge_half_steps(2, 15, 11, 4, 2.0, 0.5, 0.4, False),
+                ridge_half_steps(3, 10, 8, 2, 0.0, 1.0, 0.6, True),
+                ridge_half_steps(4, 30, 20, 10, 1.0, 1.0, 0.7, True),
+            ]
+        },
+        "soft_threshold_svd.json": soft_threshold_svd(11, 40, 30, 3, 1.5),
+        "subspace_angles.json": subspace_angle_cases(),
+        "longley.json": longley(),
+    }
+
+
+def close(a, b, path="$"):
+    """Recursive comparison: numbers to 1e-9 relative (BLAS builds differ in the last bits)."""
+    if isinstance(a, dict):
+        assert isinstance(b, dict) and a.keys() == b.keys(), f"{path}: keys differ"
+        for k in a:
+            close(a[k], b[k], f"{path}.{k}")
+    elif isinstance(a, list):
+        assert isinstance(b, list) and len(a) == len(b), f"{path}: lengths differ"
+        for k, (x, y) in enumerate(zip(a, b)):
+            close(x, y, f"{path}[{k}]")
+    elif isinstance(a, float) or isinstance(b, float):
+        assert abs(a - b) <= 1e-9 * max(1.0, abs(a), abs(b)), f"{path}: {a} != {b}"
+    else:
+        assert a == b, f"{path}: {a!r} != {b!r}"
+
+
+def main():
+    check = "--check" in sys.argv[1:]
+    fixtures = build()
+    FIXTURES.mkdir(exist_ok=True)
+    for name, content in fixtures.items():
+        content["generated_with"] = {"numpy": np.__version__, "scipy": scipy.__version__, "scikit-learn": sklearn.__version__}
+        path = FIXTURES / name
+        if check:
+            committed = json.loads(path.read_text())
+            committed.pop("generated_with", None)
+            content.pop("generated_with")
+            close(content, committed, name)
+            print(f"ok {name}")
+        else:
+            path.write_text(json.dumps(content, indent=None, separators=(",", ":")) + "\n")
+            print(f"wrote {path.relative_to(HERE.parent.parent)}")
+
+
+if __name__ == "__main__":
+    main()
