@@ -29,49 +29,105 @@ const CATEGORIES: [Category; 8] = [
     Category {
         name: "breads",
         adjectives: ["Seeded", "Rustic", "Overnight", "Braided", "Crusty"],
-        ingredients: ["Rye", "Spelt", "Oat", "Walnut", "Potato", "Pumpkin", "Barley", "Olive", "Fennel", "Honey"],
+        ingredients: [
+            "Rye", "Spelt", "Oat", "Walnut", "Potato", "Pumpkin", "Barley", "Olive", "Fennel",
+            "Honey",
+        ],
         dishes: ["Loaf", "Rolls", "Flatbread"],
     },
     Category {
         name: "soups",
         adjectives: ["Smoky", "Creamy", "Hearty", "Clear", "Chilled"],
-        ingredients: ["Lentil", "Leek", "Tomato", "Chestnut", "Pea", "Squash", "Bean", "Celeriac", "Nettle", "Onion"],
+        ingredients: [
+            "Lentil", "Leek", "Tomato", "Chestnut", "Pea", "Squash", "Bean", "Celeriac", "Nettle",
+            "Onion",
+        ],
         dishes: ["Soup", "Broth", "Chowder"],
     },
     Category {
         name: "curries",
         adjectives: ["Fiery", "Mild", "Coconut", "Tamarind", "Roasted"],
-        ingredients: ["Chickpea", "Aubergine", "Spinach", "Cauliflower", "Okra", "Paneer", "Prawn", "Lamb", "Potato", "Mushroom"],
+        ingredients: [
+            "Chickpea",
+            "Aubergine",
+            "Spinach",
+            "Cauliflower",
+            "Okra",
+            "Paneer",
+            "Prawn",
+            "Lamb",
+            "Potato",
+            "Mushroom",
+        ],
         dishes: ["Curry", "Masala", "Stew"],
     },
     Category {
         name: "salads",
         adjectives: ["Crunchy", "Warm", "Zesty", "Herby", "Charred"],
-        ingredients: ["Fennel", "Beetroot", "Farro", "Radish", "Cucumber", "Kale", "Orange", "Lentil", "Apple", "Cabbage"],
+        ingredients: [
+            "Fennel", "Beetroot", "Farro", "Radish", "Cucumber", "Kale", "Orange", "Lentil",
+            "Apple", "Cabbage",
+        ],
         dishes: ["Salad", "Slaw", "Bowl"],
     },
     Category {
         name: "cakes",
         adjectives: ["Sticky", "Spiced", "Lemon", "Marbled", "Upside-down"],
-        ingredients: ["Ginger", "Almond", "Carrot", "Plum", "Cardamom", "Rhubarb", "Pear", "Hazelnut", "Poppy Seed", "Date"],
+        ingredients: [
+            "Ginger",
+            "Almond",
+            "Carrot",
+            "Plum",
+            "Cardamom",
+            "Rhubarb",
+            "Pear",
+            "Hazelnut",
+            "Poppy Seed",
+            "Date",
+        ],
         dishes: ["Cake", "Loaf Cake", "Traybake"],
     },
     Category {
         name: "noodles",
         adjectives: ["Sesame", "Garlic", "Hand-pulled", "Cold", "Peanut"],
-        ingredients: ["Tofu", "Greens", "Mushroom", "Egg", "Cabbage", "Chicken", "Pork", "Shrimp", "Chili", "Scallion"],
+        ingredients: [
+            "Tofu", "Greens", "Mushroom", "Egg", "Cabbage", "Chicken", "Pork", "Shrimp", "Chili",
+            "Scallion",
+        ],
         dishes: ["Noodles", "Stir-fry", "Noodle Soup"],
     },
     Category {
         name: "grills",
         adjectives: ["Charcoal", "Marinated", "Skewered", "Glazed", "Cedar"],
-        ingredients: ["Halloumi", "Corn", "Mackerel", "Chicken", "Pepper", "Courgette", "Lamb", "Sausage", "Trout", "Pineapple"],
+        ingredients: [
+            "Halloumi",
+            "Corn",
+            "Mackerel",
+            "Chicken",
+            "Pepper",
+            "Courgette",
+            "Lamb",
+            "Sausage",
+            "Trout",
+            "Pineapple",
+        ],
         dishes: ["Skewers", "Platter", "Steaks"],
     },
     Category {
         name: "preserves",
         adjectives: ["Quick", "Spiced", "Small-batch", "Tart", "Smoky"],
-        ingredients: ["Plum", "Onion", "Quince", "Chili", "Apricot", "Gooseberry", "Beetroot", "Lemon", "Tomato", "Damson"],
+        ingredients: [
+            "Plum",
+            "Onion",
+            "Quince",
+            "Chili",
+            "Apricot",
+            "Gooseberry",
+            "Beetroot",
+            "Lemon",
+            "Tomato",
+            "Damson",
+        ],
         dishes: ["Jam", "Chutney", "Pickle"],
     },
 ];
@@ -84,14 +140,31 @@ struct Options {
 }
 
 fn parse_args() -> Result<Options, String> {
-    let mut options = Options { out: PathBuf::from("demo-data"), members: 1500, recipes: 400, seed: 2026 };
+    let mut options = Options {
+        out: PathBuf::from("demo-data"),
+        members: 1500,
+        recipes: 400,
+        seed: 2026,
+    };
     let mut args = std::env::args().skip(1);
     while let Some(arg) = args.next() {
         let mut value = |name: &str| args.next().ok_or_else(|| format!("{name} needs a value"));
         match arg.as_str() {
-            "--members" => options.members = value("--members")?.parse().map_err(|e| format!("--members: {e}"))?,
-            "--recipes" => options.recipes = value("--recipes")?.parse().map_err(|e| format!("--recipes: {e}"))?,
-            "--seed" => options.seed = value("--seed")?.parse().map_err(|e| format!("--seed: {e}"))?,
+            "--members" => {
+                options.members = value("--members")?
+                    .parse()
+                    .map_err(|e| format!("--members: {e}"))?;
+            }
+            "--recipes" => {
+                options.recipes = value("--recipes")?
+                    .parse()
+                    .map_err(|e| format!("--recipes: {e}"))?;
+            }
+            "--seed" => {
+                options.seed = value("--seed")?
+                    .parse()
+                    .map_err(|e| format!("--seed: {e}"))?;
+            }
             other if !other.starts_with('-') => options.out = PathBuf::from(other),
             other => return Err(format!("unknown option '{other}'")),
         }
@@ -171,7 +244,10 @@ fn main() {
     for m in 0..options.members {
         let taste = gaussian(&mut rng, 0.9);
         let leniency = 0.4 * rng.normal();
-        let activity = (18f64.ln() + 0.85 * rng.normal()).exp().round().clamp(2.0, 250.0) as usize;
+        let activity = (18f64.ln() + 0.85 * rng.normal())
+            .exp()
+            .round()
+            .clamp(2.0, 250.0) as usize;
         let wanted = activity.min(recipes.len());
         // Weighted sampling without replacement (Efraimidis & Spirakis): members mostly try
         // popular recipes and recipes they are drawn to.
@@ -186,7 +262,8 @@ fn main() {
         keys.sort_by(|a, b| b.0.total_cmp(&a.0));
         for &(_, j) in keys.iter().take(wanted) {
             let r = &recipes[j];
-            let score = 2.75 + leniency + r.quality + 0.6 * dot(&taste, &r.taste) + 0.45 * rng.normal();
+            let score =
+                2.75 + leniency + r.quality + 0.6 * dot(&taste, &r.taste) + 0.45 * rng.normal();
             let stars = score.round().clamp(1.0, 5.0) as u32;
             let _ = writeln!(ratings, "m{:04},{},{stars}", m + 1, r.id);
             total += 1;
@@ -196,16 +273,27 @@ fn main() {
     let mut by_id: Vec<&Recipe> = recipes.iter().collect();
     by_id.sort_by(|a, b| a.id.cmp(&b.id));
     for r in by_id {
-        let _ = writeln!(items, "{},{},{},{}", r.id, r.title, CATEGORIES[r.category].name, r.minutes);
+        let _ = writeln!(
+            items,
+            "{},{},{},{}",
+            r.id, r.title, CATEGORIES[r.category].name, r.minutes
+        );
     }
     let write = |name: &str, text: &str| {
         let path = options.out.join(name);
-        if let Err(e) = std::fs::create_dir_all(&options.out).and_then(|()| std::fs::write(&path, text)) {
+        if let Err(e) =
+            std::fs::create_dir_all(&options.out).and_then(|()| std::fs::write(&path, text))
+        {
             eprintln!("error: {}: {e}", path.display());
             std::process::exit(1);
         }
     };
     write("ratings.csv", &ratings);
     write("items.csv", &items);
-    eprintln!("wrote {total} ratings from {} members on {} recipes to {}", options.members, options.recipes, options.out.display());
+    eprintln!(
+        "wrote {total} ratings from {} members on {} recipes to {}",
+        options.members,
+        options.recipes,
+        options.out.display()
+    );
 }

@@ -19,12 +19,18 @@ pub struct Location {
 impl Location {
     /// A location covering a whole file.
     pub fn file(path: &Path) -> Self {
-        Self { file: path.display().to_string(), line: None }
+        Self {
+            file: path.display().to_string(),
+            line: None,
+        }
     }
 
     /// A location on one line of a file.
     pub fn line(path: &Path, line: u64) -> Self {
-        Self { file: path.display().to_string(), line: Some(line) }
+        Self {
+            file: path.display().to_string(),
+            line: Some(line),
+        }
     }
 }
 
@@ -61,17 +67,26 @@ pub enum DataError {
 impl DataError {
     /// An invalid-content error on a given line of `path`.
     pub fn at_line(path: &Path, line: u64, reason: impl Into<String>) -> Self {
-        Self::Invalid { location: Location::line(path, line), reason: reason.into() }
+        Self::Invalid {
+            location: Location::line(path, line),
+            reason: reason.into(),
+        }
     }
 
     /// An invalid-content error about a whole file.
     pub fn in_file(path: &Path, reason: impl Into<String>) -> Self {
-        Self::Invalid { location: Location::file(path), reason: reason.into() }
+        Self::Invalid {
+            location: Location::file(path),
+            reason: reason.into(),
+        }
     }
 
     /// A read error for `path`.
     pub fn read(path: &Path, source: std::io::Error) -> Self {
-        Self::Read { location: Location::file(path), source }
+        Self::Read {
+            location: Location::file(path),
+            source,
+        }
     }
 
     /// The file and line the error is about.
@@ -108,7 +123,9 @@ pub enum FitError {
         item_list: String,
     },
     /// A Cholesky factorization failed; with λ > 0 this points at non-finite input.
-    #[error("the {kind} '{id}' could not be solved: its normal equations are not positive definite{hint}")]
+    #[error(
+        "the {kind} '{id}' could not be solved: its normal equations are not positive definite{hint}"
+    )]
     NotPositiveDefinite {
         /// "user" or "item".
         kind: &'static str,

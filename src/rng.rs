@@ -19,7 +19,10 @@ pub struct Rng {
 impl Rng {
     /// A generator seeded with `seed`.
     pub fn new(seed: u64) -> Self {
-        Self { state: seed, spare_normal: None }
+        Self {
+            state: seed,
+            spare_normal: None,
+        }
     }
 
     /// A generator for one of many independent streams derived from `seed`, e.g. one per

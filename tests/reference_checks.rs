@@ -1,9 +1,11 @@
 //! The fitter checked against outside references: scikit-learn, numpy and scipy (through
 //! the committed fixtures of tests/reference/make_fixtures.py) and NIST's certified
 //! least-squares results.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
 
 mod common;
 
+use std::fmt::Write as _;
 use std::path::Path;
 
 use common::{fixture, floats, matrix, max_rel_diff, ratings_from, table};
@@ -12,7 +14,12 @@ use sextant::analysis::principal_angles;
 use sextant::model::{Center, FitOptions, Fitter, RidgeWorkspace};
 
 /// The vectors of `ids` (e.g. u0, u1, …) in the model's order for those ids.
-fn vectors_by_id(names: &sextant::data::IdMap, values: &[f64], rank: usize, prefix: &str) -> Vec<f64> {
+fn vectors_by_id(
+    names: &sextant::data::IdMap,
+    values: &[f64],
+    rank: usize,
+    prefix: &str,
+) -> Vec<f64> {
     (0..names.len())
         .flat_map(|k| {
             let i = names.get(&format!("{prefix}{k}")).expect("id present") as usize;
@@ -35,22 +42,38 @@ fn each_half_step_equals_scikit_learn_ridge_and_numpy_solve() {
             rank,
             lambda: case["lambda"].as_f64().unwrap(),
             sigma2: case["sigma2"].as_f64().unwrap(),
-            center: if case["center"] == "global" { Center::Global } else { Center::None },
+            center: if case["center"] == "global" {
+                Center::Global
+            } else {
+                Center::None
+            },
             ..FitOptions::default()
         };
-        let mut fitter = Fitter::new(&ratings, &options, Some((&init, Path::new("init.csv")))).unwrap();
+        let mut fitter =
+            Fitter::new(&ratings, &options, Some((&init, Path::new("init.csv")))).unwrap();
         assert!((fitter.model().mu - case["mu"].as_f64().unwrap()).abs() < 1e-12);
         fitter.update_users().unwrap();
         let users = vectors_by_id(&ratings.users, &fitter.model().users, rank, "u");
         let tolerance = if options.lambda == 0.0 { 1e-8 } else { 1e-10 };
         let (expected, _) = matrix(&case["users_after"]);
-        assert!(max_rel_diff(&users, &expected) < tolerance, "user step vs {}", case["source"]);
+        assert!(
+            max_rel_diff(&users, &expected) < tolerance,
+            "user step vs {}",
+            case["source"]
+        );
         let (direct, _) = matrix(&case["users_after_numpy_solve"]);
-        assert!(max_rel_diff(&users, &direct) < tolerance, "user step vs numpy.linalg.solve");
+        assert!(
+            max_rel_diff(&users, &direct) < tolerance,
+            "user step vs numpy.linalg.solve"
+        );
         fitter.update_items().unwrap();
         let items = vectors_by_id(&ratings.items, &fitter.model().items, rank, "i");
         let (expected, _) = matrix(&case["items_after"]);
-        assert!(max_rel_diff(&items, &expected) < tolerance, "item step vs {}", case["source"]);
+        assert!(
+            max_rel_diff(&items, &expected) < tolerance,
+            "item step vs {}",
+            case["source"]
+        );
     }
 }
 
@@ -74,11 +97,24 @@ fn fully_observed_fit_is_the_soft_thresholded_svd() {
     let mut text = String::from("user,item,rating\n");
     for i in 0..rows {
         for j in 0..cols {
-            text.push_str(&format!("u{i},i{j},{}\n", values[i * cols + j]));
+            writeln!(text, "u{i},i{j},{}", values[i * cols + j]).unwrap();
         }
     }
-    let ratings = sextant::data::read_ratings(text.as_bytes(), Path::new("full.csv"), &Default::default()).unwrap();
-    let options = FitOptions { rank, lambda, center: Center::None, tol: 0.0, max_iters: 3000, seed: 5, ..FitOptions::default() };
+    let ratings = sextant::data::read_ratings(
+        text.as_bytes(),
+        Path::new("full.csv"),
+        &sextant::data::RatingsOptions::default(),
+    )
+    .unwrap();
+    let options = FitOptions {
+        rank,
+        lambda,
+        center: Center::None,
+        tol: 0.0,
+        max_iters: 3000,
+        seed: 5,
+        ..FitOptions::default()
+    };
     let result = sextant::model::fit(&ratings, &options, None, |_| {}).unwrap();
     let u = DMatrix::from_row_slice(rows, rank, &result.factors.users);
     let v = DMatrix::from_row_slice(cols, rank, &result.factors.items);
@@ -86,7 +122,12 @@ fn fully_observed_fit_is_the_soft_thresholded_svd() {
     let expected = floats(&f["expected_singular_values"]);
     let found = singular_values(&product);
     for k in 0..rank {
-        assert!((found[k] - expected[k]).abs() < 1e-8 * expected[k], "σ{k}: {} vs {}", found[k], expected[k]);
+        assert!(
+            (found[k] - expected[k]).abs() < 1e-8 * expected[k],
+            "σ{k}: {} vs {}",
+            found[k],
+            expected[k]
+        );
     }
     assert!(found[rank..].iter().all(|s| s.abs() < 1e-9));
     let (top, _) = matrix(&f["top_right_singular_vectors"]);
@@ -116,12 +157,42 @@ fn principal_angles_match_scipy() {
 /// NIST StRD "Norris" (public domain): 36 (y, x) pairs. Data as recalled [memory]; this
 /// test proves the recall by reproducing NIST's certified values to 1e-10.
 const NORRIS: [(f64, f64); 36] = [
-    (0.1, 0.2), (338.8, 337.4), (118.1, 118.2), (888.0, 884.6), (9.2, 10.1), (228.1, 226.5),
-    (668.5, 666.3), (998.5, 996.3), (449.1, 448.6), (778.9, 777.0), (559.2, 558.2), (0.3, 0.4),
-    (0.1, 0.6), (778.1, 775.5), (668.8, 666.9), (339.3, 338.0), (448.9, 447.5), (10.8, 11.6),
-    (557.7, 556.0), (228.3, 228.1), (998.0, 995.8), (888.8, 887.6), (119.6, 120.2), (0.3, 0.3),
-    (0.6, 0.3), (557.6, 556.8), (339.3, 339.1), (888.0, 887.2), (998.5, 999.0), (778.9, 779.0),
-    (10.2, 11.1), (117.6, 118.3), (228.9, 229.2), (668.4, 669.1), (449.2, 448.9), (0.2, 0.5),
+    (0.1, 0.2),
+    (338.8, 337.4),
+    (118.1, 118.2),
+    (888.0, 884.6),
+    (9.2, 10.1),
+    (228.1, 226.5),
+    (668.5, 666.3),
+    (998.5, 996.3),
+    (449.1, 448.6),
+    (778.9, 777.0),
+    (559.2, 558.2),
+    (0.3, 0.4),
+    (0.1, 0.6),
+    (778.1, 775.5),
+    (668.8, 666.9),
+    (339.3, 338.0),
+    (448.9, 447.5),
+    (10.8, 11.6),
+    (557.7, 556.0),
+    (228.3, 228.1),
+    (998.0, 995.8),
+    (888.8, 887.6),
+    (119.6, 120.2),
+    (0.3, 0.3),
+    (0.6, 0.3),
+    (557.6, 556.8),
+    (339.3, 339.1),
+    (888.0, 887.2),
+    (998.5, 999.0),
+    (778.9, 779.0),
+    (10.2, 11.1),
+    (117.6, 118.3),
+    (228.9, 229.2),
+    (668.4, 669.1),
+    (449.2, 448.9),
+    (0.2, 0.5),
 ];
 
 #[test]
@@ -136,22 +207,43 @@ fn nist_norris_through_the_fitter_at_lambda_zero() {
         assert_eq!(ratings.users.intern(name), user);
         for (k, &(y, x)) in NORRIS.iter().enumerate() {
             let item = ratings.items.intern(&format!("i{k}"));
-            ratings.entries.push(sextant::data::Rating { user, item, value: y, holdout: false });
+            ratings.entries.push(sextant::data::Rating {
+                user,
+                item,
+                value: y,
+                holdout: false,
+            });
             if user == 0 {
                 items.extend([1.0, x]);
             }
         }
     }
     let init = table("i", items, 2);
-    let options = FitOptions { rank: 2, lambda: 0.0, center: Center::None, ..FitOptions::default() };
-    let mut fitter = Fitter::new(&ratings, &options, Some((&init, Path::new("norris.csv")))).unwrap();
+    let options = FitOptions {
+        rank: 2,
+        lambda: 0.0,
+        center: Center::None,
+        ..FitOptions::default()
+    };
+    let mut fitter =
+        Fitter::new(&ratings, &options, Some((&init, Path::new("norris.csv")))).unwrap();
     fitter.update_users().unwrap();
     let b = fitter.model().user(0);
-    assert!((b[0] - -0.262_323_073_774_029).abs() / 0.262_323_073_774_029 < 1e-10, "B0 {}", b[0]);
+    assert!(
+        (b[0] - -0.262_323_073_774_029).abs() / 0.262_323_073_774_029 < 1e-10,
+        "B0 {}",
+        b[0]
+    );
     assert!((b[1] - 1.002_116_818_020_45).abs() < 1e-10, "B1 {}", b[1]);
-    let rss: f64 = NORRIS.iter().map(|&(y, x)| (y - b[0] - b[1] * x).powi(2)).sum();
+    let rss: f64 = NORRIS
+        .iter()
+        .map(|&(y, x)| (y - b[0] - b[1] * x).powi(2))
+        .sum();
     let sd = (rss / 34.0).sqrt();
-    assert!((sd - 0.884_796_396_144_373).abs() < 1e-10, "residual SD {sd}");
+    assert!(
+        (sd - 0.884_796_396_144_373).abs() < 1e-10,
+        "residual SD {sd}"
+    );
 }
 
 #[test]
@@ -166,8 +258,16 @@ fn nist_longley_through_the_ridge_solver_at_lambda_zero() {
     let mut solver = RidgeWorkspace::new(width);
     let mut beta = vec![0.0; width];
     solver.solve(&x, &rows, &y, 0.0, &mut beta).unwrap();
-    assert!((beta[0] - -3_482_258.634_595_82).abs() / 3_482_258.634_595_82 < 1e-6, "B0 {}", beta[0]);
-    assert!((beta[6] - 1_829.151_464_613_55).abs() / 1_829.151_464_613_55 < 1e-6, "B6 {}", beta[6]);
+    assert!(
+        (beta[0] - -3_482_258.634_595_82).abs() / 3_482_258.634_595_82 < 1e-6,
+        "B0 {}",
+        beta[0]
+    );
+    assert!(
+        (beta[6] - 1_829.151_464_613_55).abs() / 1_829.151_464_613_55 < 1e-6,
+        "B6 {}",
+        beta[6]
+    );
     let numpy = floats(&f["beta"]);
     assert!(max_rel_diff(&beta, &numpy) < 1e-5, "vs numpy lstsq");
 }

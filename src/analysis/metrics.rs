@@ -25,8 +25,12 @@ pub struct ErrorMetrics {
 }
 
 /// Metrics over `(actual, predicted)` pairs; `None` when there are none.
-pub fn error_metrics(pairs: impl IntoIterator<Item = (f64, f64)>, scale: &RatingScale) -> Option<ErrorMetrics> {
-    let (mut count, mut se, mut ae, mut se_r, mut ae_r, mut exact) = (0usize, 0.0, 0.0, 0.0, 0.0, 0usize);
+pub fn error_metrics(
+    pairs: impl IntoIterator<Item = (f64, f64)>,
+    scale: &RatingScale,
+) -> Option<ErrorMetrics> {
+    let (mut count, mut se, mut ae, mut se_r, mut ae_r, mut exact) =
+        (0usize, 0.0, 0.0, 0.0, 0.0, 0usize);
     for (actual, predicted) in pairs {
         let rounded = scale.round(predicted);
         count += 1;
@@ -63,7 +67,11 @@ pub struct FitMetrics {
 }
 
 /// Computes [`FitMetrics`] for `model` on `ratings`. `None` if there are no training ratings.
-pub fn fit_metrics(model: &FactorModel, ratings: &Ratings, scale: &RatingScale) -> Option<FitMetrics> {
+pub fn fit_metrics(
+    model: &FactorModel,
+    ratings: &Ratings,
+    scale: &RatingScale,
+) -> Option<FitMetrics> {
     let pairs = |holdout: bool| {
         ratings
             .entries
@@ -72,7 +80,12 @@ pub fn fit_metrics(model: &FactorModel, ratings: &Ratings, scale: &RatingScale) 
             .map(|r| (r.value, model.predict(r.user, r.item)))
     };
     let (users, items) = ratings.train_support();
-    let low = |counts: &[u32]| counts.iter().filter(|&&c| (c as usize) < model.rank).count();
+    let low = |counts: &[u32]| {
+        counts
+            .iter()
+            .filter(|&&c| (c as usize) < model.rank)
+            .count()
+    };
     Some(FitMetrics {
         train: error_metrics(pairs(false), scale)?,
         holdout: error_metrics(pairs(true), scale),

@@ -9,8 +9,16 @@ use nalgebra::DMatrix;
 /// Cosines come from the singular values of `QaᵀQb`; small angles are taken from the sines
 /// (singular values of `Qb − Qa QaᵀQb`) instead, where arccos loses precision.
 pub fn principal_angles(a: &DMatrix<f64>, b: &DMatrix<f64>) -> Vec<f64> {
-    assert_eq!(a.nrows(), b.nrows(), "subspaces must live in the same space");
-    let (a, b) = if a.ncols() >= b.ncols() { (a, b) } else { (b, a) };
+    assert_eq!(
+        a.nrows(),
+        b.nrows(),
+        "subspaces must live in the same space"
+    );
+    let (a, b) = if a.ncols() >= b.ncols() {
+        (a, b)
+    } else {
+        (b, a)
+    };
     let qa = a.clone().qr().q();
     let qb = b.clone().qr().q();
     let cross = qa.transpose() * &qb;

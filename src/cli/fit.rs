@@ -104,22 +104,37 @@ pub fn run(args: &FitArgs) -> anyhow::Result<()> {
     let options = args.fit_options();
     options.validate()?;
     if !(0.0..1.0).contains(&args.holdout) {
-        return Err(UsageError(format!("--holdout must be at least 0 and below 1, not {}", args.holdout)).into());
+        return Err(UsageError(format!(
+            "--holdout must be at least 0 and below 1, not {}",
+            args.holdout
+        ))
+        .into());
     }
     let scale = args.input.scale()?;
     let pool = thread_pool(args.threads)?;
     pool.install(|| fit_and_save(args, &options, scale))
 }
 
-fn fit_and_save(args: &FitArgs, options: &FitOptions, scale: Option<RatingScale>) -> anyhow::Result<()> {
+fn fit_and_save(
+    args: &FitArgs,
+    options: &FitOptions,
+    scale: Option<RatingScale>,
+) -> anyhow::Result<()> {
     let read_options = args.input.options(scale.clone(), None, false);
-    let (mut ratings, ratings_input) = inputs::load_ratings(&args.ratings, &read_options, IdMap::new(), IdMap::new())?;
-    let scale = scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
+    let (mut ratings, ratings_input) =
+        inputs::load_ratings(&args.ratings, &read_options, IdMap::new(), IdMap::new())?;
+    let scale =
+        scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
     let mut input_prints = vec![ratings_input];
     let meta = match &args.items {
         Some(path) => {
             let mut reader = inputs::open(path)?;
-            let meta = sextant::data::read_items_meta(&mut reader, path, &args.input.item_col, &ratings.items)?;
+            let meta = sextant::data::read_items_meta(
+                &mut reader,
+                path,
+                &args.input.item_col,
+                &ratings.items,
+            )?;
             input_prints.push(inputs::input("items-meta", path, &reader));
             Some(meta)
         }
@@ -138,7 +153,9 @@ fn fit_and_save(args: &FitArgs, options: &FitOptions, scale: Option<RatingScale>
     if !args.quiet {
         announce(args, &ratings, &scale, meta.as_ref());
     }
-    let init_ref = init.as_ref().map(|(t, p): &(FactorTable, PathBuf)| (t, p.as_path()));
+    let init_ref = init
+        .as_ref()
+        .map(|(t, p): &(FactorTable, PathBuf)| (t, p.as_path()));
     let fitter = Fitter::new(&ratings, options, init_ref)?;
     let mut progress = Progress::new(args.quiet, args.max_iters);
     let result = fitter.run(|record| progress.update(record))?;
@@ -150,18 +167,29 @@ fn fit_and_save(args: &FitArgs, options: &FitOptions, scale: Option<RatingScale>
         duplicates: args.input.duplicates.into(),
         init_items: args.init_items.as_deref().map(file_name),
     };
-    let provenance = Provenance { scale, inputs: input_prints, meta };
+    let provenance = Provenance {
+        scale,
+        inputs: input_prints,
+        meta,
+    };
     let model = Model::from_fit(ratings, options, run, result, provenance)
         .context("the fit produced no training ratings to evaluate")?;
     save_model(&args.out, &model)?;
     if !args.quiet {
         eprintln!("wrote model directory {}", args.out.display());
     }
-    output::print(&summary::render(&model, &args.out.display().to_string(), args.format)?)
+    output::print(&summary::render(
+        &model,
+        &args.out.display().to_string(),
+        args.format,
+    )?)
 }
 
 fn file_name(path: &Path) -> String {
-    path.file_name().map_or_else(|| path.display().to_string(), |n| n.to_string_lossy().into_owned())
+    path.file_name().map_or_else(
+        || path.display().to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    )
 }
 
 fn thread_pool(threads: Option<usize>) -> anyhow::Result<rayon::ThreadPool> {
@@ -175,7 +203,12 @@ fn thread_pool(threads: Option<usize>) -> anyhow::Result<rayon::ThreadPool> {
 }
 
 /// Prints the data size and every option, marking the ones left at their default.
-fn announce(args: &FitArgs, ratings: &sextant::data::Ratings, scale: &RatingScale, meta: Option<&sextant::data::ItemsMeta>) {
+fn announce(
+    args: &FitArgs,
+    ratings: &sextant::data::Ratings,
+    scale: &RatingScale,
+    meta: Option<&sextant::data::ItemsMeta>,
+) {
     let d = FitOptions::default();
     let mark = |is_default: bool| if is_default { " (default)" } else { "" };
     eprintln!(
@@ -187,24 +220,26 @@ fn announce(args: &FitArgs, ratings: &sextant::data::Ratings, scale: &RatingScal
         scale.describe()
     );
     if let Some(meta) = meta {
-        if !meta.unknown.is_empty() {
-            eprintln!(
-                "note: the items metadata describes {} item(s) that have no ratings; they are left out{}",
-                meta.unknown.len(),
-                sextant::data::ids::first_few(meta.unknown.iter().map(String::as_str), 5)
-            );
-        }
+        inputs::note_unknown_items(meta, "that have no ratings");
     }
     eprintln!(
         "options: rank {}{}, lambda {}{}, sigma2 {}{}, center {}{}, holdout {}{}, tol {:e}{}, max-iters {}{}, seed {}{}",
-        args.rank, mark(args.rank == d.rank),
-        args.lambda, mark(args.lambda == d.lambda),
-        args.sigma2, mark(args.sigma2 == d.sigma2),
-        args.fit_options().center.name(), mark(args.fit_options().center == d.center),
-        args.holdout, mark(args.holdout == 0.1),
-        args.tol, mark(args.tol == d.tol),
-        args.max_iters, mark(args.max_iters == d.max_iters),
-        args.seed, mark(args.seed == d.seed),
+        args.rank,
+        mark(args.rank == d.rank),
+        args.lambda,
+        mark(args.lambda == d.lambda),
+        args.sigma2,
+        mark(args.sigma2 == d.sigma2),
+        args.fit_options().center.name(),
+        mark(args.fit_options().center == d.center),
+        args.holdout,
+        mark(args.holdout == 0.1),
+        args.tol,
+        mark(args.tol == d.tol),
+        args.max_iters,
+        mark(args.max_iters == d.max_iters),
+        args.seed,
+        mark(args.seed == d.seed),
     );
 }
 
@@ -218,9 +253,11 @@ impl Progress {
     fn new(quiet: bool, max_iters: usize) -> Self {
         let bar = (!quiet && std::io::stderr().is_terminal()).then(|| {
             let bar = indicatif::ProgressBar::new(max_iters as u64);
-            let style = indicatif::ProgressStyle::with_template("{elapsed:>4} [{bar:30}] iteration {pos}/{len}  {msg}")
-                .expect("the template is valid")
-                .progress_chars("=> ");
+            let style = indicatif::ProgressStyle::with_template(
+                "{elapsed:>4} [{bar:30}] iteration {pos}/{len}  {msg}",
+            )
+            .expect("the template is valid")
+            .progress_chars("=> ");
             bar.set_style(style);
             bar
         });
@@ -229,8 +266,14 @@ impl Progress {
 
     fn update(&mut self, record: &IterationRecord) {
         if let Some(bar) = &self.bar {
-            let holdout = record.holdout_rmse.map(|v| format!(", held-out RMSE {v:.4}")).unwrap_or_default();
-            bar.set_message(format!("L {:.4e}, train RMSE {:.4}{holdout}", record.log_joint, record.train_rmse));
+            let holdout = record
+                .holdout_rmse
+                .map(|v| format!(", held-out RMSE {v:.4}"))
+                .unwrap_or_default();
+            bar.set_message(format!(
+                "L {:.4e}, train RMSE {:.4}{holdout}",
+                record.log_joint, record.train_rmse
+            ));
             bar.set_position(record.iter as u64);
         }
     }
@@ -240,7 +283,11 @@ impl Progress {
             bar.finish_and_clear();
         }
         if !self.quiet {
-            let state = if converged { "converged" } else { "reached the iteration limit" };
+            let state = if converged {
+                "converged"
+            } else {
+                "reached the iteration limit"
+            };
             eprintln!("{state} after {iterations} iteration(s)");
         }
     }

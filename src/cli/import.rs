@@ -54,7 +54,11 @@ pub struct ImportArgs {
 }
 
 pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
-    if !(args.lambda.is_finite() && args.lambda >= 0.0) || !(args.sigma2.is_finite() && args.sigma2 > 0.0) {
+    if !(args.lambda.is_finite()
+        && args.lambda >= 0.0
+        && args.sigma2.is_finite()
+        && args.sigma2 > 0.0)
+    {
         return Err(UsageError("--lambda must be ≥ 0 and --sigma2 > 0".into()).into());
     }
     if args.mu.is_some_and(|mu| !mu.is_finite()) {
@@ -67,28 +71,32 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         return Err(DataError::at_line(
             &args.items,
             1,
-            format!("the item table has {} factors but the user table ({}) has {}", items.rank, args.users.display(), users.rank),
+            format!(
+                "the item table has {} factors but the user table ({}) has {}",
+                items.rank,
+                args.users.display(),
+                users.rank
+            ),
         )
         .into());
     }
     let split = inputs::has_column(&args.ratings, "split")?.then(|| "split".to_owned());
     let options = args.input.options(scale.clone(), split, true);
-    let (ratings, ratings_input) =
-        inputs::load_ratings(&args.ratings, &options, users.ids.clone(), items.ids.clone())?;
-    let scale = scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
+    let (ratings, ratings_input) = inputs::load_ratings(
+        &args.ratings,
+        &options,
+        users.ids.clone(),
+        items.ids.clone(),
+    )?;
+    let scale =
+        scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
     let mut prints = vec![ratings_input, users_input, items_input];
     let meta = match &args.items_meta {
         Some(path) => {
             let mut reader = inputs::open(path)?;
             let meta = read_items_meta(&mut reader, path, &args.input.item_col, &ratings.items)?;
             prints.push(inputs::input("items-meta", path, &reader));
-            if !meta.unknown.is_empty() {
-                eprintln!(
-                    "note: the items metadata describes {} item(s) without a vector; they are left out{}",
-                    meta.unknown.len(),
-                    sextant::data::ids::first_few(meta.unknown.iter().map(String::as_str), 5)
-                );
-            }
+            inputs::note_unknown_items(&meta, "without a vector");
             Some(meta)
         }
         None => None,
@@ -97,23 +105,60 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
     let mu = match (args.mu, center) {
         (Some(mu), _) => mu,
         (None, Center::Global) => {
-            let train: Vec<f64> = ratings.entries.iter().filter(|r| !r.holdout).map(|r| r.value).collect();
+            let train: Vec<f64> = ratings
+                .entries
+                .iter()
+                .filter(|r| !r.holdout)
+                .map(|r| r.value)
+                .collect();
             train.iter().sum::<f64>() / train.len().max(1) as f64
         }
         (None, Center::None) => 0.0,
     };
-    let center = if args.mu.is_some_and(|mu| mu != 0.0) { Center::Global } else { center };
-    let factors = FactorModel { rank: users.rank, mu, users: users.values, items: items.values };
-    let provenance = Provenance { scale, inputs: prints, meta };
-    let model = Model::from_import(ratings, factors, args.lambda, args.sigma2, center, provenance)
-        .with_context(|| format!("{}: no training ratings (every row is marked holdout)", args.ratings.display()))
-        .map_err(|e| UsageError(format!("{e:#}")))?;
+    let center = if args.mu.is_some_and(|mu| mu != 0.0) {
+        Center::Global
+    } else {
+        center
+    };
+    let factors = FactorModel {
+        rank: users.rank,
+        mu,
+        users: users.values,
+        items: items.values,
+    };
+    let provenance = Provenance {
+        scale,
+        inputs: prints,
+        meta,
+    };
+    let model = Model::from_import(
+        ratings,
+        factors,
+        args.lambda,
+        args.sigma2,
+        center,
+        provenance,
+    )
+    .with_context(|| {
+        format!(
+            "{}: no training ratings (every row is marked holdout)",
+            args.ratings.display()
+        )
+    })
+    .map_err(|e| UsageError(format!("{e:#}")))?;
     save_model(&args.out, &model)?;
     eprintln!("wrote model directory {}", args.out.display());
-    output::print(&summary::render(&model, &args.out.display().to_string(), args.format)?)
+    output::print(&summary::render(
+        &model,
+        &args.out.display().to_string(),
+        args.format,
+    )?)
 }
 
-fn read_table(path: &std::path::Path, role: &str) -> Result<(sextant::data::FactorTable, sextant::model::manifest::Input), DataError> {
+fn read_table(
+    path: &std::path::Path,
+    role: &str,
+) -> Result<(sextant::data::FactorTable, sextant::model::manifest::Input), DataError> {
     let mut reader = inputs::open(path)?;
     let table = read_factor_table(&mut reader, path)?;
     Ok((table, inputs::input(role, path, &reader)))

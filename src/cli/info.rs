@@ -22,5 +22,9 @@ pub struct InfoArgs {
 
 pub fn run(args: &InfoArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model)?;
-    output::print(&summary::render(&model, &args.model.display().to_string(), args.format)?)
+    output::print(&summary::render(
+        &model,
+        &args.model.display().to_string(),
+        args.format,
+    )?)
 }

@@ -58,11 +58,20 @@ pub struct RatingsArgs {
 impl RatingsArgs {
     /// The scale given with --scale, if any.
     pub fn scale(&self) -> Result<Option<RatingScale>, UsageError> {
-        self.scale.as_deref().map(RatingScale::parse).transpose().map_err(|e| UsageError(format!("--scale: {e}")))
+        self.scale
+            .as_deref()
+            .map(RatingScale::parse)
+            .transpose()
+            .map_err(|e| UsageError(format!("--scale: {e}")))
     }
 
     /// Reader options for these arguments.
-    pub fn options(&self, scale: Option<RatingScale>, split: Option<String>, known_ids_only: bool) -> RatingsOptions {
+    pub fn options(
+        &self,
+        scale: Option<RatingScale>,
+        split: Option<String>,
+        known_ids_only: bool,
+    ) -> RatingsOptions {
         RatingsOptions {
             columns: RatingColumns {
                 user: self.user_col.clone(),
@@ -89,8 +98,16 @@ pub fn open(path: &Path) -> Result<HashingReader<File>, DataError> {
 /// The fingerprint record of a file read through `reader`.
 pub fn input<R: Read>(role: &str, path: &Path, reader: &HashingReader<R>) -> Input {
     let (bytes, fnv1a64) = reader.summary();
-    let name = path.file_name().map_or_else(|| path.display().to_string(), |n| n.to_string_lossy().into_owned());
-    Input { role: role.into(), name, bytes, fnv1a64 }
+    let name = path.file_name().map_or_else(
+        || path.display().to_string(),
+        |n| n.to_string_lossy().into_owned(),
+    );
+    Input {
+        role: role.into(),
+        name,
+        bytes,
+        fnv1a64,
+    }
 }
 
 /// Loads a ratings CSV with fingerprint; ids may be restricted to pre-filled maps.
@@ -110,10 +127,26 @@ pub fn load_ratings(
 
 /// True when the CSV at `path` has a header column named `name`.
 pub fn has_column(path: &Path, name: &str) -> Result<bool, DataError> {
-    let mut csv = csv::ReaderBuilder::new().has_headers(false).trim(csv::Trim::All).from_reader(open(path)?);
+    let mut csv = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .trim(csv::Trim::All)
+        .from_reader(open(path)?);
     let mut record = csv::StringRecord::new();
     match csv.read_record(&mut record) {
-        Ok(true) => Ok(record.iter().any(|h| h.trim_start_matches('\u{feff}').eq_ignore_ascii_case(name))),
+        Ok(true) => Ok(record
+            .iter()
+            .any(|h| h.trim_start_matches('\u{feff}').eq_ignore_ascii_case(name))),
         Ok(false) | Err(_) => Ok(false),
+    }
+}
+
+/// Tells the user (stderr) which described items are not in the model.
+pub fn note_unknown_items(meta: &sextant::data::ItemsMeta, why: &str) {
+    if !meta.unknown.is_empty() {
+        eprintln!(
+            "note: the items metadata describes {} item(s) {why}; they are left out{}",
+            meta.unknown.len(),
+            sextant::data::ids::first_few(meta.unknown.iter().map(String::as_str), 5)
+        );
     }
 }

@@ -79,6 +79,8 @@ pub fn exit_code(err: &anyhow::Error) -> u8 {
 /// True when the error is only that stdout was closed (e.g. `sextant info m | head -1`).
 pub fn is_broken_pipe(err: &anyhow::Error) -> bool {
     err.chain().any(|cause| {
-        cause.downcast_ref::<std::io::Error>().is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
+        cause
+            .downcast_ref::<std::io::Error>()
+            .is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
     })
 }

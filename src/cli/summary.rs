@@ -86,10 +86,18 @@ pub fn render(model: &Model, label: &str, format: Format) -> anyhow::Result<Stri
 fn json(model: &Model) -> InfoJson<'_> {
     let m = &model.manifest;
     let scale = match &m.scale {
-        RatingScale::Levels(levels) => {
-            ScaleJson { kind: "levels", levels: Some(levels.clone()), min: m.scale.min(), max: m.scale.max() }
-        }
-        RatingScale::Continuous { min, max } => ScaleJson { kind: "continuous", levels: None, min: *min, max: *max },
+        RatingScale::Levels(levels) => ScaleJson {
+            kind: "levels",
+            levels: Some(levels.clone()),
+            min: m.scale.min(),
+            max: m.scale.max(),
+        },
+        RatingScale::Continuous { min, max } => ScaleJson {
+            kind: "continuous",
+            levels: None,
+            min: *min,
+            max: *max,
+        },
     };
     InfoJson {
         rank: m.rank,
@@ -112,7 +120,10 @@ fn json(model: &Model) -> InfoJson<'_> {
         low_support_items: m.metrics.low_support_items,
         origin: origin_name(m.origin),
         final_log_joint: m.trace.last().map(|r| r.log_joint),
-        described_items: model.meta.as_ref().map_or(0, sextant::data::ItemsMeta::described),
+        described_items: model
+            .meta
+            .as_ref()
+            .map_or(0, sextant::data::ItemsMeta::described),
     }
 }
 
@@ -148,27 +159,60 @@ fn table(model: &Model, label: &str) -> String {
         sextant::model::Center::Global => "global mean of the training ratings",
         sextant::model::Center::None => "no centring",
     };
-    line("rank", format!("{}    lambda {}    sigma2 {}", m.rank, m.lambda, m.sigma2));
+    line(
+        "rank",
+        format!("{}    lambda {}    sigma2 {}", m.rank, m.lambda, m.sigma2),
+    );
     line("mu", format!("{:.4} ({center})", m.mu));
     line("scale", m.scale.describe());
     line(
         "ratings",
-        format!("{} ({} train, {} held out)", group(c.ratings), group(c.train_ratings), group(c.holdout_ratings)),
+        format!(
+            "{} ({} train, {} held out)",
+            group(c.ratings),
+            group(c.train_ratings),
+            group(c.holdout_ratings)
+        ),
     );
     let support = |n: usize, what: &str| {
         if n == 0 {
             format!("all have at least {} training ratings", m.rank)
         } else {
-            format!("{} with fewer than {} training ratings ({what} dominated by the prior)", group(n), m.rank)
+            format!(
+                "{} with fewer than {} training ratings ({what} dominated by the prior)",
+                group(n),
+                m.rank
+            )
         }
     };
-    line("users", format!("{}; {}", group(c.users), support(m.metrics.low_support_users, "vectors")));
-    line("items", format!("{}; {}", group(c.items), support(m.metrics.low_support_items, "vectors")));
+    line(
+        "users",
+        format!(
+            "{}; {}",
+            group(c.users),
+            support(m.metrics.low_support_users, "vectors")
+        ),
+    );
+    line(
+        "items",
+        format!(
+            "{}; {}",
+            group(c.items),
+            support(m.metrics.low_support_items, "vectors")
+        ),
+    );
     if let Some(meta) = &model.meta {
-        line("metadata", format!("{} items described", group(meta.described())));
+        line(
+            "metadata",
+            format!("{} items described", group(meta.described())),
+        );
     }
     if let (Origin::Fit, Some(options)) = (m.origin, &m.options) {
-        let state = if m.converged { "converged" } else { "stopped without converging" };
+        let state = if m.converged {
+            "converged"
+        } else {
+            "stopped without converging"
+        };
         line(
             "fit",
             format!(
@@ -184,10 +228,17 @@ fn table(model: &Model, label: &str) -> String {
         }
     }
     let _ = writeln!(out);
-    let _ = writeln!(out, "{:<12} {:>9} {:>9} {:>14} {:>13} {:>8}", "accuracy", "RMSE", "MAE", "RMSE rounded", "MAE rounded", "exact");
+    let _ = writeln!(
+        out,
+        "{:<12} {:>9} {:>9} {:>14} {:>13} {:>8}",
+        "accuracy", "RMSE", "MAE", "RMSE rounded", "MAE rounded", "exact"
+    );
     let mut row = |name: &str, metrics: Option<&ErrorMetrics>| {
         let v = |f: fn(&ErrorMetrics) -> f64| fixed(metrics.map(f), 4);
-        let exact = metrics.map_or_else(|| "–".to_owned(), |m| format!("{:.1}%", 100.0 * m.exact_rate));
+        let exact = metrics.map_or_else(
+            || "–".to_owned(),
+            |m| format!("{:.1}%", 100.0 * m.exact_rate),
+        );
         let _ = writeln!(
             out,
             "{name:<12} {:>9} {:>9} {:>14} {:>13} {exact:>8}",

@@ -45,15 +45,26 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
         ));
     }
     let rank = header.len() - 1;
-    let mut table = FactorTable { ids: IdMap::new(), rank, values: Vec::new() };
+    let mut table = FactorTable {
+        ids: IdMap::new(),
+        rank,
+        values: Vec::new(),
+    };
     let mut record = csv::ByteRecord::new();
-    while csv.read_byte_record(&mut record).map_err(|e| csv_error(path, &e))? {
+    while csv
+        .read_byte_record(&mut record)
+        .map_err(|e| csv_error(path, &e))?
+    {
         let line = record_line(&record);
         if record.len() != rank + 1 {
             return Err(DataError::at_line(
                 path,
                 line,
-                format!("expected {} fields (an id and {rank} factors), found {}", rank + 1, record.len()),
+                format!(
+                    "expected {} fields (an id and {rank} factors), found {}",
+                    rank + 1,
+                    record.len()
+                ),
             ));
         }
         let id = std::str::from_utf8(&record[0])
@@ -62,7 +73,11 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
             return Err(DataError::at_line(path, line, "the id is empty"));
         }
         if table.ids.push_new(id).is_none() {
-            return Err(DataError::at_line(path, line, format!("id '{id}' appears more than once")));
+            return Err(DataError::at_line(
+                path,
+                line,
+                format!("id '{id}' appears more than once"),
+            ));
         }
         for (d, raw) in record.iter().skip(1).enumerate() {
             let text = std::str::from_utf8(raw).unwrap_or("");
@@ -72,21 +87,32 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
                     return Err(DataError::at_line(
                         path,
                         line,
-                        format!("factor f{} of '{id}' is '{text}', not a finite number", d + 1),
+                        format!(
+                            "factor f{} of '{id}' is '{text}', not a finite number",
+                            d + 1
+                        ),
                     ));
                 }
             }
         }
     }
     if table.ids.is_empty() {
-        return Err(DataError::in_file(path, "no rows: the file has a header row but no vectors"));
+        return Err(DataError::in_file(
+            path,
+            "no rows: the file has a header row but no vectors",
+        ));
     }
     Ok(table)
 }
 
 /// Writes vectors as a factor table CSV. Numbers use the shortest text that reads back to
 /// the same `f64`, so a save → load → save round trip is byte-identical.
-pub fn write_factor_table(out: impl Write, ids: &IdMap, rank: usize, values: &[f64]) -> std::io::Result<()> {
+pub fn write_factor_table(
+    out: impl Write,
+    ids: &IdMap,
+    rank: usize,
+    values: &[f64],
+) -> std::io::Result<()> {
     let mut out = std::io::BufWriter::new(out);
     out.write_all(b"id")?;
     for d in 1..=rank {
@@ -118,7 +144,9 @@ pub fn format_float(v: f64) -> String {
 
 /// Appends `field` to `out`, quoted per RFC 4180 when it needs to be.
 pub fn quote_field(out: &mut Vec<u8>, field: &str) {
-    let needs = field.bytes().any(|b| matches!(b, b',' | b'"' | b'\n' | b'\r'))
+    let needs = field
+        .bytes()
+        .any(|b| matches!(b, b',' | b'"' | b'\n' | b'\r'))
         || field.starts_with(' ')
         || field.ends_with(' ');
     if !needs {
@@ -153,15 +181,35 @@ mod tests {
         let mut second = Vec::new();
         write_factor_table(&mut second, &table.ids, 2, &table.values).unwrap();
         assert_eq!(first, second);
-        assert!(String::from_utf8(first).unwrap().starts_with("id,f1,f2\na,0.1,"));
+        assert!(
+            String::from_utf8(first)
+                .unwrap()
+                .starts_with("id,f1,f2\na,0.1,")
+        );
     }
 
     #[test]
     fn refuses_bad_rows() {
-        let err = |text: &str| read_factor_table(text.as_bytes(), Path::new("t.csv")).unwrap_err().to_string();
-        assert_eq!(err("id,f1,f2\na,1\n"), "t.csv, line 2: expected 3 fields (an id and 2 factors), found 2");
-        assert_eq!(err("id,f1\na,1\na,2\n"), "t.csv, line 3: id 'a' appears more than once");
-        assert_eq!(err("id,f1\na,inf\n"), "t.csv, line 2: factor f1 of 'a' is 'inf', not a finite number");
-        assert_eq!(err("id\na\n"), "t.csv, line 1: a factor table needs an id column and at least one factor column (id,f1,…,fD)");
+        let err = |text: &str| {
+            read_factor_table(text.as_bytes(), Path::new("t.csv"))
+                .unwrap_err()
+                .to_string()
+        };
+        assert_eq!(
+            err("id,f1,f2\na,1\n"),
+            "t.csv, line 2: expected 3 fields (an id and 2 factors), found 2"
+        );
+        assert_eq!(
+            err("id,f1\na,1\na,2\n"),
+            "t.csv, line 3: id 'a' appears more than once"
+        );
+        assert_eq!(
+            err("id,f1\na,inf\n"),
+            "t.csv, line 2: factor f1 of 'a' is 'inf', not a finite number"
+        );
+        assert_eq!(
+            err("id\na\n"),
+            "t.csv, line 1: a factor table needs an id column and at least one factor column (id,f1,…,fD)"
+        );
     }
 }

@@ -45,7 +45,11 @@ pub struct HashingReader<R> {
 impl<R: Read> HashingReader<R> {
     /// Wraps `inner`.
     pub fn new(inner: R) -> Self {
-        Self { inner, hash: Fnv1a64::default(), bytes: 0 }
+        Self {
+            inner,
+            hash: Fnv1a64::default(),
+            bytes: 0,
+        }
     }
 
     /// Bytes read so far and their hash.

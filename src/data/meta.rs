@@ -6,7 +6,9 @@ use std::io::{Read, Write};
 use std::path::Path;
 
 use super::ids::IdMap;
-use super::ratings::{csv_error, csv_reader, field, find_column, optional_column, read_header, record_line};
+use super::ratings::{
+    csv_error, csv_reader, field, find_column, optional_column, read_header, record_line,
+};
 use crate::error::DataError;
 
 /// Metadata of one item.
@@ -72,14 +74,23 @@ pub fn read_items_meta(
     let mut seen_lines = vec![0u64; items.len()];
     let mut unknown_seen = std::collections::HashSet::new();
     let mut record = csv::ByteRecord::new();
-    while csv.read_byte_record(&mut record).map_err(|e| csv_error(path, &e))? {
+    while csv
+        .read_byte_record(&mut record)
+        .map_err(|e| csv_error(path, &e))?
+    {
         let line = record_line(&record);
         let id = field(&record, id_col, "item id", path, line)?;
         let text = |col: Option<usize>| -> Result<Option<String>, DataError> {
             let Some(col) = col else { return Ok(None) };
-            let Some(raw) = record.get(col) else { return Ok(None) };
+            let Some(raw) = record.get(col) else {
+                return Ok(None);
+            };
             let value = std::str::from_utf8(raw).map_err(|_| {
-                DataError::at_line(path, line, format!("column '{}' is not valid UTF-8 text", header[col]))
+                DataError::at_line(
+                    path,
+                    line,
+                    format!("column '{}' is not valid UTF-8 text", header[col]),
+                )
             })?;
             Ok((!value.is_empty()).then(|| value.to_owned()))
         };
@@ -103,7 +114,10 @@ pub fn read_items_meta(
             return Err(DataError::at_line(
                 path,
                 line,
-                format!("item '{id}' is described twice (first on line {})", seen_lines[i as usize]),
+                format!(
+                    "item '{id}' is described twice (first on line {})",
+                    seen_lines[i as usize]
+                ),
             ));
         }
         seen_lines[i as usize] = line;
@@ -157,13 +171,20 @@ mod tests {
         assert_eq!(meta.unknown, ["zz"]);
         let mut out = Vec::new();
         write_items_meta(&mut out, &meta, &items()).unwrap();
-        assert_eq!(String::from_utf8(out).unwrap(), "item,title,category,serves\nr2,Barley Soup,soups,4\n");
+        assert_eq!(
+            String::from_utf8(out).unwrap(),
+            "item,title,category,serves\nr2,Barley Soup,soups,4\n"
+        );
     }
 
     #[test]
     fn duplicate_rows_are_refused() {
         let text = "item,title\nr1,A\nr1,B\n";
-        let err = read_items_meta(text.as_bytes(), Path::new("m.csv"), "item", &items()).unwrap_err();
-        assert_eq!(err.to_string(), "m.csv, line 3: item 'r1' is described twice (first on line 2)");
+        let err =
+            read_items_meta(text.as_bytes(), Path::new("m.csv"), "item", &items()).unwrap_err();
+        assert_eq!(
+            err.to_string(),
+            "m.csv, line 3: item 'r1' is described twice (first on line 2)"
+        );
     }
 }

@@ -12,6 +12,8 @@ pub mod split;
 pub use factors::{FactorTable, load_factor_table, read_factor_table, write_factor_table};
 pub use ids::{IdMap, ItemIndex, UserIndex};
 pub use meta::{ItemMeta, ItemsMeta, load_items_meta, read_items_meta, write_items_meta};
-pub use ratings::{Duplicates, Rating, RatingColumns, Ratings, RatingsOptions, load_ratings, read_ratings};
+pub use ratings::{
+    Duplicates, Rating, RatingColumns, Ratings, RatingsOptions, load_ratings, read_ratings,
+};
 pub use scale::RatingScale;
 pub use split::assign_holdout;

@@ -88,7 +88,12 @@ pub struct RatingColumns {
 
 impl Default for RatingColumns {
     fn default() -> Self {
-        Self { user: "user".into(), item: "item".into(), rating: "rating".into(), split: None }
+        Self {
+            user: "user".into(),
+            item: "item".into(),
+            rating: "rating".into(),
+            split: None,
+        }
     }
 }
 
@@ -139,7 +144,13 @@ pub fn read_ratings_with_ids(
         Some(name) => Some(find_column(&header, name, "--split-col", path)?),
         None => None,
     };
-    let mut loader = Loader { path, users, items, raw: Vec::new(), lines: Vec::new() };
+    let mut loader = Loader {
+        path,
+        users,
+        items,
+        raw: Vec::new(),
+        lines: Vec::new(),
+    };
     let mut record = csv::ByteRecord::new();
     loop {
         match csv.read_byte_record(&mut record) {
@@ -150,7 +161,11 @@ pub fn read_ratings_with_ids(
         let line = record_line(&record);
         let user = field(&record, user_col, "user id", path, line)?;
         let item = field(&record, item_col, "item id", path, line)?;
-        let value = parse_rating(field(&record, rating_col, "rating", path, line)?, path, line)?;
+        let value = parse_rating(
+            field(&record, rating_col, "rating", path, line)?,
+            path,
+            line,
+        )?;
         if let Some(scale) = &options.scale {
             check_on_scale(scale, value, path, line)?;
         }
@@ -161,7 +176,10 @@ pub fn read_ratings_with_ids(
         loader.push(user, item, value, holdout, line, options.known_ids_only)?;
     }
     if loader.raw.is_empty() {
-        return Err(DataError::in_file(path, "no ratings: the file has a header row but no data rows"));
+        return Err(DataError::in_file(
+            path,
+            "no ratings: the file has a header row but no data rows",
+        ));
     }
     loader.finish(options.duplicates)
 }
@@ -186,22 +204,41 @@ impl Loader<'_> {
     ) -> Result<(), DataError> {
         let (user, item) = if known_only {
             let u = self.users.get(user).ok_or_else(|| {
-                DataError::at_line(self.path, line, format!("user '{user}' is not in the users table"))
+                DataError::at_line(
+                    self.path,
+                    line,
+                    format!("user '{user}' is not in the users table"),
+                )
             })?;
             let i = self.items.get(item).ok_or_else(|| {
-                DataError::at_line(self.path, line, format!("item '{item}' is not in the items table"))
+                DataError::at_line(
+                    self.path,
+                    line,
+                    format!("item '{item}' is not in the items table"),
+                )
             })?;
             (u, i)
         } else {
             (self.users.intern(user), self.items.intern(item))
         };
-        self.raw.push(Rating { user, item, value, holdout });
+        self.raw.push(Rating {
+            user,
+            item,
+            value,
+            holdout,
+        });
         self.lines.push(line);
         Ok(())
     }
 
     fn finish(self, duplicates: Duplicates) -> Result<Ratings, DataError> {
-        let Self { path, users, items, raw, lines } = self;
+        let Self {
+            path,
+            users,
+            items,
+            raw,
+            lines,
+        } = self;
         let mut order: Vec<u32> = (0..raw.len() as u32).collect();
         // Sort by pair, then by position in the file, so "last" and error lines are exact.
         order.sort_unstable_by_key(|&k| {
@@ -212,7 +249,9 @@ impl Loader<'_> {
         let mut run = 0usize; // ratings merged into the last entry
         for (pos, &k) in order.iter().enumerate() {
             let r = raw[k as usize];
-            let same_pair = entries.last().is_some_and(|e| e.user == r.user && e.item == r.item);
+            let same_pair = entries
+                .last()
+                .is_some_and(|e| e.user == r.user && e.item == r.item);
             if !same_pair {
                 entries.push(r);
                 run = 1;
@@ -242,7 +281,11 @@ impl Loader<'_> {
                 }
             }
         }
-        Ok(Ratings { users, items, entries })
+        Ok(Ratings {
+            users,
+            items,
+            entries,
+        })
     }
 }
 
@@ -262,7 +305,9 @@ pub(crate) fn read_header<R: Read>(
     expected: &str,
 ) -> Result<Vec<String>, DataError> {
     let mut record = csv::ByteRecord::new();
-    let has_row = csv.read_byte_record(&mut record).map_err(|e| csv_error(path, &e))?;
+    let has_row = csv
+        .read_byte_record(&mut record)
+        .map_err(|e| csv_error(path, &e))?;
     if !has_row || record.iter().all(<[u8]>::is_empty) {
         return Err(DataError::in_file(
             path,
@@ -271,9 +316,8 @@ pub(crate) fn read_header<R: Read>(
     }
     let mut names = Vec::with_capacity(record.len());
     for raw in &record {
-        let text = std::str::from_utf8(raw).map_err(|_| {
-            DataError::at_line(path, 1, "the header row is not valid UTF-8 text")
-        })?;
+        let text = std::str::from_utf8(raw)
+            .map_err(|_| DataError::at_line(path, 1, "the header row is not valid UTF-8 text"))?;
         names.push(text.trim_start_matches('\u{feff}').trim().to_owned());
     }
     Ok(names)
@@ -288,7 +332,9 @@ pub(crate) fn find_column(
 ) -> Result<usize, DataError> {
     let exact: Vec<usize> = (0..header.len()).filter(|&c| header[c] == name).collect();
     let found = if exact.is_empty() {
-        (0..header.len()).filter(|&c| header[c].eq_ignore_ascii_case(name)).collect()
+        (0..header.len())
+            .filter(|&c| header[c].eq_ignore_ascii_case(name))
+            .collect()
     } else {
         exact
     };
@@ -302,7 +348,11 @@ pub(crate) fn find_column(
                 header.join(", ")
             ),
         )),
-        _ => Err(DataError::at_line(path, 1, format!("column '{name}' appears more than once in the header"))),
+        _ => Err(DataError::at_line(
+            path,
+            1,
+            format!("column '{name}' appears more than once in the header"),
+        )),
     }
 }
 
@@ -320,7 +370,9 @@ pub(crate) fn record_line(record: &csv::ByteRecord) -> u64 {
 pub(crate) fn csv_error(path: &Path, error: &csv::Error) -> DataError {
     let line = error.position().map(csv::Position::line);
     let reason = match error.kind() {
-        csv::ErrorKind::Io(e) => return DataError::read(path, std::io::Error::new(e.kind(), e.to_string())),
+        csv::ErrorKind::Io(e) => {
+            return DataError::read(path, std::io::Error::new(e.kind(), e.to_string()));
+        }
         csv::ErrorKind::Utf8 { .. } => "text is not valid UTF-8".to_owned(),
         other => format!("malformed CSV: {other:?}"),
     };
@@ -342,13 +394,22 @@ pub(crate) fn field<'r>(
         return Err(DataError::at_line(
             path,
             line,
-            format!("the row has {} field(s) but the {what} is in column {}", record.len(), col + 1),
+            format!(
+                "the row has {} field(s) but the {what} is in column {}",
+                record.len(),
+                col + 1
+            ),
         ));
     };
-    let text = std::str::from_utf8(raw)
-        .map_err(|_| DataError::at_line(path, line, format!("the {what} is not valid UTF-8 text")))?;
+    let text = std::str::from_utf8(raw).map_err(|_| {
+        DataError::at_line(path, line, format!("the {what} is not valid UTF-8 text"))
+    })?;
     if text.is_empty() {
-        return Err(DataError::at_line(path, line, format!("the {what} is empty")));
+        return Err(DataError::at_line(
+            path,
+            line,
+            format!("the {what} is empty"),
+        ));
     }
     Ok(text)
 }
@@ -357,19 +418,39 @@ pub(crate) fn field<'r>(
 pub(crate) fn parse_rating(text: &str, path: &Path, line: u64) -> Result<f64, DataError> {
     match text.parse::<f64>() {
         Ok(v) if v.is_finite() => Ok(v),
-        Ok(_) => Err(DataError::at_line(path, line, format!("rating '{text}' is not a finite number"))),
-        Err(_) => Err(DataError::at_line(path, line, format!("rating '{text}' is not a number"))),
+        Ok(_) => Err(DataError::at_line(
+            path,
+            line,
+            format!("rating '{text}' is not a finite number"),
+        )),
+        Err(_) => Err(DataError::at_line(
+            path,
+            line,
+            format!("rating '{text}' is not a number"),
+        )),
     }
 }
 
-fn check_on_scale(scale: &RatingScale, value: f64, path: &Path, line: u64) -> Result<(), DataError> {
+fn check_on_scale(
+    scale: &RatingScale,
+    value: f64,
+    path: &Path,
+    line: u64,
+) -> Result<(), DataError> {
     if scale.contains(value) {
         return Ok(());
     }
     let reason = if value < scale.min() || value > scale.max() {
-        format!("rating '{value}' is outside the scale {} to {} given by --scale", scale.min(), scale.max())
+        format!(
+            "rating '{value}' is outside the scale {} to {} given by --scale",
+            scale.min(),
+            scale.max()
+        )
     } else {
-        format!("rating '{value}' is not on the scale given by --scale ({})", scale.describe())
+        format!(
+            "rating '{value}' is not on the scale given by --scale ({})",
+            scale.describe()
+        )
     };
     Err(DataError::at_line(path, line, reason))
 }
@@ -426,18 +507,38 @@ mod tests {
     #[test]
     fn errors_name_line_and_reason() {
         let d = RatingsOptions::default();
-        assert_eq!(message("", &d), "r.csv: the file is empty; expected a header row naming the columns user, item, rating");
-        assert_eq!(message("user,item,rating\n", &d), "r.csv: no ratings: the file has a header row but no data rows");
-        assert!(message("user,item\na,b\n", &d).starts_with("r.csv, line 1: missing column 'rating'"));
-        assert_eq!(message("user,item,rating\na,b,4\n,c,3\n", &d), "r.csv, line 3: the user id is empty");
-        assert_eq!(message("user,item,rating\na,b,abc\n", &d), "r.csv, line 2: rating 'abc' is not a number");
-        assert_eq!(message("user,item,rating\na,b,NaN\n", &d), "r.csv, line 2: rating 'NaN' is not a finite number");
+        assert_eq!(
+            message("", &d),
+            "r.csv: the file is empty; expected a header row naming the columns user, item, rating"
+        );
+        assert_eq!(
+            message("user,item,rating\n", &d),
+            "r.csv: no ratings: the file has a header row but no data rows"
+        );
+        assert!(
+            message("user,item\na,b\n", &d).starts_with("r.csv, line 1: missing column 'rating'")
+        );
+        assert_eq!(
+            message("user,item,rating\na,b,4\n,c,3\n", &d),
+            "r.csv, line 3: the user id is empty"
+        );
+        assert_eq!(
+            message("user,item,rating\na,b,abc\n", &d),
+            "r.csv, line 2: rating 'abc' is not a number"
+        );
+        assert_eq!(
+            message("user,item,rating\na,b,NaN\n", &d),
+            "r.csv, line 2: rating 'NaN' is not a finite number"
+        );
         assert_eq!(
             message("user,item,rating\na,b,4\nc,d,1\na,b,5\n", &d),
             "r.csv, line 4: duplicate rating for user 'a' and item 'b' (first rated on line 2); \
              use --duplicates last or --duplicates mean to combine them"
         );
-        let scaled = RatingsOptions { scale: Some(RatingScale::parse("1:5:1").unwrap()), ..d };
+        let scaled = RatingsOptions {
+            scale: Some(RatingScale::parse("1:5:1").unwrap()),
+            ..d
+        };
         assert_eq!(
             message("user,item,rating\na,b,6\n", &scaled),
             "r.csv, line 2: rating '6' is outside the scale 1 to 5 given by --scale"
@@ -447,9 +548,15 @@ mod tests {
     #[test]
     fn duplicates_last_and_mean() {
         let text = "user,item,rating\na,b,4\nc,d,1\na,b,5\na,b,3\n";
-        let last = RatingsOptions { duplicates: Duplicates::Last, ..RatingsOptions::default() };
+        let last = RatingsOptions {
+            duplicates: Duplicates::Last,
+            ..RatingsOptions::default()
+        };
         assert_eq!(read(text, &last).unwrap().entries[0].value, 3.0);
-        let mean = RatingsOptions { duplicates: Duplicates::Mean, ..RatingsOptions::default() };
+        let mean = RatingsOptions {
+            duplicates: Duplicates::Mean,
+            ..RatingsOptions::default()
+        };
         let r = read(text, &mean).unwrap();
         assert_eq!(r.entries.len(), 2);
         assert_eq!(r.entries[0].value, 4.0);

@@ -47,15 +47,23 @@ impl RatingScale {
     pub fn parse(text: &str) -> Result<Self, String> {
         let parts: Vec<&str> = text.split(':').collect();
         let [min, max, step] = parts.as_slice() else {
-            return Err(format!("scale '{text}' must look like MIN:MAX:STEP, e.g. 1:5:1"));
+            return Err(format!(
+                "scale '{text}' must look like MIN:MAX:STEP, e.g. 1:5:1"
+            ));
         };
         let number = |s: &str, what: &str| -> Result<f64, String> {
             match s.trim().parse::<f64>() {
                 Ok(v) if v.is_finite() => Ok(v),
-                _ => Err(format!("scale '{text}': {what} '{s}' is not a finite number")),
+                _ => Err(format!(
+                    "scale '{text}': {what} '{s}' is not a finite number"
+                )),
             }
         };
-        let (min, max, step) = (number(min, "MIN")?, number(max, "MAX")?, number(step, "STEP")?);
+        let (min, max, step) = (
+            number(min, "MIN")?,
+            number(max, "MAX")?,
+            number(step, "STEP")?,
+        );
         if max < min {
             return Err(format!("scale '{text}': MAX is smaller than MIN"));
         }
@@ -67,12 +75,18 @@ impl RatingScale {
         }
         let count = ((max - min) / step + 1e-9).floor() as u64 + 1;
         if count > 10_000 {
-            return Err(format!("scale '{text}' has {count} levels; use STEP 0 for a continuous scale"));
+            return Err(format!(
+                "scale '{text}' has {count} levels; use STEP 0 for a continuous scale"
+            ));
         }
         if ((max - min) / step - (count - 1) as f64).abs() > 1e-9 {
-            return Err(format!("scale '{text}': MAX is not MIN plus a whole number of steps"));
+            return Err(format!(
+                "scale '{text}': MAX is not MIN plus a whole number of steps"
+            ));
         }
-        let levels = (0..count).map(|k| round_clean(min + k as f64 * step)).collect();
+        let levels = (0..count)
+            .map(|k| round_clean(min + k as f64 * step))
+            .collect();
         Ok(Self::Levels(levels))
     }
 
@@ -114,7 +128,11 @@ impl RatingScale {
                     return levels[levels.len() - 1];
                 }
                 let (low, high) = (levels[above - 1], levels[above]);
-                if high - prediction <= prediction - low { high } else { low }
+                if high - prediction <= prediction - low {
+                    high
+                } else {
+                    low
+                }
             }
         }
     }
@@ -122,9 +140,11 @@ impl RatingScale {
     /// A short human description, e.g. `1, 2, 3, 4, 5` or `0 to 100 (continuous)`.
     pub fn describe(&self) -> String {
         match self {
-            Self::Levels(levels) => {
-                levels.iter().map(f64::to_string).collect::<Vec<_>>().join(", ")
-            }
+            Self::Levels(levels) => levels
+                .iter()
+                .map(f64::to_string)
+                .collect::<Vec<_>>()
+                .join(", "),
             Self::Continuous { min, max } => format!("{min} to {max} (continuous)"),
         }
     }
@@ -133,7 +153,11 @@ impl RatingScale {
 /// Removes the floating-point fuzz of `min + k·step` (e.g. 0.30000000000000004 → 0.3).
 fn round_clean(x: f64) -> f64 {
     let rounded = (x * 1e9).round() / 1e9;
-    if (rounded - x).abs() < 1e-12 * x.abs().max(1.0) { rounded } else { x }
+    if (rounded - x).abs() < 1e-12 * x.abs().max(1.0) {
+        rounded
+    } else {
+        x
+    }
 }
 
 #[cfg(test)]
@@ -158,21 +182,38 @@ mod tests {
 
     #[test]
     fn infer_levels_or_continuous() {
-        assert_eq!(RatingScale::infer([3.0, 1.0, 5.0, 1.0]), RatingScale::Levels(vec![1.0, 3.0, 5.0]));
+        assert_eq!(
+            RatingScale::infer([3.0, 1.0, 5.0, 1.0]),
+            RatingScale::Levels(vec![1.0, 3.0, 5.0])
+        );
         let many = (0..50).map(f64::from);
-        assert_eq!(RatingScale::infer(many), RatingScale::Continuous { min: 0.0, max: 49.0 });
+        assert_eq!(
+            RatingScale::infer(many),
+            RatingScale::Continuous {
+                min: 0.0,
+                max: 49.0
+            }
+        );
     }
 
     #[test]
     fn parse_half_stars() {
         let s = RatingScale::parse("0.5:5:0.5").unwrap();
-        let RatingScale::Levels(levels) = &s else { panic!("levels expected") };
+        let RatingScale::Levels(levels) = &s else {
+            panic!("levels expected")
+        };
         assert_eq!(levels.len(), 10);
         assert_eq!(levels[5], 3.0);
         assert!(s.contains(2.5) && !s.contains(2.4) && !s.contains(5.5));
         assert!(RatingScale::parse("1:5").is_err());
         assert!(RatingScale::parse("5:1:1").is_err());
         assert!(RatingScale::parse("1:5:3").is_err());
-        assert_eq!(RatingScale::parse("0:100:0").unwrap(), RatingScale::Continuous { min: 0.0, max: 100.0 });
+        assert_eq!(
+            RatingScale::parse("0:100:0").unwrap(),
+            RatingScale::Continuous {
+                min: 0.0,
+                max: 100.0
+            }
+        );
     }
 }

@@ -18,7 +18,11 @@ pub fn assign_holdout(ratings: &mut Ratings, fraction: f64, seed: u64) {
     let mut start = 0;
     while start < entries.len() {
         let user = entries[start].user;
-        let end = start + entries[start..].iter().take_while(|r| r.user == user).count();
+        let end = start
+            + entries[start..]
+                .iter()
+                .take_while(|r| r.user == user)
+                .count();
         let block = &mut entries[start..end];
         let mut rng = Rng::stream(seed ^ SPLIT_SALT, u64::from(user));
         for r in block.iter_mut() {
@@ -43,7 +47,12 @@ mod tests {
             let user = r.users.intern(&format!("u{u}"));
             for j in 0..n {
                 let item = r.items.intern(&format!("i{j}"));
-                r.entries.push(Rating { user, item, value: 1.0, holdout: false });
+                r.entries.push(Rating {
+                    user,
+                    item,
+                    value: 1.0,
+                    holdout: false,
+                });
             }
         }
         r
@@ -54,7 +63,10 @@ mod tests {
         let mut r = ratings(&[1, 2, 3, 50, 1]);
         assign_holdout(&mut r, 0.9, 4);
         for u in 0..5 {
-            assert!(r.entries.iter().any(|e| e.user == u && !e.holdout), "user {u}");
+            assert!(
+                r.entries.iter().any(|e| e.user == u && !e.holdout),
+                "user {u}"
+            );
         }
     }
 

@@ -1,9 +1,9 @@
 //! Assembling a [`Model`] from a finished fit or from imported vectors.
 
+use super::FactorModel;
 use super::fit::{Center, FitOptions, FitResult};
 use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Input, Manifest, Origin, RunOptions};
 use super::store::{Model, default_files};
-use super::FactorModel;
 use crate::analysis::fit_metrics;
 use crate::data::{ItemsMeta, RatingScale, Ratings};
 
@@ -57,7 +57,12 @@ impl Model {
             inputs: provenance.inputs,
             files: default_files(provenance.meta.is_some()),
         };
-        Some(Self { manifest, ratings, factors: result.factors, meta: provenance.meta })
+        Some(Self {
+            manifest,
+            ratings,
+            factors: result.factors,
+            meta: provenance.meta,
+        })
     }
 
     /// A model from vectors fitted elsewhere. `lambda` and `sigma2` describe the prior the
@@ -91,6 +96,11 @@ impl Model {
             inputs: provenance.inputs,
             files: default_files(provenance.meta.is_some()),
         };
-        Some(Self { manifest, ratings, factors, meta: provenance.meta })
+        Some(Self {
+            manifest,
+            ratings,
+            factors,
+            meta: provenance.meta,
+        })
     }
 }

@@ -57,7 +57,15 @@ pub struct FitOptions {
 
 impl Default for FitOptions {
     fn default() -> Self {
-        Self { rank: 10, lambda: 1.0, sigma2: 1.0, center: Center::Global, max_iters: 100, tol: 1e-6, seed: 0 }
+        Self {
+            rank: 10,
+            lambda: 1.0,
+            sigma2: 1.0,
+            center: Center::Global,
+            max_iters: 100,
+            tol: 1e-6,
+            seed: 0,
+        }
     }
 }
 
@@ -69,16 +77,28 @@ impl FitOptions {
             return bad("--rank must be at least 1".into());
         }
         if self.rank > 1024 {
-            return bad(format!("--rank {} is larger than the supported 1024", self.rank));
+            return bad(format!(
+                "--rank {} is larger than the supported 1024",
+                self.rank
+            ));
         }
         if !(self.lambda.is_finite() && self.lambda >= 0.0) {
-            return bad(format!("--lambda must be a finite number ≥ 0, not {}", self.lambda));
+            return bad(format!(
+                "--lambda must be a finite number ≥ 0, not {}",
+                self.lambda
+            ));
         }
         if !(self.sigma2.is_finite() && self.sigma2 > 0.0) {
-            return bad(format!("--sigma2 must be a finite number > 0, not {}", self.sigma2));
+            return bad(format!(
+                "--sigma2 must be a finite number > 0, not {}",
+                self.sigma2
+            ));
         }
         if !(self.tol.is_finite() && self.tol >= 0.0) {
-            return bad(format!("--tol must be a finite number ≥ 0, not {}", self.tol));
+            return bad(format!(
+                "--tol must be a finite number ≥ 0, not {}",
+                self.tol
+            ));
         }
         if self.max_iters == 0 {
             return bad("--max-iters must be at least 1".into());
@@ -138,7 +158,11 @@ impl Compressed {
             targets[*at] = y;
             *at += 1;
         }
-        Self { start, columns, targets }
+        Self {
+            start,
+            columns,
+            targets,
+        }
     }
 
     fn row(&self, r: usize) -> (&[u32], &[f64]) {
@@ -174,7 +198,9 @@ impl<'a> Fitter<'a> {
         let train = || ratings.entries.iter().filter(|r| !r.holdout);
         let train_count = train().count();
         if train_count == 0 {
-            return Err(FitError::Option("there are no training ratings to fit".into()));
+            return Err(FitError::Option(
+                "there are no training ratings to fit".into(),
+            ));
         }
         let mu = match options.center {
             Center::Global => train().map(|r| r.value).sum::<f64>() / train_count as f64,
@@ -183,15 +209,38 @@ impl<'a> Fitter<'a> {
         if options.lambda == 0.0 {
             guard_underdetermined(ratings, d)?;
         }
-        let by_user = Compressed::build(ratings.users.len(), train().map(|r| (r.user, r.item, r.value - mu)));
-        let by_item = Compressed::build(ratings.items.len(), train().map(|r| (r.item, r.user, r.value - mu)));
-        let holdout = ratings.entries.iter().filter(|r| r.holdout).map(|r| (r.user, r.item, r.value)).collect();
+        let by_user = Compressed::build(
+            ratings.users.len(),
+            train().map(|r| (r.user, r.item, r.value - mu)),
+        );
+        let by_item = Compressed::build(
+            ratings.items.len(),
+            train().map(|r| (r.item, r.user, r.value - mu)),
+        );
+        let holdout = ratings
+            .entries
+            .iter()
+            .filter(|r| r.holdout)
+            .map(|r| (r.user, r.item, r.value))
+            .collect();
         let items = match init_items {
             Some((table, path)) => items_from_table(ratings, table, path, d)?,
             None => random_items(ratings.items.len(), d, options.lambda, options.seed),
         };
-        let model = FactorModel { rank: d, mu, users: vec![0.0; ratings.users.len() * d], items };
-        Ok(Self { options: options.clone(), ratings, by_user, by_item, holdout, model })
+        let model = FactorModel {
+            rank: d,
+            mu,
+            users: vec![0.0; ratings.users.len() * d],
+            items,
+        };
+        Ok(Self {
+            options: options.clone(),
+            ratings,
+            by_user,
+            by_item,
+            holdout,
+            model,
+        })
     }
 
     /// The current vectors.
@@ -202,15 +251,31 @@ impl<'a> Fitter<'a> {
     /// Updates every user vector (one ridge solve each) for the current item vectors.
     pub fn update_users(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
-        let failed = solve_side(&mut self.model.users, &self.model.items, &self.by_user, self.model.rank, ridge);
-        failed.map_or(Ok(()), |i| Err(self.not_positive_definite("user", self.ratings.users.name(i))))
+        let failed = solve_side(
+            &mut self.model.users,
+            &self.model.items,
+            &self.by_user,
+            self.model.rank,
+            ridge,
+        );
+        failed.map_or(Ok(()), |i| {
+            Err(self.not_positive_definite("user", self.ratings.users.name(i)))
+        })
     }
 
     /// Updates every item vector for the current user vectors.
     pub fn update_items(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
-        let failed = solve_side(&mut self.model.items, &self.model.users, &self.by_item, self.model.rank, ridge);
-        failed.map_or(Ok(()), |j| Err(self.not_positive_definite("item", self.ratings.items.name(j))))
+        let failed = solve_side(
+            &mut self.model.items,
+            &self.model.users,
+            &self.by_item,
+            self.model.rank,
+            ridge,
+        );
+        failed.map_or(Ok(()), |j| {
+            Err(self.not_positive_definite("item", self.ratings.items.name(j)))
+        })
     }
 
     fn not_positive_definite(&self, kind: &'static str, id: &str) -> FitError {
@@ -219,7 +284,11 @@ impl<'a> Fitter<'a> {
         } else {
             "; its rated vectors are linearly dependent: use --lambda > 0"
         };
-        FitError::NotPositiveDefinite { kind, id: id.to_owned(), hint }
+        FitError::NotPositiveDefinite {
+            kind,
+            id: id.to_owned(),
+            hint,
+        }
     }
 
     /// Sum of squared training residuals, reduced in user order.
@@ -231,7 +300,11 @@ impl<'a> Fitter<'a> {
             .map(|i| {
                 let (items, targets) = self.by_user.row(i);
                 let u = m.user(i as u32);
-                items.iter().zip(targets).map(|(&j, &y)| (y - dot(u, m.item(j))).powi(2)).sum::<f64>()
+                items
+                    .iter()
+                    .zip(targets)
+                    .map(|(&j, &y)| (y - dot(u, m.item(j))).powi(2))
+                    .sum::<f64>()
             })
             .collect();
         per_user.iter().sum()
@@ -242,8 +315,12 @@ impl<'a> Fitter<'a> {
             return None;
         }
         let m = &self.model;
-        let squares: Vec<f64> =
-            self.holdout.par_iter().with_min_len(1024).map(|&(i, j, y)| (y - m.predict(i, j)).powi(2)).collect();
+        let squares: Vec<f64> = self
+            .holdout
+            .par_iter()
+            .with_min_len(1024)
+            .map(|&(i, j, y)| (y - m.predict(i, j)).powi(2))
+            .collect();
         Some((squares.iter().sum::<f64>() / squares.len() as f64).sqrt())
     }
 
@@ -274,7 +351,10 @@ impl<'a> Fitter<'a> {
     }
 
     /// Iterates until `|ΔL| ≤ tol·|L|` or the iteration limit, reporting each iteration.
-    pub fn run(mut self, mut progress: impl FnMut(&IterationRecord)) -> Result<FitResult, FitError> {
+    pub fn run(
+        mut self,
+        mut progress: impl FnMut(&IterationRecord),
+    ) -> Result<FitResult, FitError> {
         let mut trace: Vec<IterationRecord> = Vec::new();
         let mut converged = false;
         for iter in 1..=self.options.max_iters {
@@ -282,12 +362,18 @@ impl<'a> Fitter<'a> {
             progress(&record);
             let previous = trace.last().map(|r| r.log_joint);
             trace.push(record);
-            if previous.is_some_and(|p| (record.log_joint - p).abs() <= self.options.tol * record.log_joint.abs()) {
+            if previous.is_some_and(|p| {
+                (record.log_joint - p).abs() <= self.options.tol * record.log_joint.abs()
+            }) {
                 converged = true;
                 break;
             }
         }
-        Ok(FitResult { factors: self.model, trace, converged })
+        Ok(FitResult {
+            factors: self.model,
+            trace,
+            converged,
+        })
     }
 }
 
@@ -313,7 +399,13 @@ pub fn fit(
 }
 
 /// Solves every row of one side; returns the first row (in index order) that failed.
-fn solve_side(out: &mut [f64], other: &[f64], rows: &Compressed, d: usize, ridge: f64) -> Option<u32> {
+fn solve_side(
+    out: &mut [f64],
+    other: &[f64],
+    rows: &Compressed,
+    d: usize,
+    ridge: f64,
+) -> Option<u32> {
     let failures: Vec<u32> = out
         .par_chunks_mut(d)
         .enumerate()
@@ -335,8 +427,12 @@ fn solve_side(out: &mut [f64], other: &[f64], rows: &Compressed, d: usize, ridge
 
 fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {
     let (users, items) = ratings.train_support();
-    let short_users: Vec<u32> = (0..users.len() as u32).filter(|&i| (users[i as usize] as usize) < d).collect();
-    let short_items: Vec<u32> = (0..items.len() as u32).filter(|&j| (items[j as usize] as usize) < d).collect();
+    let short_users: Vec<u32> = (0..users.len() as u32)
+        .filter(|&i| (users[i as usize] as usize) < d)
+        .collect();
+    let short_items: Vec<u32> = (0..items.len() as u32)
+        .filter(|&j| (items[j as usize] as usize) < d)
+        .collect();
     if short_users.is_empty() && short_items.is_empty() {
         return Ok(());
     }
@@ -351,7 +447,11 @@ fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {
 
 /// Initial item vectors drawn i.i.d. `N(0, 1/λ)` (or `N(0, 1)` when λ = 0).
 fn random_items(count: usize, d: usize, lambda: f64, seed: u64) -> Vec<f64> {
-    let scale = if lambda > 0.0 { 1.0 / lambda.sqrt() } else { 1.0 };
+    let scale = if lambda > 0.0 {
+        1.0 / lambda.sqrt()
+    } else {
+        1.0
+    };
     let mut rng = Rng::new(seed);
     (0..count * d).map(|_| scale * rng.normal()).collect()
 }
@@ -365,12 +465,20 @@ fn items_from_table(
     if table.rank != d {
         return Err(DataError::in_file(
             path,
-            format!("the initial item table has {} factor columns but --rank is {d}", table.rank),
+            format!(
+                "the initial item table has {} factor columns but --rank is {d}",
+                table.rank
+            ),
         )
         .into());
     }
-    let missing: Vec<&str> =
-        ratings.items.names().iter().filter(|id| table.ids.get(id).is_none()).map(String::as_str).collect();
+    let missing: Vec<&str> = ratings
+        .items
+        .names()
+        .iter()
+        .filter(|id| table.ids.get(id).is_none())
+        .map(String::as_str)
+        .collect();
     if !missing.is_empty() {
         return Err(DataError::in_file(
             path,

@@ -23,8 +23,8 @@ pub mod manifest;
 pub mod solve;
 pub mod store;
 
-pub use fit::{Center, FitOptions, FitResult, Fitter, IterationRecord, fit};
 pub use build::Provenance;
+pub use fit::{Center, FitOptions, FitResult, Fitter, IterationRecord, fit};
 pub use solve::RidgeWorkspace;
 pub use store::{Model, load_model, save_model};
 

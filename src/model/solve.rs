@@ -51,7 +51,11 @@ impl RidgeWorkspace {
         if n == 0 {
             // The objective is ridge·‖w‖²: w = 0 when ridge > 0, undetermined otherwise.
             out.fill(0.0);
-            return if ridge > 0.0 { Ok(()) } else { Err(NotPositiveDefinite) };
+            return if ridge > 0.0 {
+                Ok(())
+            } else {
+                Err(NotPositiveDefinite)
+            };
         }
         self.gathered.clear();
         for &r in rows {
@@ -65,8 +69,13 @@ impl RidgeWorkspace {
         for k in 0..d {
             self.gram[(k, k)] += ridge;
         }
-        self.rhs.gemv(1.0, &x_t, &DVectorView::from_slice(targets, n), 0.0);
-        let diagonal: Vec<f64> = if ridge == 0.0 { (0..d).map(|k| self.gram[(k, k)]).collect() } else { Vec::new() };
+        self.rhs
+            .gemv(1.0, &x_t, &DVectorView::from_slice(targets, n), 0.0);
+        let diagonal: Vec<f64> = if ridge == 0.0 {
+            (0..d).map(|k| self.gram[(k, k)]).collect()
+        } else {
+            Vec::new()
+        };
         let gram = std::mem::replace(&mut self.gram, DMatrix::zeros(0, 0));
         let Some(factor) = Cholesky::new(gram) else {
             self.gram = DMatrix::zeros(d, d);
@@ -103,7 +112,8 @@ mod tests {
         let table = [1.0, 0.0, 1.0, 1.0, 1.0, 2.0];
         let mut ws = RidgeWorkspace::new(2);
         let mut w = [0.0; 2];
-        ws.solve(&table, &[0, 1, 2], &[1.0, 2.0, 2.0], 0.5, &mut w).unwrap();
+        ws.solve(&table, &[0, 1, 2], &[1.0, 2.0, 2.0], 0.5, &mut w)
+            .unwrap();
         assert!((w[0] - 38.0 / 41.0).abs() < 1e-14);
         assert!((w[1] - 24.0 / 41.0).abs() < 1e-14);
     }

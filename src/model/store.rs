@@ -14,7 +14,9 @@ use std::path::{Component, Path, PathBuf};
 use super::FactorModel;
 use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Files, Manifest};
 use crate::data::ratings::{RatingColumns, RatingsOptions, read_ratings_with_ids};
-use crate::data::{ItemsMeta, Ratings, read_factor_table, read_items_meta, write_factor_table, write_items_meta};
+use crate::data::{
+    ItemsMeta, Ratings, read_factor_table, read_items_meta, write_factor_table, write_items_meta,
+};
 use crate::error::DataError;
 
 /// Name of the manifest inside a model directory.
@@ -59,11 +61,21 @@ pub enum SaveError {
 }
 
 fn io_error(path: &Path) -> impl FnOnce(std::io::Error) -> SaveError + '_ {
-    move |source| SaveError::Io { path: path.display().to_string(), source }
+    move |source| SaveError::Io {
+        path: path.display().to_string(),
+        source,
+    }
 }
 
 /// Files a model directory may contain; anything else makes `save_model` refuse to replace it.
-const KNOWN_FILES: [&str; 6] = [MANIFEST, "users.csv", "items.csv", "ratings.csv", ITEMS_META, ANNOTATIONS];
+const KNOWN_FILES: [&str; 6] = [
+    MANIFEST,
+    "users.csv",
+    "items.csv",
+    "ratings.csv",
+    ITEMS_META,
+    ANNOTATIONS,
+];
 
 /// Writes `model` to `dir` atomically. `dir` may be absent, an empty directory, or an
 /// existing model directory (replaced as a whole; its `annotations.ron` is kept).
@@ -73,7 +85,9 @@ pub fn save_model(dir: &Path, model: &Model) -> Result<(), SaveError> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    let name = dir.file_name().map_or_else(|| "model".into(), |n| n.to_string_lossy().into_owned());
+    let name = dir
+        .file_name()
+        .map_or_else(|| "model".into(), |n| n.to_string_lossy().into_owned());
     let staging = Staging::create(&parent, &name)?;
     write_files(&staging.path, model)?;
     if existing == Target::Model {
@@ -104,18 +118,29 @@ enum Target {
 }
 
 fn inspect_target(dir: &Path) -> Result<Target, SaveError> {
-    let refuse = |reason: String| SaveError::Refused { path: dir.display().to_string(), reason };
+    let refuse = |reason: String| SaveError::Refused {
+        path: dir.display().to_string(),
+        reason,
+    };
     let meta = match fs::symlink_metadata(dir) {
         Ok(meta) => meta,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(Target::Absent),
         Err(e) => return Err(io_error(dir)(e)),
     };
     if !meta.is_dir() {
-        return Err(refuse("exists and is not a directory; choose another --out".into()));
+        return Err(refuse(
+            "exists and is not a directory; choose another --out".into(),
+        ));
     }
     let mut names = Vec::new();
     for entry in fs::read_dir(dir).map_err(io_error(dir))? {
-        names.push(entry.map_err(io_error(dir))?.file_name().to_string_lossy().into_owned());
+        names.push(
+            entry
+                .map_err(io_error(dir))?
+                .file_name()
+                .to_string_lossy()
+                .into_owned(),
+        );
     }
     if names.is_empty() {
         return Ok(Target::Empty);
@@ -127,7 +152,10 @@ fn inspect_target(dir: &Path) -> Result<Target, SaveError> {
                 .into(),
         ));
     }
-    let mut foreign: Vec<&String> = names.iter().filter(|n| !KNOWN_FILES.contains(&n.as_str())).collect();
+    let mut foreign: Vec<&String> = names
+        .iter()
+        .filter(|n| !KNOWN_FILES.contains(&n.as_str()))
+        .collect();
     foreign.sort();
     if let Some(first) = foreign.first() {
         return Err(refuse(format!(
@@ -147,7 +175,10 @@ struct Staging {
 impl Staging {
     fn create(parent: &Path, name: &str) -> Result<Self, SaveError> {
         for attempt in 0..1000u32 {
-            let path = parent.join(format!(".{name}.sextant-new-{}-{attempt}", std::process::id()));
+            let path = parent.join(format!(
+                ".{name}.sextant-new-{}-{attempt}",
+                std::process::id()
+            ));
             match fs::create_dir(&path) {
                 Ok(()) => return Ok(Self { path }),
                 Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {}
@@ -190,11 +221,19 @@ fn swap_dirs(new: &Path, target: &Path) -> Result<(), SaveError> {
 fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
     let files = &model.manifest.files;
     let f = &model.factors;
-    write_synced(&dir.join(&files.users), |w| write_factor_table(w, &model.ratings.users, f.rank, &f.users))?;
-    write_synced(&dir.join(&files.items), |w| write_factor_table(w, &model.ratings.items, f.rank, &f.items))?;
-    write_synced(&dir.join(&files.ratings), |w| write_model_ratings(w, &model.ratings))?;
+    write_synced(&dir.join(&files.users), |w| {
+        write_factor_table(w, &model.ratings.users, f.rank, &f.users)
+    })?;
+    write_synced(&dir.join(&files.items), |w| {
+        write_factor_table(w, &model.ratings.items, f.rank, &f.items)
+    })?;
+    write_synced(&dir.join(&files.ratings), |w| {
+        write_model_ratings(w, &model.ratings)
+    })?;
     if let (Some(name), Some(meta)) = (&files.items_meta, &model.meta) {
-        write_synced(&dir.join(name), |w| write_items_meta(w, meta, &model.ratings.items))?;
+        write_synced(&dir.join(name), |w| {
+            write_items_meta(w, meta, &model.ratings.items)
+        })?;
     }
     let text = manifest_text(&model.manifest);
     write_synced(&dir.join(MANIFEST), |w| w.write_all(text.as_bytes()))
@@ -202,26 +241,38 @@ fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
 
 /// The manifest as RON text.
 pub fn manifest_text(manifest: &Manifest) -> String {
-    let config = ron::ser::PrettyConfig::new().depth_limit(2).struct_names(false);
-    let mut text = ron::ser::to_string_pretty(manifest, config).expect("a manifest always serialises");
+    let config = ron::ser::PrettyConfig::new()
+        .depth_limit(2)
+        .struct_names(false);
+    let mut text =
+        ron::ser::to_string_pretty(manifest, config).expect("a manifest always serialises");
     text.push('\n');
     text
 }
 
-fn write_synced(path: &Path, write: impl FnOnce(&mut BufWriter<&File>) -> std::io::Result<()>) -> Result<(), SaveError> {
+fn write_synced(
+    path: &Path,
+    write: impl FnOnce(&mut BufWriter<&File>) -> std::io::Result<()>,
+) -> Result<(), SaveError> {
     let file = File::create(path).map_err(io_error(path))?;
     let mut out = BufWriter::with_capacity(1 << 16, &file);
-    write(&mut out).and_then(|()| out.flush()).map_err(io_error(path))?;
+    write(&mut out)
+        .and_then(|()| out.flush())
+        .map_err(io_error(path))?;
     drop(out);
     file.sync_all().map_err(io_error(path))
 }
 
 fn sync_file(path: &Path) -> Result<(), SaveError> {
-    File::open(path).and_then(|f| f.sync_all()).map_err(io_error(path))
+    File::open(path)
+        .and_then(|f| f.sync_all())
+        .map_err(io_error(path))
 }
 
 fn sync_dir(path: &Path) -> Result<(), SaveError> {
-    File::open(path).and_then(|f| f.sync_all()).map_err(io_error(path))
+    File::open(path)
+        .and_then(|f| f.sync_all())
+        .map_err(io_error(path))
 }
 
 fn write_model_ratings(out: impl Write, ratings: &Ratings) -> std::io::Result<()> {
@@ -235,7 +286,11 @@ fn write_model_ratings(out: impl Write, ratings: &Ratings) -> std::io::Result<()
         crate::data::factors::quote_field(&mut field, ratings.items.name(r.item));
         out.write_all(&field)?;
         let split = if r.holdout { "holdout" } else { "train" };
-        writeln!(out, ",{},{split}", crate::data::factors::format_float(r.value))?;
+        writeln!(
+            out,
+            ",{},{split}",
+            crate::data::factors::format_float(r.value)
+        )?;
     }
     out.flush()
 }
@@ -257,7 +312,9 @@ pub struct DirSource {
 impl DirSource {
     /// A source reading from `dir`.
     pub fn new(dir: &Path) -> Self {
-        Self { dir: dir.to_path_buf() }
+        Self {
+            dir: dir.to_path_buf(),
+        }
     }
 }
 
@@ -268,7 +325,10 @@ impl ModelSource for DirSource {
             .and_then(|dir| fs::canonicalize(&path).map(|file| file.starts_with(dir)))
             .map_err(|e| DataError::read(&path, e))?;
         if !inside {
-            return Err(DataError::in_file(&path, "resolves to a place outside the model directory; refusing to read it"));
+            return Err(DataError::in_file(
+                &path,
+                "resolves to a place outside the model directory; refusing to read it",
+            ));
         }
         fs::read(&path).map_err(|e| DataError::read(&path, e))
     }
@@ -289,9 +349,16 @@ pub struct EmbeddedSource {
 
 impl ModelSource for EmbeddedSource {
     fn read(&self, name: &str) -> Result<Vec<u8>, DataError> {
-        self.files.iter().find(|(n, _)| *n == name).map(|(_, bytes)| bytes.to_vec()).ok_or_else(|| {
-            DataError::read(&self.path(name), std::io::Error::from(std::io::ErrorKind::NotFound))
-        })
+        self.files
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, bytes)| bytes.to_vec())
+            .ok_or_else(|| {
+                DataError::read(
+                    &self.path(name),
+                    std::io::Error::from(std::io::ErrorKind::NotFound),
+                )
+            })
     }
 
     fn path(&self, name: &str) -> PathBuf {
@@ -302,8 +369,17 @@ impl ModelSource for EmbeddedSource {
 /// Loads and validates the model directory `dir`.
 pub fn load_model(dir: &Path) -> Result<Model, DataError> {
     if !dir.is_dir() {
-        let reason = if dir.exists() { "is not a directory" } else { "does not exist" };
-        return Err(DataError::in_file(dir, format!("{reason}; expected a model directory made by `sextant fit` or `sextant import`")));
+        let reason = if dir.exists() {
+            "is not a directory"
+        } else {
+            "does not exist"
+        };
+        return Err(DataError::in_file(
+            dir,
+            format!(
+                "{reason}; expected a model directory made by `sextant fit` or `sextant import`"
+            ),
+        ));
     }
     load_model_from(&DirSource::new(dir))
 }
@@ -313,7 +389,15 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     let manifest_path = source.path(MANIFEST);
     let manifest = parse_manifest(&source.read(MANIFEST)?, &manifest_path)?;
     let files = &manifest.files;
-    for name in [Some(&files.users), Some(&files.items), Some(&files.ratings), files.items_meta.as_ref()].into_iter().flatten() {
+    for name in [
+        Some(&files.users),
+        Some(&files.items),
+        Some(&files.ratings),
+        files.items_meta.as_ref(),
+    ]
+    .into_iter()
+    .flatten()
+    {
         check_file_name(name, &manifest_path)?;
     }
     let rank = manifest.rank;
@@ -321,12 +405,21 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     let items = read_table(source, &files.items, rank, manifest.counts.items, "items")?;
     let ratings_path = source.path(&files.ratings);
     let options = RatingsOptions {
-        columns: RatingColumns { split: Some("split".into()), ..RatingColumns::default() },
+        columns: RatingColumns {
+            split: Some("split".into()),
+            ..RatingColumns::default()
+        },
         known_ids_only: true,
         ..RatingsOptions::default()
     };
     let bytes = source.read(&files.ratings)?;
-    let ratings = read_ratings_with_ids(bytes.as_slice(), &ratings_path, &options, users.ids.clone(), items.ids.clone())?;
+    let ratings = read_ratings_with_ids(
+        bytes.as_slice(),
+        &ratings_path,
+        &options,
+        users.ids.clone(),
+        items.ids.clone(),
+    )?;
     let found = Counts {
         users: ratings.users.len(),
         items: ratings.items.len(),
@@ -337,22 +430,39 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     if found != manifest.counts {
         return Err(DataError::in_file(
             &manifest_path,
-            format!("counts do not match the files: the manifest says {:?}, the files hold {found:?}", manifest.counts),
+            format!(
+                "counts do not match the files: the manifest says {:?}, the files hold {found:?}",
+                manifest.counts
+            ),
         ));
     }
     let meta = match &files.items_meta {
         Some(name) => {
             let path = source.path(name);
-            let meta = read_items_meta(source.read(name)?.as_slice(), &path, "item", &ratings.items)?;
+            let meta =
+                read_items_meta(source.read(name)?.as_slice(), &path, "item", &ratings.items)?;
             if let Some(id) = meta.unknown.first() {
-                return Err(DataError::in_file(&path, format!("describes item '{id}', which the model does not have")));
+                return Err(DataError::in_file(
+                    &path,
+                    format!("describes item '{id}', which the model does not have"),
+                ));
             }
             Some(meta)
         }
         None => None,
     };
-    let factors = FactorModel { rank, mu: manifest.mu, users: users.values, items: items.values };
-    Ok(Model { manifest, ratings, factors, meta })
+    let factors = FactorModel {
+        rank,
+        mu: manifest.mu,
+        users: users.values,
+        items: items.values,
+    };
+    Ok(Model {
+        manifest,
+        ratings,
+        factors,
+        meta,
+    })
 }
 
 fn read_table(
@@ -368,13 +478,19 @@ fn read_table(
         return Err(DataError::at_line(
             &path,
             1,
-            format!("the table has {} factor columns but the manifest says rank {rank}", table.rank),
+            format!(
+                "the table has {} factor columns but the manifest says rank {rank}",
+                table.rank
+            ),
         ));
     }
     if table.ids.len() != expected {
         return Err(DataError::in_file(
             &path,
-            format!("the table has {} {what} but the manifest says {expected}", table.ids.len()),
+            format!(
+                "the table has {} {what} but the manifest says {expected}",
+                table.ids.len()
+            ),
         ));
     }
     Ok(table)
@@ -382,26 +498,37 @@ fn read_table(
 
 fn check_file_name(name: &str, manifest: &Path) -> Result<(), DataError> {
     let path = Path::new(name);
-    let plain = path.components().count() == 1 && matches!(path.components().next(), Some(Component::Normal(_)));
+    let plain = path.components().count() == 1
+        && matches!(path.components().next(), Some(Component::Normal(_)));
     if plain && !name.is_empty() {
         Ok(())
     } else {
         Err(DataError::in_file(
             manifest,
-            format!("file name '{name}' would leave the model directory; only plain file names are allowed"),
+            format!(
+                "file name '{name}' would leave the model directory; only plain file names are allowed"
+            ),
         ))
     }
 }
 
 /// Parses and checks `manifest.ron`.
 pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> {
-    let text = std::str::from_utf8(bytes).map_err(|_| DataError::in_file(path, "is not valid UTF-8 text"))?;
+    let text = std::str::from_utf8(bytes)
+        .map_err(|_| DataError::in_file(path, "is not valid UTF-8 text"))?;
     let manifest: Manifest = ron::from_str(text).map_err(|e| {
-        DataError::at_line(path, e.span.start.line as u64, format!("not a valid manifest: {}", e.code))
+        DataError::at_line(
+            path,
+            e.span.start.line as u64,
+            format!("not a valid manifest: {}", e.code),
+        )
     })?;
     let bad = |reason: String| Err(DataError::in_file(path, reason));
     if manifest.format != FORMAT_TAG {
-        return bad(format!("format '{}' is not '{FORMAT_TAG}'", manifest.format));
+        return bad(format!(
+            "format '{}' is not '{FORMAT_TAG}'",
+            manifest.format
+        ));
     }
     if manifest.version != FORMAT_VERSION {
         return bad(format!(
@@ -412,7 +539,11 @@ pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> 
     if manifest.rank == 0 || manifest.rank > 4096 {
         return bad(format!("rank {} is outside 1 to 4096", manifest.rank));
     }
-    let finite = [("lambda", manifest.lambda), ("sigma2", manifest.sigma2), ("mu", manifest.mu)];
+    let finite = [
+        ("lambda", manifest.lambda),
+        ("sigma2", manifest.sigma2),
+        ("mu", manifest.mu),
+    ];
     if let Some((name, value)) = finite.iter().find(|(_, v)| !v.is_finite()) {
         return bad(format!("{name} is {value}, not a finite number"));
     }
@@ -421,14 +552,21 @@ pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> 
     }
     let scale_ok = match &manifest.scale {
         crate::data::RatingScale::Levels(levels) => {
-            !levels.is_empty() && levels.iter().all(|v| v.is_finite()) && levels.windows(2).all(|w| w[0] < w[1])
+            !levels.is_empty()
+                && levels.iter().all(|v| v.is_finite())
+                && levels.windows(2).all(|w| w[0] < w[1])
         }
-        crate::data::RatingScale::Continuous { min, max } => min.is_finite() && max.is_finite() && min <= max,
+        crate::data::RatingScale::Continuous { min, max } => {
+            min.is_finite() && max.is_finite() && min <= max
+        }
     };
     if !scale_ok {
         return bad("the rating scale is empty, unsorted or not finite".into());
     }
-    let numbers_ok = manifest.trace.iter().all(|r| r.log_joint.is_finite() && r.train_rmse.is_finite());
+    let numbers_ok = manifest
+        .trace
+        .iter()
+        .all(|r| r.log_joint.is_finite() && r.train_rmse.is_finite());
     if !numbers_ok {
         return bad("the trace holds values that are not finite numbers".into());
     }
@@ -437,5 +575,8 @@ pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> 
 
 /// The default file set, with items metadata when `has_meta`.
 pub fn default_files(has_meta: bool) -> Files {
-    Files { items_meta: has_meta.then(|| ITEMS_META.to_owned()), ..Files::default() }
+    Files {
+        items_meta: has_meta.then(|| ITEMS_META.to_owned()),
+        ..Files::default()
+    }
 }

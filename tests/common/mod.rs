@@ -14,13 +14,20 @@ pub fn repo(path: &str) -> PathBuf {
 /// A reference fixture written by tests/reference/make_fixtures.py.
 pub fn fixture(name: &str) -> Value {
     let text = std::fs::read_to_string(repo(&format!("tests/reference/fixtures/{name}")))
-        .unwrap_or_else(|e| panic!("fixture {name}: {e}; run python3 tests/reference/make_fixtures.py"));
+        .unwrap_or_else(|e| {
+            panic!("fixture {name}: {e}; run python3 tests/reference/make_fixtures.py")
+        });
     serde_json::from_str(&text).expect("fixture is JSON")
 }
 
 /// A JSON array of numbers as a vector.
 pub fn floats(value: &Value) -> Vec<f64> {
-    value.as_array().expect("array").iter().map(|v| v.as_f64().expect("number")).collect()
+    value
+        .as_array()
+        .expect("array")
+        .iter()
+        .map(|v| v.as_f64().expect("number"))
+        .collect()
 }
 
 /// A JSON array of rows as a row-major vector and its width.
@@ -36,7 +43,12 @@ pub fn ratings_from(rows: &Value) -> Ratings {
     for row in rows.as_array().expect("rows") {
         let user = ratings.users.intern(row[0].as_str().expect("user"));
         let item = ratings.items.intern(row[1].as_str().expect("item"));
-        ratings.entries.push(Rating { user, item, value: row[2].as_f64().expect("value"), holdout: false });
+        ratings.entries.push(Rating {
+            user,
+            item,
+            value: row[2].as_f64().expect("value"),
+            holdout: false,
+        });
     }
     ratings.entries.sort_by_key(|r| (r.user, r.item));
     ratings
@@ -54,5 +66,9 @@ pub fn table(prefix: &str, values: Vec<f64>, rank: usize) -> FactorTable {
 /// Largest absolute difference, relative to max(1, |expected|).
 pub fn max_rel_diff(actual: &[f64], expected: &[f64]) -> f64 {
     assert_eq!(actual.len(), expected.len());
-    actual.iter().zip(expected).map(|(a, e)| (a - e).abs() / e.abs().max(1.0)).fold(0.0, f64::max)
+    actual
+        .iter()
+        .zip(expected)
+        .map(|(a, e)| (a - e).abs() / e.abs().max(1.0))
+        .fold(0.0, f64::max)
 }
