@@ -2,7 +2,7 @@
 //!
 //! The pipeline: a ratings CSV is read into [`data::Ratings`] (string ids interned to dense
 //! indices, a seeded per-user held-out split), a probabilistic matrix factorization is
-//! fitted by coordinate ascent ([`model::fit`]: alternating exact ridge solves that never
+//! fitted by coordinate ascent ([`model::fit()`]: alternating exact ridge solves that never
 //! decrease the log joint likelihood), or vectors fitted elsewhere are imported, and the
 //! result is kept as a self-contained, validated, atomically written model directory
 //! ([`model::save_model`], [`model::load_model`]). [`analysis`] computes what people look

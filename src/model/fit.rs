@@ -8,7 +8,8 @@
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
-use super::solve::{NotPositiveDefinite, RidgeWorkspace};
+use super::kernels::BATCH;
+use super::solve::RidgeWorkspace;
 use super::{FactorModel, dot, squared_norm};
 use crate::data::ids::first_few;
 use crate::data::{FactorTable, Ratings};
@@ -398,7 +399,8 @@ pub fn fit(
     Fitter::new(ratings, options, init_items)?.run(progress)
 }
 
-/// Solves every row of one side; returns the first row (in index order) that failed.
+/// Solves every row of one side, [`BATCH`] rows at a time; returns the first row (in index
+/// order) that failed.
 fn solve_side(
     out: &mut [f64],
     other: &[f64],
@@ -407,17 +409,17 @@ fn solve_side(
     ridge: f64,
 ) -> Option<u32> {
     let failures: Vec<u32> = out
-        .par_chunks_mut(d)
+        .par_chunks_mut(d * BATCH)
         .enumerate()
-        .with_min_len(64)
+        .with_min_len(16)
         .map_init(
             || RidgeWorkspace::new(d),
-            |ws, (r, vector)| {
-                let (columns, targets) = rows.row(r);
-                match ws.solve(other, columns, targets, ridge, vector) {
-                    Ok(()) => None,
-                    Err(NotPositiveDefinite) => Some(r as u32),
-                }
+            |ws, (batch, vectors)| {
+                let first = batch * BATCH;
+                let count = vectors.len() / d;
+                let problems: Vec<_> = (first..first + count).map(|r| rows.row(r)).collect();
+                let ok = ws.solve_batch(other, &problems, ridge, vectors);
+                (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
             },
         )
         .flatten()

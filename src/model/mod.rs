@@ -15,10 +15,11 @@
 //! few ratings stays near the origin instead of being fitted to noise; with `λ = 0` there is
 //! no pull and every user and item needs at least `D` ratings to be determined at all.
 //! Maximisation is by coordinate ascent: all users, then all items, each a ridge regression
-//! solved exactly, so `L` never decreases (see [`fit`]).
+//! solved exactly, so `L` never decreases (see [`fit()`]).
 
 pub mod build;
 pub mod fit;
+pub mod kernels;
 pub mod manifest;
 pub mod solve;
 pub mod store;

@@ -6,15 +6,22 @@
 //! (a blocked SIMD kernel), and the system is solved by Cholesky, never by an inverse.
 //! Buffers are reused across solves; one workspace per thread.
 
-use nalgebra::{Cholesky, DMatrix, DMatrixView, DVector, DVectorView};
+use super::kernels::{
+    BATCH, COLUMN_BLOCK, Lanes, TILE, cholesky_solve_batch, gram_and_rhs, round_up,
+};
 
 /// Reusable buffers for ridge solves of a fixed rank.
 #[derive(Debug, Clone)]
 pub struct RidgeWorkspace {
     rank: usize,
+    /// Row stride of the gathered vectors and of the Gram matrix (rank rounded up to a tile).
+    stride: usize,
     gathered: Vec<f64>,
-    gram: DMatrix<f64>,
-    rhs: DVector<f64>,
+    gram: Vec<f64>,
+    rhs: Vec<f64>,
+    lanes: Vec<Lanes>,
+    lane_rhs: Vec<Lanes>,
+    diagonal: Vec<Lanes>,
 }
 
 /// The normal equations were not positive definite (only possible with no ridge term or
@@ -22,14 +29,22 @@ pub struct RidgeWorkspace {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct NotPositiveDefinite;
 
+/// One ridge problem: the rows of the table it uses and their targets.
+pub type Problem<'a> = (&'a [u32], &'a [f64]);
+
 impl RidgeWorkspace {
     /// A workspace for vectors of width `rank`.
     pub fn new(rank: usize) -> Self {
+        let stride = round_up(rank, TILE);
         Self {
             rank,
+            stride,
             gathered: Vec::new(),
-            gram: DMatrix::zeros(rank, rank),
-            rhs: DVector::zeros(rank),
+            gram: vec![0.0; stride * stride],
+            rhs: vec![0.0; stride],
+            lanes: vec![[0.0; BATCH]; rank * round_up(rank, COLUMN_BLOCK)],
+            lane_rhs: vec![[0.0; BATCH]; rank],
+            diagonal: vec![[0.0; BATCH]; rank],
         }
     }
 
@@ -37,6 +52,7 @@ impl RidgeWorkspace {
     /// row-major table `table` (width `rank`), writing `w` into `out`.
     ///
     /// This is exactly the minimiser of `‖y − Xw‖² + ridge·‖w‖²` (Hoerl & Kennard 1970).
+    /// With no rows the solution is 0 when `ridge > 0` and undetermined otherwise.
     pub fn solve(
         &mut self,
         table: &[f64],
@@ -45,59 +61,107 @@ impl RidgeWorkspace {
         ridge: f64,
         out: &mut [f64],
     ) -> Result<(), NotPositiveDefinite> {
-        let d = self.rank;
-        let n = rows.len();
-        debug_assert_eq!(n, targets.len());
-        if n == 0 {
-            // The objective is ridge·‖w‖²: w = 0 when ridge > 0, undetermined otherwise.
-            out.fill(0.0);
-            return if ridge > 0.0 {
-                Ok(())
-            } else {
-                Err(NotPositiveDefinite)
-            };
-        }
-        self.gathered.clear();
-        for &r in rows {
-            let start = r as usize * d;
-            self.gathered.extend_from_slice(&table[start..start + d]);
-        }
-        // Columns of `x_t` are the gathered vectors (d × n); `x` is its n × d transpose view.
-        let x_t = DMatrixView::from_slice(&self.gathered, d, n);
-        let x = DMatrixView::from_slice_with_strides(&self.gathered, n, d, d, 1);
-        self.gram.gemm(1.0, &x_t, &x, 0.0);
-        for k in 0..d {
-            self.gram[(k, k)] += ridge;
-        }
-        self.rhs
-            .gemv(1.0, &x_t, &DVectorView::from_slice(targets, n), 0.0);
-        let diagonal: Vec<f64> = if ridge == 0.0 {
-            (0..d).map(|k| self.gram[(k, k)]).collect()
+        if self.solve_batch(table, &[(rows, targets)], ridge, out)[0] {
+            Ok(())
         } else {
-            Vec::new()
-        };
-        let gram = std::mem::replace(&mut self.gram, DMatrix::zeros(0, 0));
-        let Some(factor) = Cholesky::new(gram) else {
-            self.gram = DMatrix::zeros(d, d);
-            return Err(NotPositiveDefinite);
-        };
-        if ridge == 0.0 {
-            // Without a ridge term, a rank-deficient Gram matrix can survive factorisation
-            // with a pivot that is only rounding noise. L_kk² / G_kk is the share of column
-            // k not explained by the columns before it (scale-free); below 64 ε it is noise.
-            let l = factor.l_dirty();
-            if (0..d).any(|k| l[(k, k)] * l[(k, k)] <= 64.0 * f64::EPSILON * diagonal[k]) {
-                self.gram = factor.unpack_dirty();
-                return Err(NotPositiveDefinite);
+            Err(NotPositiveDefinite)
+        }
+    }
+
+    /// Solves up to [`BATCH`] independent problems side by side (see [`Self::solve`]),
+    /// writing solution `p` to `out[p * rank..]`. Returns which ones succeeded. Each
+    /// solution is bit-identical to what [`Self::solve`] gives for that problem alone.
+    pub fn solve_batch(
+        &mut self,
+        table: &[f64],
+        problems: &[Problem<'_>],
+        ridge: f64,
+        out: &mut [f64],
+    ) -> [bool; BATCH] {
+        assert!(
+            problems.len() <= BATCH,
+            "at most {BATCH} problems per batch"
+        );
+        let d = self.rank;
+        for lane in 0..BATCH {
+            match problems.get(lane) {
+                Some(&(rows, targets)) => self.load_lane(lane, table, rows, targets, ridge),
+                None => self.load_identity(lane),
             }
         }
-        factor.solve_mut(&mut self.rhs);
-        self.gram = factor.unpack_dirty();
-        if self.rhs.iter().any(|v| !v.is_finite()) {
-            return Err(NotPositiveDefinite);
+        let diagonal = (ridge == 0.0).then(|| {
+            self.diagonal.clear();
+            let ls = round_up(d, COLUMN_BLOCK);
+            self.diagonal.extend((0..d).map(|k| self.lanes[k * ls + k]));
+            self.diagonal.as_slice()
+        });
+        let mut ok = cholesky_solve_batch(&mut self.lanes, &mut self.lane_rhs, d, diagonal);
+        for (lane, solution) in out.chunks_exact_mut(d).enumerate().take(problems.len()) {
+            for (k, value) in solution.iter_mut().enumerate() {
+                *value = self.lane_rhs[k][lane];
+            }
+            if solution.iter().any(|v| !v.is_finite()) {
+                ok[lane] = false;
+            }
         }
-        out.copy_from_slice(self.rhs.as_slice());
-        Ok(())
+        ok
+    }
+
+    /// Builds the normal equations of one problem into lane `lane`.
+    fn load_lane(&mut self, lane: usize, table: &[f64], rows: &[u32], targets: &[f64], ridge: f64) {
+        let (d, s) = (self.rank, self.stride);
+        debug_assert_eq!(rows.len(), targets.len());
+        // Copy the rated vectors into zero-padded rows of a tile-multiple width: one pass
+        // over scattered memory, then every tile of the kernel reads from cache. Every value
+        // is written below, so the buffer only grows and is never cleared.
+        if self.gathered.len() < rows.len() * s {
+            self.gathered.resize(rows.len() * s, 0.0);
+        }
+        let gathered = &mut self.gathered[..rows.len() * s];
+        let whole = d - d % TILE;
+        for (slot, &r) in gathered.chunks_exact_mut(s).zip(rows) {
+            let source = &table[r as usize * d..(r as usize + 1) * d];
+            // Fixed-size chunks compile to plain vector moves (no library call per row).
+            for (to, from) in slot[..whole]
+                .chunks_exact_mut(TILE)
+                .zip(source.chunks_exact(TILE))
+            {
+                let from: &[f64; TILE] = from.try_into().expect("exact chunk");
+                let to: &mut [f64; TILE] = to.try_into().expect("exact chunk");
+                *to = *from;
+            }
+            for (to, from) in slot[whole..d].iter_mut().zip(&source[whole..]) {
+                *to = *from;
+            }
+            slot[d..].fill(0.0);
+        }
+        gram_and_rhs(
+            &self.gathered[..rows.len() * s],
+            s,
+            targets,
+            &mut self.gram,
+            &mut self.rhs,
+        );
+        let ls = round_up(d, COLUMN_BLOCK);
+        for i in 0..d {
+            for j in i..d {
+                self.lanes[i * ls + j][lane] = self.gram[i * s + j];
+            }
+            self.lanes[i * ls + i][lane] += ridge;
+            self.lane_rhs[i][lane] = self.rhs[i];
+        }
+    }
+
+    /// Fills an unused lane with the identity system, which stays finite.
+    fn load_identity(&mut self, lane: usize) {
+        let d = self.rank;
+        let ls = round_up(d, COLUMN_BLOCK);
+        for i in 0..d {
+            for j in i..d {
+                self.lanes[i * ls + j][lane] = if i == j { 1.0 } else { 0.0 };
+            }
+            self.lane_rhs[i][lane] = 0.0;
+        }
     }
 }
 
