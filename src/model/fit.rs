@@ -417,8 +417,12 @@ fn solve_side(
             |ws, (batch, vectors)| {
                 let first = batch * BATCH;
                 let count = vectors.len() / d;
-                let problems: Vec<_> = (first..first + count).map(|r| rows.row(r)).collect();
-                let ok = ws.solve_batch(other, &problems, ridge, vectors);
+                let empty: (&[u32], &[f64]) = (&[], &[]);
+                let mut problems = [empty; BATCH];
+                for (k, problem) in problems.iter_mut().enumerate().take(count) {
+                    *problem = rows.row(first + k);
+                }
+                let ok = ws.solve_batch(other, &problems[..count], ridge, vectors);
                 (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
             },
         )

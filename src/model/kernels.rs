@@ -55,12 +55,6 @@ fn panel<const T: usize>(x: &[f64], s: usize, rb: usize, cb: usize, gram: &mut [
 /// floating-point pipelines stay busy) that are added once at the end: a fixed order.
 pub fn gram_and_rhs(x: &[f64], s: usize, y: &[f64], gram: &mut [f64], rhs: &mut [f64]) {
     debug_assert!(s.is_multiple_of(TILE) && x.len() == y.len() * s);
-    match s {
-        4 => return gram_and_rhs_one_pass::<4>(x, y, gram, rhs),
-        8 => return gram_and_rhs_one_pass::<8>(x, y, gram, rhs),
-        12 => return gram_and_rhs_one_pass::<12>(x, y, gram, rhs),
-        _ => {}
-    }
     let n = y.len();
     let row = |k: usize| &x[k * s..(k + 1) * s];
     // Panels of 4 rows × up to 24 columns: up to 24 vector accumulators in registers.
@@ -101,16 +95,70 @@ pub fn gram_and_rhs(x: &[f64], s: usize, y: &[f64], gram: &mut [f64], rhs: &mut 
     }
 }
 
-/// [`gram_and_rhs`] for small strides: every accumulator of the upper triangle and of the
-/// right-hand side stays in a register through a single pass over the rows (at most 27
-/// vector accumulators for `S = 12`), so each row is read once.
-fn gram_and_rhs_one_pass<const S: usize>(x: &[f64], y: &[f64], gram: &mut [f64], rhs: &mut [f64]) {
-    let mut acc = [[0.0f64; S]; S];
+/// Largest rank handled by [`gram_and_rhs_direct`].
+pub const DIRECT_MAX_RANK: usize = 12;
+
+/// [`gram_and_rhs`] for ranks up to [`DIRECT_MAX_RANK`], reading the rows straight from the
+/// row-major `table` (width `d`) through `rows`: no copy. Every accumulator of the upper
+/// triangle and of the right-hand side stays in a register through a single pass (at most
+/// 27 vector accumulators, for a stride of 12). Returns false for larger ranks.
+pub fn gram_and_rhs_direct(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) -> bool {
+    let (t, r, g, h) = (table, rows, gram, rhs);
+    match d {
+        1 => direct::<1, 4>(t, r, y, g, h),
+        2 => direct::<2, 4>(t, r, y, g, h),
+        3 => direct::<3, 4>(t, r, y, g, h),
+        4 => direct::<4, 4>(t, r, y, g, h),
+        5 => direct::<5, 8>(t, r, y, g, h),
+        6 => direct::<6, 8>(t, r, y, g, h),
+        7 => direct::<7, 8>(t, r, y, g, h),
+        8 => direct::<8, 8>(t, r, y, g, h),
+        9 => direct::<9, 12>(t, r, y, g, h),
+        10 => direct::<10, 12>(t, r, y, g, h),
+        11 => direct::<11, 12>(t, r, y, g, h),
+        12 => direct::<12, 12>(t, r, y, g, h),
+        _ => return false,
+    }
+    true
+}
+
+/// How many rows ahead [`direct`] reads to start cache misses early.
+const LOOKAHEAD: usize = 8;
+
+/// One pass over rows of width `D`, padded in registers to the tile-multiple `S`.
+fn direct<const D: usize, const S: usize>(
+    table: &[f64],
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) {
+    let mut acc = [[0.0f64; S]; D];
     let mut right = [0.0f64; S];
-    for (row, &target) in x.chunks_exact(S).zip(y) {
-        let row: &[f64; S] = row.try_into().expect("exact row");
-        for a in 0..S {
-            // Only tiles on or above the diagonal: columns from the start of a's tile.
+    // Rows are scattered over a table larger than the caches: reading a row a few iterations
+    // ahead starts its cache miss early. The values only feed a checksum that is handed to
+    // `black_box` once, so nothing waits on them.
+    let mut touched = 0u64;
+    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
+        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+            touched ^= table[ahead as usize * D].to_bits();
+        }
+        let start = r as usize * D;
+        let vector: &[f64; D] = table[start..start + D]
+            .try_into()
+            .expect("row inside the table");
+        let mut row = [0.0f64; S];
+        row[..D].copy_from_slice(vector);
+        for a in 0..D {
+            // Only tiles on or above the diagonal: columns from the start of a's tile. Rows
+            // past D are padding and need no accumulators.
             for c in (a - a % TILE)..S {
                 acc[a][c] = row[a].mul_add(row[c], acc[a][c]);
             }
@@ -119,22 +167,23 @@ fn gram_and_rhs_one_pass<const S: usize>(x: &[f64], y: &[f64], gram: &mut [f64],
             right[c] = target.mul_add(row[c], right[c]);
         }
     }
-    for a in 0..S {
+    for a in 0..D {
         let start = a - a % TILE;
         gram[a * S + start..(a + 1) * S].copy_from_slice(&acc[a][start..]);
     }
     rhs[..S].copy_from_slice(&right);
+    std::hint::black_box(touched);
 }
 
 /// Number of independent systems factored side by side, one per SIMD lane.
-pub const BATCH: usize = 4;
+pub const BATCH: usize = 8;
 
 /// One value per system of a batch.
 pub type Lanes = [f64; BATCH];
 
 /// Width of the column blocks of [`cholesky_solve_batch`]; the lane matrices have a row
 /// stride rounded up to a multiple of it.
-pub const COLUMN_BLOCK: usize = 8;
+pub const COLUMN_BLOCK: usize = 4;
 
 /// Cholesky factorisation and solve of up to [`BATCH`] independent `d × d` systems at once.
 ///
@@ -221,18 +270,21 @@ pub fn cholesky_solve_batch(
             }
         }
     }
+    // Back substitution by columns: each solved w_i is removed from every earlier right-hand
+    // side at once (independent updates, no long chain of dependent additions).
     for i in (0..d).rev() {
-        let row = &a[i * s..i * s + d];
-        let mut sum = b[i];
-        for (u, w) in row[i + 1..].iter().zip(&b[i + 1..d]) {
+        let mut w = b[i];
+        let u_ii = a[i * s + i];
+        for l in 0..BATCH {
+            w[l] /= u_ii[l];
+        }
+        b[i] = w;
+        for r in 0..i {
+            let u = a[r * s + i];
             for l in 0..BATCH {
-                sum[l] = (-u[l]).mul_add(w[l], sum[l]);
+                b[r][l] = (-u[l]).mul_add(w[l], b[r][l]);
             }
         }
-        for l in 0..BATCH {
-            sum[l] /= row[i][l];
-        }
-        b[i] = sum;
     }
     ok
 }
@@ -295,12 +347,52 @@ mod tests {
                 &[1.0, 1.0],
             );
         }
-        let diagonal = vec![[2.0, 1.0, 2.0, 2.0], [3.0, 1.0, 3.0, 3.0]];
+        let mut diagonal = vec![[2.0; BATCH], [3.0; BATCH]];
+        (diagonal[0][1], diagonal[1][1]) = (1.0, 1.0);
         let ok = cholesky_solve_batch(&mut a, &mut b, 2, Some(&diagonal));
-        assert_eq!(ok, [true, false, true, true]);
+        assert_eq!(ok, std::array::from_fn(|l| l != 1));
         // (2 1; 1 3) w = (1, 1) → w = (0.4, 0.2).
         assert!((b[0][0] - 0.4).abs() < 1e-15 && (b[1][3] - 0.2).abs() < 1e-15);
     }
+    #[test]
+    fn direct_gram_equals_packed_gram_bit_for_bit() {
+        let mut rng = crate::rng::Rng::new(8);
+        for d in 1..=DIRECT_MAX_RANK {
+            let s = round_up(d, TILE);
+            let table: Vec<f64> = (0..30 * d).map(|_| rng.normal()).collect();
+            let rows: Vec<u32> = (0..17).map(|_| rng.below(30) as u32).collect();
+            let y: Vec<f64> = rows.iter().map(|_| rng.normal()).collect();
+            let (mut g1, mut h1) = (vec![0.0; s * s], vec![0.0; s]);
+            assert!(gram_and_rhs_direct(&table, d, &rows, &y, &mut g1, &mut h1));
+            let mut packed = vec![0.0; rows.len() * s];
+            for (k, &r) in rows.iter().enumerate() {
+                packed[k * s..k * s + d]
+                    .copy_from_slice(&table[r as usize * d..(r as usize + 1) * d]);
+            }
+            let (mut g2, mut h2) = (vec![0.0; s * s], vec![0.0; s]);
+            gram_and_rhs(&packed, s, &y, &mut g2, &mut h2);
+            for a in 0..d {
+                let naive_rhs: f64 = (0..rows.len()).map(|k| packed[k * s + a] * y[k]).sum();
+                assert!((h1[a] - naive_rhs).abs() < 1e-12, "d {d}");
+                for b in a..d {
+                    let naive: f64 = (0..rows.len())
+                        .map(|k| packed[k * s + a] * packed[k * s + b])
+                        .sum();
+                    assert!((g1[a * s + b] - naive).abs() < 1e-12, "d {d} ({a},{b})");
+                    assert!((g2[a * s + b] - naive).abs() < 1e-12, "d {d} ({a},{b})");
+                }
+            }
+        }
+        assert!(!gram_and_rhs_direct(
+            &[0.0; 13],
+            13,
+            &[0],
+            &[1.0],
+            &mut [0.0; 256],
+            &mut [0.0; 16]
+        ));
+    }
+
     #[test]
     fn gram_matches_naive_for_odd_sizes() {
         let mut rng = crate::rng::Rng::new(5);

@@ -7,7 +7,8 @@
 //! Buffers are reused across solves; one workspace per thread.
 
 use super::kernels::{
-    BATCH, COLUMN_BLOCK, Lanes, TILE, cholesky_solve_batch, gram_and_rhs, round_up,
+    BATCH, COLUMN_BLOCK, Lanes, TILE, cholesky_solve_batch, gram_and_rhs, gram_and_rhs_direct,
+    round_up,
 };
 
 /// Reusable buffers for ridge solves of a fixed rank.
@@ -17,8 +18,9 @@ pub struct RidgeWorkspace {
     /// Row stride of the gathered vectors and of the Gram matrix (rank rounded up to a tile).
     stride: usize,
     gathered: Vec<f64>,
-    gram: Vec<f64>,
-    rhs: Vec<f64>,
+    /// One Gram matrix (stride `stride`) and right-hand side per lane.
+    gram: [Vec<f64>; BATCH],
+    rhs: [Vec<f64>; BATCH],
     lanes: Vec<Lanes>,
     lane_rhs: Vec<Lanes>,
     diagonal: Vec<Lanes>,
@@ -40,8 +42,8 @@ impl RidgeWorkspace {
             rank,
             stride,
             gathered: Vec::new(),
-            gram: vec![0.0; stride * stride],
-            rhs: vec![0.0; stride],
+            gram: std::array::from_fn(|_| vec![0.0; stride * stride]),
+            rhs: std::array::from_fn(|_| vec![0.0; stride]),
             lanes: vec![[0.0; BATCH]; rank * round_up(rank, COLUMN_BLOCK)],
             lane_rhs: vec![[0.0; BATCH]; rank],
             diagonal: vec![[0.0; BATCH]; rank],
@@ -82,12 +84,22 @@ impl RidgeWorkspace {
             problems.len() <= BATCH,
             "at most {BATCH} problems per batch"
         );
-        let d = self.rank;
+        let (d, s) = (self.rank, self.stride);
         for lane in 0..BATCH {
             match problems.get(lane) {
                 Some(&(rows, targets)) => self.load_lane(lane, table, rows, targets, ridge),
                 None => self.load_identity(lane),
             }
+        }
+        // Interleave the systems, one per lane.
+        let ls = round_up(d, COLUMN_BLOCK);
+        let gram = &self.gram;
+        for i in 0..d {
+            for j in i..d {
+                let at = i * s + j;
+                self.lanes[i * ls + j] = std::array::from_fn(|l| gram[l][at]);
+            }
+            self.lane_rhs[i] = std::array::from_fn(|l| self.rhs[l][i]);
         }
         let diagonal = (ridge == 0.0).then(|| {
             self.diagonal.clear();
@@ -107,13 +119,26 @@ impl RidgeWorkspace {
         ok
     }
 
-    /// Builds the normal equations of one problem into lane `lane`.
+    /// Builds the normal equations of one problem in the buffers of lane `lane`.
     fn load_lane(&mut self, lane: usize, table: &[f64], rows: &[u32], targets: &[f64], ridge: f64) {
         let (d, s) = (self.rank, self.stride);
         debug_assert_eq!(rows.len(), targets.len());
-        // Copy the rated vectors into zero-padded rows of a tile-multiple width: one pass
-        // over scattered memory, then every tile of the kernel reads from cache. Every value
-        // is written below, so the buffer only grows and is never cleared.
+        let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
+        if !gram_and_rhs_direct(table, d, rows, targets, gram, rhs) {
+            self.gather(table, rows);
+            let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
+            gram_and_rhs(&self.gathered[..rows.len() * s], s, targets, gram, rhs);
+        }
+        for k in 0..d {
+            self.gram[lane][k * s + k] += ridge;
+        }
+    }
+
+    /// Copies the vectors of `rows` into zero-padded rows of a tile-multiple width: one pass
+    /// over scattered memory, then every pass of the Gram kernel reads from cache. Every
+    /// value is written, so the buffer only grows and is never cleared.
+    fn gather(&mut self, table: &[f64], rows: &[u32]) {
+        let (d, s) = (self.rank, self.stride);
         if self.gathered.len() < rows.len() * s {
             self.gathered.resize(rows.len() * s, 0.0);
         }
@@ -135,32 +160,17 @@ impl RidgeWorkspace {
             }
             slot[d..].fill(0.0);
         }
-        gram_and_rhs(
-            &self.gathered[..rows.len() * s],
-            s,
-            targets,
-            &mut self.gram,
-            &mut self.rhs,
-        );
-        let ls = round_up(d, COLUMN_BLOCK);
-        for i in 0..d {
-            for j in i..d {
-                self.lanes[i * ls + j][lane] = self.gram[i * s + j];
-            }
-            self.lanes[i * ls + i][lane] += ridge;
-            self.lane_rhs[i][lane] = self.rhs[i];
-        }
     }
 
     /// Fills an unused lane with the identity system, which stays finite.
     fn load_identity(&mut self, lane: usize) {
-        let d = self.rank;
-        let ls = round_up(d, COLUMN_BLOCK);
+        let (d, s) = (self.rank, self.stride);
+        let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
         for i in 0..d {
             for j in i..d {
-                self.lanes[i * ls + j][lane] = if i == j { 1.0 } else { 0.0 };
+                gram[i * s + j] = if i == j { 1.0 } else { 0.0 };
             }
-            self.lane_rhs[i][lane] = 0.0;
+            rhs[i] = 0.0;
         }
     }
 }
