@@ -234,6 +234,44 @@ fn refit_replaces_a_model_keeps_notes_and_refuses_foreign_directories() {
         std::fs::read_to_string(dir.join("annotations.ron")).unwrap(),
         "(notes: [])\n"
     );
+    // A fit that fails on bad input leaves the existing model exactly as it was.
+    let snapshot: Vec<(String, Vec<u8>)> =
+        ["manifest.ron", "users.csv", "items.csv", "ratings.csv"]
+            .iter()
+            .map(|n| ((*n).to_owned(), std::fs::read(dir.join(n)).unwrap()))
+            .collect();
+    let d = dir.display().to_string();
+    let failed = sextant(&[
+        "fit",
+        &bad("ratings-duplicate-pair.csv"),
+        "--out",
+        &d,
+        "--quiet",
+    ]);
+    assert_eq!(failed.status.code(), Some(2));
+    let failed = sextant(&[
+        "fit",
+        &small(),
+        "--out",
+        &d,
+        "--lambda",
+        "0",
+        "--rank",
+        "3",
+        "--quiet",
+    ]);
+    assert_eq!(failed.status.code(), Some(2));
+    for (name, bytes) in &snapshot {
+        assert!(
+            &std::fs::read(dir.join(name)).unwrap() == bytes,
+            "{name} changed"
+        );
+    }
+    // An existing empty directory is a fine target.
+    let empty = tmp.path().join("empty");
+    std::fs::create_dir(&empty).unwrap();
+    assert_eq!(fit_demo(&empty, &[]).status.code(), Some(0));
+    assert!(empty.join("manifest.ron").is_file());
     // A directory with other files is not ours to replace.
     let foreign = tmp.path().join("photos");
     std::fs::create_dir(&foreign).unwrap();
