@@ -8,7 +8,7 @@ use clap::{Args, ValueEnum};
 use sextant::data::{FactorTable, IdMap, RatingScale, assign_holdout};
 use sextant::model::fit::IterationRecord;
 use sextant::model::manifest::RunOptions;
-use sextant::model::{Center, FitOptions, Fitter, Model, Provenance, save_model};
+use sextant::model::{Center, FitOptions, Fitter, Model, Provenance};
 
 use super::UsageError;
 use super::inputs::{self, RatingsArgs};
@@ -174,15 +174,7 @@ fn fit_and_save(
     };
     let model = Model::from_fit(ratings, options, run, result, provenance)
         .context("the fit produced no training ratings to evaluate")?;
-    save_model(&args.out, &model)?;
-    if !args.quiet {
-        eprintln!("wrote model directory {}", args.out.display());
-    }
-    output::print(&summary::render(
-        &model,
-        &args.out.display().to_string(),
-        args.format,
-    )?)
+    summary::save_and_print(&model, &args.out, args.quiet, args.format)
 }
 
 fn file_name(path: &Path) -> String {

@@ -6,12 +6,12 @@ use anyhow::Context;
 use clap::Args;
 use sextant::data::{RatingScale, read_factor_table, read_items_meta};
 use sextant::error::DataError;
-use sextant::model::{Center, FactorModel, Model, Provenance, save_model};
+use sextant::model::{Center, FactorModel, Model, Provenance};
 
 use super::UsageError;
 use super::fit::CenterArg;
 use super::inputs::{self, RatingsArgs};
-use super::output::{self, Format};
+use super::output::Format;
 use super::summary;
 
 /// Build a model directory from user and item factor tables (id,f1,…,fD) and the ratings
@@ -146,13 +146,7 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         )
     })
     .map_err(|e| UsageError(format!("{e:#}")))?;
-    save_model(&args.out, &model)?;
-    eprintln!("wrote model directory {}", args.out.display());
-    output::print(&summary::render(
-        &model,
-        &args.out.display().to_string(),
-        args.format,
-    )?)
+    summary::save_and_print(&model, &args.out, false, args.format)
 }
 
 fn read_table(

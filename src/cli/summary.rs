@@ -252,3 +252,17 @@ fn table(model: &Model, label: &str) -> String {
     row("held out", m.metrics.holdout.as_ref());
     out
 }
+
+/// Saves `model` to `out` and prints its summary (the last step of `fit` and `import`).
+pub fn save_and_print(
+    model: &Model,
+    out: &std::path::Path,
+    quiet: bool,
+    format: Format,
+) -> anyhow::Result<()> {
+    sextant::model::save_model(out, model)?;
+    if !quiet {
+        eprintln!("wrote model directory {}", out.display());
+    }
+    super::output::print(&render(model, &out.display().to_string(), format)?)
+}

@@ -28,6 +28,52 @@ pub struct Provenance {
     pub meta: Option<ItemsMeta>,
 }
 
+/// What differs between a fitted and an imported model's manifest.
+struct Record {
+    origin: Origin,
+    lambda: f64,
+    sigma2: f64,
+    center: Center,
+    seed: u64,
+    options: Option<RunOptions>,
+    converged: bool,
+    trace: Vec<crate::model::IterationRecord>,
+}
+
+fn assemble(
+    ratings: Ratings,
+    factors: FactorModel,
+    record: Record,
+    provenance: Provenance,
+) -> Option<Model> {
+    let metrics = fit_metrics(&factors, &ratings, &provenance.scale)?;
+    let manifest = Manifest {
+        format: FORMAT_TAG.into(),
+        version: FORMAT_VERSION,
+        origin: record.origin,
+        rank: factors.rank,
+        lambda: record.lambda,
+        sigma2: record.sigma2,
+        mu: factors.mu,
+        center: record.center,
+        scale: provenance.scale,
+        counts: counts(&ratings),
+        seed: record.seed,
+        options: record.options,
+        converged: record.converged,
+        trace: record.trace,
+        metrics,
+        inputs: provenance.inputs,
+        files: default_files(provenance.meta.is_some()),
+    };
+    Some(Model {
+        manifest,
+        ratings,
+        factors,
+        meta: provenance.meta,
+    })
+}
+
 impl Model {
     /// A model from a finished fit. Returns `None` if there are no training ratings.
     pub fn from_fit(
@@ -37,32 +83,17 @@ impl Model {
         result: FitResult,
         provenance: Provenance,
     ) -> Option<Self> {
-        let metrics = fit_metrics(&result.factors, &ratings, &provenance.scale)?;
-        let manifest = Manifest {
-            format: FORMAT_TAG.into(),
-            version: FORMAT_VERSION,
+        let record = Record {
             origin: Origin::Fit,
-            rank: options.rank,
             lambda: options.lambda,
             sigma2: options.sigma2,
-            mu: result.factors.mu,
             center: options.center,
-            scale: provenance.scale,
-            counts: counts(&ratings),
             seed: options.seed,
             options: Some(run),
             converged: result.converged,
             trace: result.trace,
-            metrics,
-            inputs: provenance.inputs,
-            files: default_files(provenance.meta.is_some()),
         };
-        Some(Self {
-            manifest,
-            ratings,
-            factors: result.factors,
-            meta: provenance.meta,
-        })
+        assemble(ratings, result.factors, record, provenance)
     }
 
     /// A model from vectors fitted elsewhere. `lambda` and `sigma2` describe the prior the
@@ -76,31 +107,16 @@ impl Model {
         center: Center,
         provenance: Provenance,
     ) -> Option<Self> {
-        let metrics = fit_metrics(&factors, &ratings, &provenance.scale)?;
-        let manifest = Manifest {
-            format: FORMAT_TAG.into(),
-            version: FORMAT_VERSION,
+        let record = Record {
             origin: Origin::Import,
-            rank: factors.rank,
             lambda,
             sigma2,
-            mu: factors.mu,
             center,
-            scale: provenance.scale,
-            counts: counts(&ratings),
             seed: 0,
             options: None,
             converged: false,
             trace: Vec::new(),
-            metrics,
-            inputs: provenance.inputs,
-            files: default_files(provenance.meta.is_some()),
         };
-        Some(Self {
-            manifest,
-            ratings,
-            factors,
-            meta: provenance.meta,
-        })
+        assemble(ratings, factors, record, provenance)
     }
 }
