@@ -206,6 +206,43 @@ pub fn cholesky_solve_batch(
     d: usize,
     original_diagonal: Option<&[Lanes]>,
 ) -> [bool; BATCH] {
+    // Small ranks get a copy compiled for their exact size: constant loop bounds let the
+    // compiler unroll and drop index checks. The arithmetic is the same.
+    let (x, y, g) = (a, b, original_diagonal);
+    match d {
+        1 => batch_fixed::<1>(x, y, g),
+        2 => batch_fixed::<2>(x, y, g),
+        3 => batch_fixed::<3>(x, y, g),
+        4 => batch_fixed::<4>(x, y, g),
+        5 => batch_fixed::<5>(x, y, g),
+        6 => batch_fixed::<6>(x, y, g),
+        7 => batch_fixed::<7>(x, y, g),
+        8 => batch_fixed::<8>(x, y, g),
+        9 => batch_fixed::<9>(x, y, g),
+        10 => batch_fixed::<10>(x, y, g),
+        11 => batch_fixed::<11>(x, y, g),
+        12 => batch_fixed::<12>(x, y, g),
+        _ => batch_any(x, y, d, g),
+    }
+}
+
+fn batch_fixed<const D: usize>(
+    a: &mut [Lanes],
+    b: &mut [Lanes],
+    original_diagonal: Option<&[Lanes]>,
+) -> [bool; BATCH] {
+    batch_any(a, b, D, original_diagonal)
+}
+
+// Always inlined so that each fixed-size copy is specialised for its constant rank.
+#[allow(clippy::inline_always)]
+#[inline(always)]
+fn batch_any(
+    a: &mut [Lanes],
+    b: &mut [Lanes],
+    d: usize,
+    original_diagonal: Option<&[Lanes]>,
+) -> [bool; BATCH] {
     let s = round_up(d, COLUMN_BLOCK);
     debug_assert!(a.len() >= d * s);
     let mut ok = [true; BATCH];
