@@ -13,6 +13,7 @@
 pub mod analysis;
 pub mod data;
 pub mod error;
+pub mod index;
 pub mod model;
 pub mod rng;
 

@@ -128,6 +128,22 @@ def longley():
     return {"source": "statsmodels.datasets.longley + numpy.linalg.lstsq", "x": x.tolist(), "y": y.tolist(), "beta": beta.tolist()}
 
 
+def knn_ckdtree():
+    """Exact k nearest neighbours from scipy.spatial.cKDTree on continuous random points
+    (no ties), several widths."""
+    from scipy.spatial import cKDTree
+
+    rng = np.random.default_rng(31)
+    cases = []
+    for width, rows, k in [(2, 400, 5), (4, 600, 10), (8, 800, 10), (12, 800, 7)]:
+        points = rng.normal(size=(rows, width)) / np.sqrt(1.0 + np.arange(width))
+        queries = rng.normal(size=(6, width))
+        distances, ids = cKDTree(points).query(queries, k=k)
+        cases.append({"k": k, "points": points.tolist(), "queries": queries.tolist(),
+                      "distances": distances.tolist(), "ids": ids.astype(float).tolist()})
+    return {"source": "scipy.spatial.cKDTree.query", "cases": cases}
+
+
 def build():
     return {
         "ridge_steps.json": {
@@ -141,6 +157,7 @@ def build():
         "soft_threshold_svd.json": soft_threshold_svd(11, 40, 30, 3, 1.5),
         "subspace_angles.json": subspace_angle_cases(),
         "longley.json": longley(),
+        "knn_ckdtree.json": knn_ckdtree(),
     }
 
 
