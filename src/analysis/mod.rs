@@ -1,7 +1,12 @@
-//! Analyses of a fitted model: accuracy metrics and subspace comparison.
+//! Analyses of a fitted model: accuracy metrics, explanations of single predictions,
+//! suggestions, and subspace comparison.
 
+pub mod explain;
 pub mod metrics;
 pub mod subspace;
+pub mod suggest;
 
+pub use explain::{Explanation, Posterior, cosine, explain};
 pub use metrics::{ErrorMetrics, FitMetrics, error_metrics, fit_metrics};
 pub use subspace::principal_angles;
+pub use suggest::{Suggestion, suggest};

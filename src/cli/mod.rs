@@ -3,11 +3,15 @@
 //! then does the work through the library and prints through [`output`].
 
 mod demo;
+mod explain;
 mod fit;
 mod import;
 mod info;
 mod inputs;
+mod lookup;
+mod neighbours;
 mod output;
+mod suggest;
 mod summary;
 
 use clap::{Parser, Subcommand};
@@ -37,6 +41,23 @@ enum Command {
     Import(import::ImportArgs),
     /// Summarise a model directory: options, counts, convergence, accuracy.
     Info(info::InfoArgs),
+    /// The items nearest to an item (or members nearest to a member) in the latent space.
+    Neighbours(neighbours::NeighboursArgs),
+    /// A member's top items by predicted rating, with their uncertainty.
+    Suggest(suggest::SuggestArgs),
+    /// Take one prediction apart: factors, uncertainty, evidence, support.
+    ///
+    /// Shows the global mean, every factor's contribution (they add up to the prediction),
+    /// the predictive standard deviation, the member's own rated items nearest to the item,
+    /// and how many ratings stand behind the member and the item.
+    ///
+    /// Cautions: ratings and the vectors fitted from them are personal data — handle them as
+    /// local data-protection law and your organisation's policy require; sextant keeps
+    /// everything on this machine and sends nothing anywhere. An explanation describes the
+    /// model's arithmetic, not a person's motives or traits, and is no basis for decisions
+    /// about people beyond what to show them. An explanation given to a member uses that
+    /// member's own ratings only.
+    Explain(explain::ExplainArgs),
 }
 
 /// Runs the parsed command line.
@@ -45,6 +66,9 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Fit(args)) => fit::run(&args),
         Some(Command::Import(args)) => import::run(&args),
         Some(Command::Info(args)) => info::run(&args),
+        Some(Command::Neighbours(args)) => neighbours::run(&args),
+        Some(Command::Suggest(args)) => suggest::run(&args),
+        Some(Command::Explain(args)) => explain::run(&args),
         None => demo::run(),
     }
 }

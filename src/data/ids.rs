@@ -71,6 +71,41 @@ impl IdMap {
     }
 }
 
+impl IdMap {
+    /// Up to `n` existing ids closest to `query` by edit distance (case-insensitive), closest
+    /// first, for "did you mean" messages.
+    pub fn closest(&self, query: &str, n: usize) -> Vec<&str> {
+        let query: Vec<char> = query.to_lowercase().chars().collect();
+        let mut scored: Vec<(usize, &str)> = self
+            .names
+            .iter()
+            .map(|name| {
+                (
+                    edit_distance(&query, &name.to_lowercase().chars().collect::<Vec<_>>()),
+                    name.as_str(),
+                )
+            })
+            .collect();
+        scored.sort_by(|a, b| a.0.cmp(&b.0).then(a.1.cmp(b.1)));
+        scored.into_iter().take(n).map(|(_, name)| name).collect()
+    }
+}
+
+/// Levenshtein distance (insertions, deletions, substitutions of one character each).
+pub fn edit_distance(a: &[char], b: &[char]) -> usize {
+    let mut previous: Vec<usize> = (0..=b.len()).collect();
+    let mut current = vec![0; b.len() + 1];
+    for (i, ca) in a.iter().enumerate() {
+        current[0] = i + 1;
+        for (j, cb) in b.iter().enumerate() {
+            let substitution = previous[j] + usize::from(ca != cb);
+            current[j + 1] = substitution.min(previous[j + 1] + 1).min(current[j] + 1);
+        }
+        std::mem::swap(&mut previous, &mut current);
+    }
+    previous[b.len()]
+}
+
 /// Formats up to `limit` ids as `" (first: 'a', 'b', …)"`, or an empty string.
 pub fn first_few<'a>(ids: impl IntoIterator<Item = &'a str>, limit: usize) -> String {
     let mut shown = Vec::new();
@@ -102,6 +137,20 @@ mod tests {
         assert_eq!(ids.names(), ["b", "a"]);
         assert_eq!(ids.get("a"), Some(1));
         assert_eq!(ids.push_new("a"), None);
+    }
+
+    #[test]
+    fn edit_distance_of_classic_pairs() {
+        // Common practice: "kitten" → "sitting" needs 3 edits; "flaw" → "lawn" needs 2.
+        let chars = |s: &str| s.chars().collect::<Vec<_>>();
+        assert_eq!(edit_distance(&chars("kitten"), &chars("sitting")), 3);
+        assert_eq!(edit_distance(&chars("flaw"), &chars("lawn")), 2);
+        assert_eq!(edit_distance(&chars(""), &chars("abc")), 3);
+        let mut ids = IdMap::new();
+        for id in ["r001", "r010", "r100", "m0001"] {
+            ids.intern(id);
+        }
+        assert_eq!(ids.closest("R01", 2), ["r001", "r010"]);
     }
 
     #[test]

@@ -144,6 +144,22 @@ def knn_ckdtree():
     return {"source": "scipy.spatial.cKDTree.query", "cases": cases}
 
 
+def predictive_sd():
+    """Bayesian linear regression (Bishop 2006, section 3.3.2): posterior covariance
+    S = sigma2 (lambda sigma2 I + Phi'Phi)^-1, predictive SD sqrt(sigma2 + x' S x)."""
+    rng = np.random.default_rng(41)
+    cases = []
+    for d, n_items, n_rated, lam, sigma2 in [(3, 20, 8, 1.0, 1.0), (10, 60, 25, 0.5, 0.8), (5, 30, 2, 2.0, 1.5)]:
+        items = rng.normal(size=(n_items, d))
+        rated = rng.choice(n_items, size=n_rated, replace=False)
+        phi = items[rated]
+        s = sigma2 * np.linalg.inv(lam * sigma2 * np.eye(d) + phi.T @ phi)
+        sd = [float(np.sqrt(sigma2 + x @ s @ x)) for x in items]
+        cases.append({"d": d, "lambda": lam, "sigma2": sigma2, "items": items.tolist(),
+                      "rated": rated.astype(float).tolist(), "sd": sd})
+    return {"source": "numpy (Bishop 2006, eq. 3.59)", "cases": cases}
+
+
 def build():
     return {
         "ridge_steps.json": {
@@ -158,6 +174,7 @@ def build():
         "subspace_angles.json": subspace_angle_cases(),
         "longley.json": longley(),
         "knn_ckdtree.json": knn_ckdtree(),
+        "predictive_sd.json": predictive_sd(),
     }
 
 

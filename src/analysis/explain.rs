@@ -1,0 +1,226 @@
+//! Why a model predicts what it predicts for one member and one item: the prediction taken
+//! apart by factor, its uncertainty, the member's own ratings that support it, and how much
+//! data stands behind the member and the item.
+//!
+//! An explanation describes the model's arithmetic, not a person's motives or traits.
+
+use nalgebra::{Cholesky, DMatrix, DVector};
+
+use crate::index::squared_distance;
+use crate::model::{Model, dot};
+
+/// The training ratings of one member: (item, rating) pairs.
+pub fn training_ratings(model: &Model, user: u32) -> Vec<(u32, f64)> {
+    let entries = &model.ratings.entries;
+    let start = entries.partition_point(|r| r.user < user);
+    entries[start..]
+        .iter()
+        .take_while(|r| r.user == user)
+        .filter(|r| !r.holdout)
+        .map(|r| (r.item, r.value))
+        .collect()
+}
+
+/// The member's rating of an item, if any (training or held out).
+pub fn actual_rating(model: &Model, user: u32, item: u32) -> Option<f64> {
+    let entries = &model.ratings.entries;
+    entries
+        .binary_search_by(|r| (r.user, r.item).cmp(&(user, item)))
+        .ok()
+        .map(|k| entries[k].value)
+}
+
+/// The member's conditional posterior given the item vectors.
+///
+/// With the item vectors fixed, the member's update is a Bayesian linear regression: the
+/// posterior of `u_i` is Gaussian with covariance `S_i = σ² (λσ² I + Σ_{j∈Ω_i} v_j v_jᵀ)⁻¹`
+/// (Bishop, Pattern Recognition and Machine Learning, 2006, §3.3.2). It ignores the
+/// uncertainty of the item vectors themselves.
+#[derive(Debug, Clone)]
+pub struct Posterior {
+    sigma2: f64,
+    factor: Option<Cholesky<f64, nalgebra::Dyn>>,
+}
+
+impl Posterior {
+    /// The posterior of a member who rated `rated` (training ratings).
+    pub fn for_items(model: &Model, rated: impl IntoIterator<Item = u32>) -> Self {
+        let m = &model.manifest;
+        Self::new(
+            &model.factors.items,
+            model.factors.rank,
+            rated,
+            m.lambda,
+            m.sigma2,
+        )
+    }
+
+    /// The posterior given item vectors `items` (row-major, width `d`), the rows rated, the
+    /// prior precision λ and the noise variance σ².
+    pub fn new(
+        items: &[f64],
+        d: usize,
+        rated: impl IntoIterator<Item = u32>,
+        lambda: f64,
+        sigma2: f64,
+    ) -> Self {
+        let mut precision = DMatrix::<f64>::identity(d, d) * (lambda * sigma2);
+        for j in rated {
+            let v = DVector::from_column_slice(&items[j as usize * d..(j as usize + 1) * d]);
+            precision += &v * v.transpose();
+        }
+        Self {
+            sigma2,
+            factor: Cholesky::new(precision),
+        }
+    }
+
+    /// The posterior of member `user` from their training ratings.
+    pub fn for_user(model: &Model, user: u32) -> Self {
+        Self::for_items(
+            model,
+            training_ratings(model, user).into_iter().map(|(j, _)| j),
+        )
+    }
+
+    /// Predictive standard deviation of a new rating of an item with vector `v`:
+    /// `√(σ² + vᵀ S v)` (Bishop 2006, eq. 3.59). `None` when the posterior is improper
+    /// (λ = 0 and too few ratings).
+    pub fn predictive_sd(&self, v: &[f64]) -> Option<f64> {
+        let factor = self.factor.as_ref()?;
+        let x = factor.solve(&DVector::from_column_slice(v));
+        let quadratic = self.sigma2 * dot(v, x.as_slice());
+        Some((self.sigma2 + quadratic).sqrt())
+    }
+}
+
+/// One factor's share of a prediction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Contribution {
+    /// Factor number, from 1.
+    pub factor: usize,
+    /// `u_d · v_d`.
+    pub value: f64,
+}
+
+/// One of the member's own ratings offered as evidence.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Evidence {
+    /// The rated item.
+    pub item: u32,
+    /// The member's rating of it.
+    pub actual: f64,
+    /// The model's prediction for it.
+    pub predicted: f64,
+    /// Euclidean distance between its vector and the explained item's.
+    pub distance: f64,
+}
+
+/// How much data stands behind the member and the item.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Support {
+    /// The member's training ratings.
+    pub user_ratings: usize,
+    /// The item's training ratings.
+    pub item_ratings: usize,
+    /// Fewer member ratings than the rank: the vector is dominated by the prior.
+    pub user_low_support: bool,
+    /// Fewer item ratings than the rank.
+    pub item_low_support: bool,
+}
+
+/// A prediction taken apart.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Explanation {
+    /// Member.
+    pub user: u32,
+    /// Item.
+    pub item: u32,
+    /// The global offset μ.
+    pub mu: f64,
+    /// `μ + Σ contributions`.
+    pub predicted: f64,
+    /// The prediction rounded onto the rating scale.
+    pub rounded: f64,
+    /// Predictive standard deviation of a new rating (see [`Posterior`]).
+    pub predictive_sd: Option<f64>,
+    /// The member's actual rating, if they rated the item.
+    pub actual: Option<f64>,
+    /// Per-factor contributions, largest magnitude first.
+    pub contributions: Vec<Contribution>,
+    /// The member's own rated items nearest to this one.
+    pub evidence: Vec<Evidence>,
+    /// Rating counts and low-support flags.
+    pub support: Support,
+}
+
+/// Training ratings per item.
+pub fn item_support(model: &Model) -> Vec<u32> {
+    model.ratings.train_support().1
+}
+
+/// Explains the prediction of `item` for `user`, with up to `evidence` supporting ratings.
+pub fn explain(
+    model: &Model,
+    user: u32,
+    item: u32,
+    evidence: usize,
+    item_counts: &[u32],
+) -> Explanation {
+    let f = &model.factors;
+    let (u, v) = (f.user(user), f.item(item));
+    let mut contributions: Vec<Contribution> = u
+        .iter()
+        .zip(v)
+        .enumerate()
+        .map(|(d, (a, b))| Contribution {
+            factor: d + 1,
+            value: a * b,
+        })
+        .collect();
+    contributions.sort_by(|a, b| {
+        b.value
+            .abs()
+            .total_cmp(&a.value.abs())
+            .then(a.factor.cmp(&b.factor))
+    });
+    let predicted = f.predict(user, item);
+    let rated = training_ratings(model, user);
+    let mut nearest: Vec<Evidence> = rated
+        .iter()
+        .filter(|&&(j, _)| j != item)
+        .map(|&(j, actual)| Evidence {
+            item: j,
+            actual,
+            predicted: f.predict(user, j),
+            distance: squared_distance(f.item(j), v).sqrt(),
+        })
+        .collect();
+    nearest.sort_by(|a, b| a.distance.total_cmp(&b.distance).then(a.item.cmp(&b.item)));
+    nearest.truncate(evidence);
+    let rank = f.rank;
+    let item_ratings = item_counts[item as usize] as usize;
+    Explanation {
+        user,
+        item,
+        mu: f.mu,
+        predicted,
+        rounded: model.manifest.scale.round(predicted),
+        predictive_sd: Posterior::for_items(model, rated.iter().map(|&(j, _)| j)).predictive_sd(v),
+        actual: actual_rating(model, user, item),
+        contributions,
+        evidence: nearest,
+        support: Support {
+            user_ratings: rated.len(),
+            item_ratings,
+            user_low_support: rated.len() < rank,
+            item_low_support: item_ratings < rank,
+        },
+    }
+}
+
+/// Cosine similarity of two vectors; `None` when either is zero.
+pub fn cosine(a: &[f64], b: &[f64]) -> Option<f64> {
+    let norms = (dot(a, a) * dot(b, b)).sqrt();
+    (norms > 0.0).then(|| dot(a, b) / norms)
+}

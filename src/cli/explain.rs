@@ -1,0 +1,204 @@
+//! `sextant explain`: why the model predicts what it does for one member and one item.
+
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+use clap::Args;
+use serde::Serialize;
+use sextant::analysis::explain::{explain, item_support};
+use sextant::model::load_model;
+
+use super::lookup::{csv_number, item_label, resolve};
+use super::output::{self, Format};
+
+/// Arguments of `explain` (help text on the subcommand, in `cli/mod.rs`).
+#[derive(Debug, Args)]
+pub struct ExplainArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// The member.
+    #[arg(value_name = "USER")]
+    user: String,
+    /// The item.
+    #[arg(value_name = "ITEM")]
+    item: String,
+    /// How many of the member's rated items to show as evidence.
+    #[arg(long, default_value_t = 5)]
+    evidence: usize,
+    /// Output format (CSV lists the per-factor contributions).
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+}
+
+#[derive(Serialize)]
+struct ContributionRow {
+    factor: usize,
+    value: f64,
+}
+
+#[derive(Serialize)]
+struct EvidenceRow<'a> {
+    item: &'a str,
+    actual: f64,
+    predicted: f64,
+    distance: f64,
+}
+
+#[derive(Serialize)]
+struct SupportRow {
+    user_ratings: usize,
+    item_ratings: usize,
+    user_low_support: bool,
+    item_low_support: bool,
+}
+
+#[derive(Serialize)]
+struct Report<'a> {
+    user: &'a str,
+    item: &'a str,
+    mu: f64,
+    predicted: f64,
+    rounded: f64,
+    predictive_sd: Option<f64>,
+    actual: Option<f64>,
+    contributions: Vec<ContributionRow>,
+    evidence: Vec<EvidenceRow<'a>>,
+    support: SupportRow,
+}
+
+pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
+    let model = load_model(&args.model)?;
+    let user = resolve(&model.ratings.users, &args.user, "member")?;
+    let item = resolve(&model.ratings.items, &args.item, "item")?;
+    let e = explain(&model, user, item, args.evidence, &item_support(&model));
+    let items = &model.ratings.items;
+    let report = Report {
+        user: &args.user,
+        item: &args.item,
+        mu: e.mu,
+        predicted: e.predicted,
+        rounded: e.rounded,
+        predictive_sd: e.predictive_sd,
+        actual: e.actual,
+        contributions: e
+            .contributions
+            .iter()
+            .map(|c| ContributionRow {
+                factor: c.factor,
+                value: c.value,
+            })
+            .collect(),
+        evidence: e
+            .evidence
+            .iter()
+            .map(|x| EvidenceRow {
+                item: items.name(x.item),
+                actual: x.actual,
+                predicted: x.predicted,
+                distance: x.distance,
+            })
+            .collect(),
+        support: SupportRow {
+            user_ratings: e.support.user_ratings,
+            item_ratings: e.support.item_ratings,
+            user_low_support: e.support.user_low_support,
+            item_low_support: e.support.item_low_support,
+        },
+    };
+    let text = match args.format {
+        Format::Json => serde_json::to_string_pretty(&report)? + "\n",
+        Format::Csv => {
+            let mut out = String::from("factor,value\n");
+            for c in &report.contributions {
+                let _ = writeln!(out, "{},{}", c.factor, csv_number(Some(c.value)));
+            }
+            out
+        }
+        Format::Table => table(&model, &report, &e),
+    };
+    output::print(&text)
+}
+
+fn table(
+    model: &sextant::model::Model,
+    r: &Report<'_>,
+    e: &sextant::analysis::Explanation,
+) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "member {} and item {}",
+        r.user,
+        item_label(model, e.item)
+    );
+    let sd = r
+        .predictive_sd
+        .map_or_else(|| "undetermined".to_owned(), |v| format!("± {v:.2}"));
+    let actual = r
+        .actual
+        .map_or_else(|| "not rated".to_owned(), |a| format!("rated {a}"));
+    let _ = writeln!(
+        out,
+        "predicted {:.3} → {} on the scale ({sd}); {actual}",
+        r.predicted, r.rounded
+    );
+    let _ = writeln!(out, "\n  {:>10}  global mean μ", format!("{:+.3}", r.mu));
+    for c in &r.contributions {
+        let _ = writeln!(
+            out,
+            "  {:>10}  factor {}",
+            format!("{:+.3}", c.value),
+            c.factor
+        );
+    }
+    let _ = writeln!(out, "  {:>10}  = prediction", format!("{:.3}", r.predicted));
+    if !r.evidence.is_empty() {
+        let _ = writeln!(out, "\nthe member's own rated items nearest to this one:");
+        let _ = writeln!(
+            out,
+            "  {:>8}  {:>6}  {:>9}  item",
+            "distance", "rated", "predicted"
+        );
+        for (row, x) in r.evidence.iter().zip(&e.evidence) {
+            let _ = writeln!(
+                out,
+                "  {:>8.3}  {:>6}  {:>9.3}  {}",
+                row.distance,
+                row.actual,
+                row.predicted,
+                item_label(model, x.item)
+            );
+        }
+    }
+    let s = &r.support;
+    let flag = |low: bool| {
+        if low {
+            " — fewer than the rank: placed mostly by the prior"
+        } else {
+            ""
+        }
+    };
+    let _ = writeln!(
+        out,
+        "\nsupport: the member has {} training ratings{}",
+        s.user_ratings,
+        flag(s.user_low_support)
+    );
+    let _ = writeln!(
+        out,
+        "         the item has {} training ratings{}",
+        s.item_ratings,
+        flag(s.item_low_support)
+    );
+    let _ = writeln!(
+        out,
+        "\nThe ± figure is the predictive standard deviation given the item vectors; the item"
+    );
+    let _ = writeln!(
+        out,
+        "vectors' own uncertainty is not included. This describes the model's arithmetic, not the"
+    );
+    let _ = writeln!(out, "member's motives or traits.");
+    out
+}

@@ -1,0 +1,186 @@
+//! `sextant neighbours`: the items (or members) nearest to one in the latent space.
+
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+use clap::{Args, ValueEnum};
+use serde::Serialize;
+use sextant::analysis::cosine;
+use sextant::index::{Metric, NeighbourIndex, Path};
+use sextant::model::load_model;
+
+use super::UsageError;
+use super::lookup::{csv_number, item_label, item_title, resolve};
+use super::output::{self, Format};
+
+/// How neighbours are ranked.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum MetricArg {
+    /// Euclidean distance between the raw vectors.
+    Euclidean,
+    /// Cosine similarity (direction only, length ignored).
+    Cosine,
+}
+
+/// The k nearest items to an item, or members to a member, in the latent space.
+///
+/// Both the Euclidean distance and the cosine similarity are shown whatever the ranking.
+#[derive(Debug, Args)]
+pub struct NeighboursArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// The item whose neighbours to list.
+    #[arg(
+        value_name = "ITEM",
+        required_unless_present = "user",
+        conflicts_with = "user"
+    )]
+    item: Option<String>,
+    /// List the members nearest to this member instead.
+    #[arg(long, value_name = "USER")]
+    user: Option<String>,
+    /// How many neighbours.
+    #[arg(short, long, default_value_t = 10)]
+    k: usize,
+    /// Ranking metric.
+    #[arg(long, value_enum, default_value_t = MetricArg::Euclidean)]
+    metric: MetricArg,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+}
+
+#[derive(Serialize)]
+struct Row<'a> {
+    rank: usize,
+    id: &'a str,
+    distance: f64,
+    cosine: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    title: Option<&'a str>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    category: Option<&'a str>,
+}
+
+#[derive(Serialize)]
+struct Report<'a> {
+    query: &'a str,
+    kind: &'static str,
+    metric: &'static str,
+    k: usize,
+    neighbours: Vec<Row<'a>>,
+}
+
+pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
+    let model = load_model(&args.model)?;
+    let (kind, ids, vectors, query) = match (&args.item, &args.user) {
+        (Some(item), _) => (
+            "item",
+            &model.ratings.items,
+            &model.factors.items,
+            item.as_str(),
+        ),
+        (None, Some(user)) => (
+            "user",
+            &model.ratings.users,
+            &model.factors.users,
+            user.as_str(),
+        ),
+        (None, None) => {
+            return Err(UsageError("name an ITEM, or a member with --user".into()).into());
+        }
+    };
+    let row = resolve(ids, query, if kind == "item" { "item" } else { "member" })?;
+    let metric = match args.metric {
+        MetricArg::Euclidean => Metric::Euclidean,
+        MetricArg::Cosine => Metric::Cosine,
+    };
+    let d = model.factors.rank;
+    let index = NeighbourIndex::build(vectors, d, metric, Path::Auto);
+    let found = index
+        .nearest_to_row(row, args.k)
+        .map_err(|e| UsageError(format!("{kind} '{query}': {e}")))?;
+    let vector = |r: u32| &vectors[r as usize * d..(r as usize + 1) * d];
+    let rows: Vec<Row<'_>> = found
+        .iter()
+        .enumerate()
+        .map(|(k, n)| {
+            let (title, category) = if kind == "item" {
+                item_title(&model, n.row)
+            } else {
+                (None, None)
+            };
+            Row {
+                rank: k + 1,
+                id: ids.name(n.row),
+                distance: sextant::index::squared_distance(vector(row), vector(n.row)).sqrt(),
+                cosine: cosine(vector(row), vector(n.row)),
+                title,
+                category,
+            }
+        })
+        .collect();
+    let metric_name = match metric {
+        Metric::Euclidean => "euclidean",
+        Metric::Cosine => "cosine",
+    };
+    let report = Report {
+        query,
+        kind,
+        metric: metric_name,
+        k: args.k,
+        neighbours: rows,
+    };
+    let text = match args.format {
+        Format::Json => serde_json::to_string_pretty(&report)? + "\n",
+        Format::Csv => {
+            let mut out = String::from("rank,id,distance,cosine\n");
+            for r in &report.neighbours {
+                let mut id = Vec::new();
+                sextant::data::factors::quote_field(&mut id, r.id);
+                let _ = writeln!(
+                    out,
+                    "{},{},{},{}",
+                    r.rank,
+                    String::from_utf8_lossy(&id),
+                    csv_number(Some(r.distance)),
+                    csv_number(r.cosine)
+                );
+            }
+            out
+        }
+        Format::Table => {
+            let mut out = String::new();
+            let label = if kind == "item" {
+                item_label(&model, row)
+            } else {
+                query.to_owned()
+            };
+            let _ = writeln!(
+                out,
+                "{} nearest {}s to {label} by {metric_name} distance",
+                report.neighbours.len(),
+                if kind == "item" { "item" } else { "member" }
+            );
+            let _ = writeln!(
+                out,
+                "{:>4}  {:>9}  {:>7}  {}",
+                "rank", "distance", "cosine", kind
+            );
+            for r in &report.neighbours {
+                let label = if kind == "item" {
+                    item_label(&model, ids.get(r.id).expect("listed ids exist"))
+                } else {
+                    r.id.to_owned()
+                };
+                let cos = r
+                    .cosine
+                    .map_or_else(|| "–".to_owned(), |c| format!("{c:.3}"));
+                let _ = writeln!(out, "{:>4}  {:>9.4}  {cos:>7}  {label}", r.rank, r.distance);
+            }
+            out
+        }
+    };
+    output::print(&text)
+}

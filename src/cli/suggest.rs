@@ -1,0 +1,134 @@
+//! `sextant suggest`: a member's top items by predicted rating.
+
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+use clap::Args;
+use serde::Serialize;
+use sextant::analysis::suggest;
+use sextant::index::{InnerProductIndex, Path};
+use sextant::model::load_model;
+
+use super::lookup::{csv_number, item_label, item_title, resolve};
+use super::output::{self, Format};
+
+/// The items a member has not rated with the highest predicted ratings (exact), each with
+/// the predictive standard deviation of the rating.
+#[derive(Debug, Args)]
+pub struct SuggestArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// The member.
+    #[arg(value_name = "USER")]
+    user: String,
+    /// How many suggestions.
+    #[arg(short, long, default_value_t = 10)]
+    n: usize,
+    /// Also consider items the member already rated.
+    #[arg(long)]
+    include_rated: bool,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+}
+
+#[derive(Serialize)]
+struct Row<'a> {
+    rank: usize,
+    item: &'a str,
+    predicted: f64,
+    rounded: f64,
+    predictive_sd: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    title: Option<&'a str>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    category: Option<&'a str>,
+}
+
+#[derive(Serialize)]
+struct Report<'a> {
+    user: &'a str,
+    n: usize,
+    suggestions: Vec<Row<'a>>,
+}
+
+pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
+    let model = load_model(&args.model)?;
+    let user = resolve(&model.ratings.users, &args.user, "member")?;
+    let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
+    let found = suggest(&model, &index, user, args.n, args.include_rated);
+    let rows: Vec<Row<'_>> = found
+        .iter()
+        .map(|s| {
+            let (title, category) = item_title(&model, s.item);
+            Row {
+                rank: s.rank,
+                item: model.ratings.items.name(s.item),
+                predicted: s.predicted,
+                rounded: s.rounded,
+                predictive_sd: s.predictive_sd,
+                title,
+                category,
+            }
+        })
+        .collect();
+    let report = Report {
+        user: &args.user,
+        n: args.n,
+        suggestions: rows,
+    };
+    let text = match args.format {
+        Format::Json => serde_json::to_string_pretty(&report)? + "\n",
+        Format::Csv => {
+            let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
+            for r in &report.suggestions {
+                let mut id = Vec::new();
+                sextant::data::factors::quote_field(&mut id, r.item);
+                let _ = writeln!(
+                    out,
+                    "{},{},{},{},{}",
+                    r.rank,
+                    String::from_utf8_lossy(&id),
+                    csv_number(Some(r.predicted)),
+                    csv_number(Some(r.rounded)),
+                    csv_number(r.predictive_sd)
+                );
+            }
+            out
+        }
+        Format::Table => {
+            let mut out = String::new();
+            let _ = writeln!(
+                out,
+                "top {} suggestions for member {} (items they have not rated)",
+                report.suggestions.len(),
+                args.user
+            );
+            let _ = writeln!(
+                out,
+                "{:>4}  {:>9}  {:>7}  {:>6}  item",
+                "rank", "predicted", "rounded", "± sd"
+            );
+            for (r, s) in report.suggestions.iter().zip(&found) {
+                let sd = r
+                    .predictive_sd
+                    .map_or_else(|| "–".to_owned(), |v| format!("{v:.2}"));
+                let _ = writeln!(
+                    out,
+                    "{:>4}  {:>9.3}  {:>7}  {sd:>6}  {}",
+                    r.rank,
+                    r.predicted,
+                    r.rounded,
+                    item_label(&model, s.item)
+                );
+            }
+            let _ = writeln!(
+                out,
+                "± sd: predictive standard deviation of the rating given the item vectors (their own uncertainty is not included)"
+            );
+            out
+        }
+    };
+    output::print(&text)
+}

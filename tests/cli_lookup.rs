@@ -1,0 +1,219 @@
+//! End-to-end tests of `neighbours`, `suggest` and `explain` on the demo model: the three
+//! output formats parse, carry the fields fixed in DESIGN.md and agree with each other.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
+mod common;
+
+use std::process::{Command, Output};
+
+use common::repo;
+use serde_json::Value;
+
+fn sextant(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_sextant"))
+        .args(args)
+        .output()
+        .expect("the binary runs")
+}
+
+fn demo() -> String {
+    repo("demo-data/model").display().to_string()
+}
+
+fn json(args: &[&str]) -> Value {
+    let mut all = args.to_vec();
+    all.extend(["--format", "json"]);
+    let out = sextant(&all);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+fn csv_rows(args: &[&str]) -> Vec<Vec<String>> {
+    let mut all = args.to_vec();
+    all.extend(["--format", "csv"]);
+    let out = sextant(&all);
+    assert_eq!(out.status.code(), Some(0));
+    String::from_utf8(out.stdout)
+        .unwrap()
+        .lines()
+        .map(|l| l.split(',').map(str::to_owned).collect())
+        .collect()
+}
+
+#[test]
+fn neighbours_formats_agree() {
+    let m = demo();
+    for metric in ["euclidean", "cosine"] {
+        let j = json(&["neighbours", &m, "r001", "-k", "7", "--metric", metric]);
+        assert_eq!(j["query"], "r001");
+        assert_eq!(j["kind"], "item");
+        assert_eq!(j["metric"], metric);
+        assert_eq!(j["k"], 7);
+        let list = j["neighbours"].as_array().unwrap();
+        assert_eq!(list.len(), 7);
+        let csv = csv_rows(&["neighbours", &m, "r001", "-k", "7", "--metric", metric]);
+        assert_eq!(csv[0], ["rank", "id", "distance", "cosine"]);
+        for (row, entry) in csv[1..].iter().zip(list) {
+            assert_eq!(
+                row[0].parse::<u64>().unwrap(),
+                entry["rank"].as_u64().unwrap()
+            );
+            assert_eq!(row[1], entry["id"].as_str().unwrap());
+            assert_eq!(
+                row[2].parse::<f64>().unwrap(),
+                entry["distance"].as_f64().unwrap()
+            );
+            assert_eq!(
+                row[3].parse::<f64>().unwrap(),
+                entry["cosine"].as_f64().unwrap()
+            );
+            assert!(entry["title"].is_string());
+        }
+        // Ranked by the chosen metric.
+        let key = |e: &Value| {
+            if metric == "euclidean" {
+                e["distance"].as_f64().unwrap()
+            } else {
+                -e["cosine"].as_f64().unwrap()
+            }
+        };
+        assert!(list.windows(2).all(|w| key(&w[0]) <= key(&w[1]) + 1e-12));
+        assert!(
+            list.iter().all(|e| e["id"] != "r001"),
+            "the query is left out"
+        );
+    }
+    let table = String::from_utf8(sextant(&["neighbours", &m, "r001", "-k", "3"]).stdout).unwrap();
+    assert!(table.contains("3 nearest items to r001"), "{table}");
+    let members = json(&["neighbours", &m, "--user", "m0001", "-k", "4"]);
+    assert_eq!(members["kind"], "user");
+    assert_eq!(members["neighbours"].as_array().unwrap().len(), 4);
+}
+
+#[test]
+fn suggest_formats_agree() {
+    let m = demo();
+    let j = json(&["suggest", &m, "m0001", "-n", "6"]);
+    assert_eq!(j["user"], "m0001");
+    assert_eq!(j["n"], 6);
+    let list = j["suggestions"].as_array().unwrap();
+    assert_eq!(list.len(), 6);
+    let csv = csv_rows(&["suggest", &m, "m0001", "-n", "6"]);
+    assert_eq!(&csv[0][..4], ["rank", "item", "predicted", "rounded"]);
+    for (row, entry) in csv[1..].iter().zip(list) {
+        assert_eq!(row[1], entry["item"].as_str().unwrap());
+        assert_eq!(
+            row[2].parse::<f64>().unwrap(),
+            entry["predicted"].as_f64().unwrap()
+        );
+        assert_eq!(
+            row[3].parse::<f64>().unwrap(),
+            entry["rounded"].as_f64().unwrap()
+        );
+        assert!(entry["predictive_sd"].as_f64().unwrap() >= 1.0);
+    }
+    assert!(
+        list.windows(2)
+            .all(|w| w[0]["predicted"].as_f64() >= w[1]["predicted"].as_f64())
+    );
+    let rated = json(&["suggest", &m, "m0001", "-n", "3", "--include-rated"]);
+    assert_eq!(rated["suggestions"].as_array().unwrap().len(), 3);
+}
+
+#[test]
+fn explain_formats_agree_and_add_up() {
+    let m = demo();
+    let j = json(&["explain", &m, "m0001", "r001"]);
+    for field in [
+        "user",
+        "item",
+        "mu",
+        "predicted",
+        "rounded",
+        "predictive_sd",
+        "actual",
+        "contributions",
+        "evidence",
+        "support",
+    ] {
+        assert!(j.get(field).is_some(), "field {field}");
+    }
+    let contributions = j["contributions"].as_array().unwrap();
+    let sum: f64 = j["mu"].as_f64().unwrap()
+        + contributions
+            .iter()
+            .map(|c| c["value"].as_f64().unwrap())
+            .sum::<f64>();
+    assert!((sum - j["predicted"].as_f64().unwrap()).abs() < 1e-12);
+    let csv = csv_rows(&["explain", &m, "m0001", "r001"]);
+    assert_eq!(csv[0], ["factor", "value"]);
+    for (row, c) in csv[1..].iter().zip(contributions) {
+        assert_eq!(
+            row[0].parse::<u64>().unwrap(),
+            c["factor"].as_u64().unwrap()
+        );
+        assert_eq!(row[1].parse::<f64>().unwrap(), c["value"].as_f64().unwrap());
+    }
+    for field in [
+        "user_ratings",
+        "item_ratings",
+        "user_low_support",
+        "item_low_support",
+    ] {
+        assert!(j["support"].get(field).is_some(), "support.{field}");
+    }
+    for field in ["item", "actual", "predicted", "distance"] {
+        assert!(j["evidence"][0].get(field).is_some(), "evidence[].{field}");
+    }
+    // A rated item shows the actual rating.
+    let first_rated = std::fs::read_to_string(repo("demo-data/model/ratings.csv")).unwrap();
+    let line = first_rated
+        .lines()
+        .nth(1)
+        .unwrap()
+        .split(',')
+        .collect::<Vec<_>>();
+    let rated = json(&["explain", &m, line[0], line[1]]);
+    assert_eq!(
+        rated["actual"].as_f64().unwrap(),
+        line[2].parse::<f64>().unwrap()
+    );
+    let help = String::from_utf8(sextant(&["explain", "--help"]).stdout).unwrap();
+    assert!(
+        help.contains("personal data") && help.contains("not a person's motives"),
+        "{help}"
+    );
+}
+
+#[test]
+fn unknown_ids_suggest_the_closest_and_exit_2() {
+    let m = demo();
+    for (args, expected) in [
+        (
+            vec!["neighbours", &m, "r0001"],
+            "the model has no item 'r0001'; did you mean 'r001'",
+        ),
+        (
+            vec!["neighbours", &m, "--user", "m1"],
+            "the model has no member 'm1'; did you mean",
+        ),
+        (
+            vec!["suggest", &m, "M0001"],
+            "the model has no member 'M0001'; did you mean 'm0001'",
+        ),
+        (
+            vec!["explain", &m, "m0001", "soup"],
+            "the model has no item 'soup'",
+        ),
+    ] {
+        let out = sextant(&args);
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{stderr}");
+        assert!(stderr.contains(expected), "{expected:?} in {stderr:?}");
+    }
+}

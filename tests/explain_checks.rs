@@ -1,0 +1,107 @@
+//! Explanations, uncertainty and suggestions on the demo model, and against numpy.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
+mod common;
+
+use common::{fixture, floats, matrix, repo};
+use sextant::analysis::explain::{explain, item_support};
+use sextant::analysis::{Posterior, suggest};
+use sextant::index::{InnerProductIndex, Path};
+use sextant::model::load_model;
+
+#[test]
+fn predictive_sd_matches_numpy() {
+    // Source: numpy on the same Φ, λ, σ² (Bishop, PRML 2006, §3.3.2, eq. 3.59 [memory for the
+    // equation number]), via tests/reference/fixtures/predictive_sd.json.
+    let f = fixture("predictive_sd.json");
+    for case in f["cases"].as_array().unwrap() {
+        let d = case["d"].as_u64().unwrap() as usize;
+        let (items, _) = matrix(&case["items"]);
+        let rated: Vec<u32> = floats(&case["rated"]).iter().map(|&r| r as u32).collect();
+        let posterior = Posterior::new(
+            &items,
+            d,
+            rated,
+            case["lambda"].as_f64().unwrap(),
+            case["sigma2"].as_f64().unwrap(),
+        );
+        for (j, expected) in floats(&case["sd"]).iter().enumerate() {
+            let sd = posterior.predictive_sd(&items[j * d..(j + 1) * d]).unwrap();
+            assert!(
+                (sd - expected).abs() < 1e-12,
+                "d {d} item {j}: {sd} vs {expected}"
+            );
+        }
+    }
+}
+
+#[test]
+fn contributions_add_up_to_the_prediction_on_the_demo_model() {
+    let model = load_model(&repo("demo-data/model")).unwrap();
+    let counts = item_support(&model);
+    for (user, item) in [(0u32, 0u32), (5, 17), (1499, 399), (42, 7)] {
+        let e = explain(&model, user, item, 5, &counts);
+        let sum: f64 = e.mu + e.contributions.iter().map(|c| c.value).sum::<f64>();
+        assert!((sum - e.predicted).abs() < 1e-12, "user {user} item {item}");
+        assert!((e.predicted - model.factors.predict(user, item)).abs() < 1e-12);
+        assert!(
+            e.contributions
+                .windows(2)
+                .all(|w| w[0].value.abs() >= w[1].value.abs())
+        );
+        assert_eq!(e.contributions.len(), model.factors.rank);
+        assert!(
+            e.evidence
+                .windows(2)
+                .all(|w| w[0].distance <= w[1].distance)
+        );
+        assert!(e.evidence.iter().all(|x| x.item != item));
+        // The predictive SD is at least the noise SD, σ.
+        assert!(e.predictive_sd.unwrap() >= model.manifest.sigma2.sqrt());
+        assert_eq!(
+            e.support.user_low_support,
+            e.support.user_ratings < model.factors.rank
+        );
+    }
+}
+
+#[test]
+fn suggestions_equal_a_brute_force_ranking_and_skip_rated_items() {
+    let model = load_model(&repo("demo-data/model")).unwrap();
+    let d = model.factors.rank;
+    for path in [Path::Tree, Path::Scan] {
+        let index = InnerProductIndex::build(&model.factors.items, d, path);
+        for user in [0u32, 3, 777, 1499] {
+            let rated: Vec<u32> = model
+                .ratings
+                .entries
+                .iter()
+                .filter(|r| r.user == user)
+                .map(|r| r.item)
+                .collect();
+            let mut expected: Vec<(u32, f64)> = (0..model.ratings.items.len() as u32)
+                .filter(|j| !rated.contains(j))
+                .map(|j| (j, model.factors.predict(user, j)))
+                .collect();
+            expected.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+            let found = suggest(&model, &index, user, 10, false);
+            assert_eq!(found.len(), 10);
+            for (s, e) in found.iter().zip(&expected) {
+                assert_eq!(s.item, e.0, "user {user}");
+                assert!((s.predicted - e.1).abs() < 1e-12);
+                assert_eq!(s.rounded, model.manifest.scale.round(s.predicted));
+            }
+            let with_rated = suggest(&model, &index, user, 3, true);
+            let best = (0..model.ratings.items.len() as u32)
+                .max_by(|&a, &b| {
+                    model
+                        .factors
+                        .predict(user, a)
+                        .total_cmp(&model.factors.predict(user, b))
+                        .then(b.cmp(&a))
+                })
+                .unwrap();
+            assert_eq!(with_rated[0].item, best);
+        }
+    }
+}
