@@ -58,8 +58,39 @@ fn best_k(mut scored: Vec<Scored>, k: usize) -> Vec<Scored> {
     scored
 }
 
+/// The `k` best rows seen so far, kept sorted (small k: insertion beats a heap).
+struct TopK {
+    k: usize,
+    best: Vec<Scored>,
+}
+
+impl TopK {
+    fn new(k: usize) -> Self {
+        Self {
+            k,
+            best: Vec::with_capacity(k + 1),
+        }
+    }
+
+    #[inline]
+    fn offer(&mut self, candidate: Scored) {
+        if self.best.len() == self.k {
+            match self.best.last() {
+                Some(worst) if ranks_before(&candidate, worst).is_lt() => {}
+                _ => return,
+            }
+            self.best.pop();
+        }
+        let at = self
+            .best
+            .partition_point(|b| ranks_before(b, &candidate).is_lt());
+        self.best.insert(at, candidate);
+    }
+}
+
 /// The `k` best rows among `rows` (all rows `0..total` when `None`) that `keep` accepts, by
-/// (score, row). Large sets are scored in parallel.
+/// (score, row). Large sets are scored in parallel chunks, each keeping only its own `k`
+/// best, then merged.
 pub fn rank_rows<F, K>(
     rows: Option<&[u32]>,
     total: usize,
@@ -71,19 +102,21 @@ where
     F: Fn(u32) -> f64 + Sync,
     K: Fn(u32) -> bool + Sync,
 {
-    const CHUNK: usize = 8_192;
+    const CHUNK: usize = 16_384;
+    if k == 0 {
+        return Vec::new();
+    }
     let count = rows.map_or(total, <[u32]>::len);
     let row_at = |i: usize| rows.map_or(i as u32, |r| r[i]);
     let best_in = |range: std::ops::Range<usize>| {
-        let scored: Vec<Scored> = range
-            .map(row_at)
-            .filter(|&r| keep(r))
-            .map(|r| Scored {
+        let mut top = TopK::new(k);
+        for r in range.map(row_at).filter(|&r| keep(r)) {
+            top.offer(Scored {
                 row: r,
                 score: score(r),
-            })
-            .collect();
-        best_k(scored, k)
+            });
+        }
+        top.best
     };
     if count <= CHUNK {
         return best_in(0..count);
@@ -95,9 +128,24 @@ where
     best_k(partial.into_iter().flatten().collect(), k)
 }
 
-/// Squared Euclidean distance, summed in a fixed order.
+/// Squared Euclidean distance, summed in a fixed order (four interleaved partial sums, so
+/// the compiler can vectorise it; every path of the index uses this one function).
 pub fn squared_distance(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum()
+    let mut acc = [0.0f64; 4];
+    let (head_a, tail_a) = a.split_at(a.len() - a.len() % 4);
+    let (head_b, tail_b) = b.split_at(head_a.len());
+    for (x, y) in head_a.chunks_exact(4).zip(head_b.chunks_exact(4)) {
+        for l in 0..4 {
+            let t = x[l] - y[l];
+            acc[l] = t.mul_add(t, acc[l]);
+        }
+    }
+    let tail: f64 = tail_a
+        .iter()
+        .zip(tail_b)
+        .map(|(x, y)| (x - y) * (x - y))
+        .sum();
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
 }
 
 /// Exact Euclidean candidate search over a fixed set of points: a k-d tree where it is
@@ -121,14 +169,33 @@ impl std::fmt::Debug for SpatialIndex {
     }
 }
 
+/// Candidates fetched beyond k, so that ties and rounding at the k-th place rarely need a
+/// second (radius) query.
+const EXTRA_CANDIDATES: usize = 8;
+
 /// Queries timed per path when [`Path::Auto`] chooses.
 const CALIBRATION_QUERIES: usize = 24;
+/// How much faster than the scan the tree must be (median query time) to be chosen.
+const TREE_MARGIN: f64 = 0.75;
+
 /// Below this many points a scan is always fast enough (and trees are not worth building).
 const SMALL_SET: usize = 2_048;
 
 impl SpatialIndex {
-    /// Indexes `points` (row-major, `width` per row).
+    /// Indexes `points` (row-major, `width` per row). [`Path::Auto`] times both paths on
+    /// a sample of the points themselves as queries.
     pub fn build(points: &[f64], width: usize, path: Path) -> Self {
+        Self::build_for_queries(points, width, path, None)
+    }
+
+    /// As [`Self::build`], timing [`Path::Auto`] on `sample_queries` (row-major) instead,
+    /// for sets whose queries do not look like their points.
+    pub fn build_for_queries(
+        points: &[f64],
+        width: usize,
+        path: Path,
+        sample_queries: Option<&[f64]>,
+    ) -> Self {
         let rows = points.len() / width.max(1);
         let mut index = Self {
             width,
@@ -154,7 +221,10 @@ impl SpatialIndex {
         index.slack = 1e-12 * largest.max(f64::MIN_POSITIVE);
         index.tree = build_tree(&rotated, width);
         index.rotation = Some(rotation);
-        if path == Path::Auto && index.tree.is_some() && !index.tree_is_faster(points) {
+        if path == Path::Auto
+            && index.tree.is_some()
+            && !index.tree_is_faster(points, sample_queries)
+        {
             index.tree = None;
             index.rotation = None;
         }
@@ -187,40 +257,72 @@ impl SpatialIndex {
         }
         let mut rotated = vec![0.0; self.width];
         rotation.rotate(query, &mut rotated);
-        let nearest = tree.nearest(&rotated, k);
-        let kth = nearest.last().map_or(0.0, |&(_, d)| d);
-        Some(tree.within(&rotated, kth * (1.0 + 1e-9) + self.slack))
+        // Ask for a few more than k: if the last of them lies beyond the k-th distance plus
+        // the rounding allowance, every row that could tie with or undercut the k-th is
+        // already among them. Otherwise (many ties) collect everything within the allowance.
+        let extra = (k + EXTRA_CANDIDATES).min(self.rows);
+        let nearest = tree.nearest(&rotated, extra);
+        let kth = nearest.get(k - 1).map_or(0.0, |&(_, d)| d);
+        let radius = kth * (1.0 + 1e-9) + self.slack;
+        if nearest.len() == self.rows {
+            return None;
+        }
+        if nearest.last().is_some_and(|&(_, d)| d > radius) {
+            return Some(nearest.into_iter().map(|(r, _)| r).collect());
+        }
+        Some(tree.within(&rotated, radius))
     }
 
-    /// Times tree and scan on a sample of the points themselves.
-    fn tree_is_faster(&self, points: &[f64]) -> bool {
+    /// Times tree and scan on a sample of queries (by default the points themselves) and
+    /// compares the median query times, after one warm-up query each. The scan stops early
+    /// once it is clearly slower, so choosing costs little.
+    fn tree_is_faster(&self, points: &[f64], sample_queries: Option<&[f64]>) -> bool {
         let w = self.width;
-        let step = (self.rows / CALIBRATION_QUERIES).max(1);
-        let queries: Vec<&[f64]> = points
+        let source = sample_queries.unwrap_or(points);
+        let step = (source.len() / w / CALIBRATION_QUERIES).max(1);
+        let queries: Vec<&[f64]> = source
             .chunks_exact(w)
             .step_by(step)
             .take(CALIBRATION_QUERIES)
             .collect();
-        let run = |use_tree: bool| {
+        let answer = |q: &[f64], use_tree: bool| {
             let start = Instant::now();
-            for q in &queries {
-                let candidates = if use_tree {
-                    self.candidates(q, 10)
-                } else {
-                    None
-                };
-                let best = rank_rows(
-                    candidates.as_deref(),
-                    self.rows,
-                    10,
-                    |_| true,
-                    |r| squared_distance(q, &points[r as usize * w..(r as usize + 1) * w]),
-                );
-                std::hint::black_box(best);
-            }
+            let candidates = if use_tree {
+                self.candidates(q, 10)
+            } else {
+                None
+            };
+            let best = rank_rows(
+                candidates.as_deref(),
+                self.rows,
+                10,
+                |_| true,
+                |r| squared_distance(q, &points[r as usize * w..(r as usize + 1) * w]),
+            );
+            std::hint::black_box(best);
             start.elapsed()
         };
-        run(true) < run(false)
+        let median = |mut times: Vec<std::time::Duration>| {
+            times.sort();
+            times[times.len() / 2]
+        };
+        let Some(first) = queries.first() else {
+            return false;
+        };
+        answer(first, true);
+        let tree = median(queries.iter().map(|q| answer(q, true)).collect());
+        // The tree must win clearly: its cost varies from query to query, the scan's does not.
+        let tree = tree.mul_f64(1.0 / TREE_MARGIN);
+        answer(first, false);
+        let mut scan = Vec::with_capacity(queries.len());
+        for q in &queries {
+            scan.push(answer(q, false));
+            // Half the sample already slower than the tree's median: the scan has lost.
+            if scan.iter().filter(|&&t| t > tree).count() > queries.len() / 2 {
+                return true;
+            }
+        }
+        tree < median(scan)
     }
 }
 
