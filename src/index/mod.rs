@@ -174,7 +174,7 @@ impl std::fmt::Debug for SpatialIndex {
 const EXTRA_CANDIDATES: usize = 8;
 
 /// Queries timed per path when [`Path::Auto`] chooses.
-const CALIBRATION_QUERIES: usize = 24;
+const CALIBRATION_QUERIES: usize = 16;
 /// How much faster than the scan the tree must be (median query time) to be chosen.
 const TREE_MARGIN: f64 = 0.75;
 
@@ -491,7 +491,26 @@ impl InnerProductIndex {
             lifted.extend_from_slice(v);
             lifted.push((largest - dot(v, v)).max(0.0).sqrt());
         }
-        let spatial = SpatialIndex::build(&lifted, width + 1, path);
+        // Queries look like (u, 0) with u drawn like the vectors but unrelated to any one of
+        // them (an item queried for itself is found unrealistically fast): each sample
+        // coordinate comes from one of two items with a random sign, which keeps every
+        // coordinate's spread and breaks the link to both.
+        let rows = vectors.len() / width.max(1);
+        let mut rng = crate::rng::Rng::new(0x5A3F);
+        let mut sample = Vec::with_capacity(CALIBRATION_QUERIES * (width + 1));
+        for _ in 0..if rows == 0 { 0 } else { CALIBRATION_QUERIES } {
+            let (a, b) = (
+                rng.below(rows as u64) as usize,
+                rng.below(rows as u64) as usize,
+            );
+            for i in 0..width {
+                let source = if rng.below(2) == 0 { a } else { b };
+                let sign = if rng.below(2) == 0 { 1.0 } else { -1.0 };
+                sample.push(sign * vectors[source * width + i]);
+            }
+            sample.push(0.0);
+        }
+        let spatial = SpatialIndex::build_for_queries(&lifted, width + 1, path, Some(&sample));
         Self {
             width,
             vectors: vectors.to_vec(),
