@@ -310,18 +310,7 @@ fn fits_are_identical_whatever_the_thread_count() {
     let two = tmp.path().join("two");
     assert_eq!(fit_demo(&one, &["--threads", "1"]).status.code(), Some(0));
     assert_eq!(fit_demo(&two, &["--threads", "2"]).status.code(), Some(0));
-    for name in [
-        "manifest.ron",
-        "users.csv",
-        "items.csv",
-        "ratings.csv",
-        "items-meta.csv",
-    ] {
-        assert!(
-            std::fs::read(one.join(name)).unwrap() == std::fs::read(two.join(name)).unwrap(),
-            "{name}"
-        );
-    }
+    common::assert_same_model_files(&one, &two);
 }
 
 #[test]
@@ -332,18 +321,7 @@ fn save_load_save_is_byte_identical() {
     let model = sextant::model::load_model(&first).unwrap();
     let second = tmp.path().join("second");
     sextant::model::save_model(&second, &model).unwrap();
-    for name in [
-        "manifest.ron",
-        "users.csv",
-        "items.csv",
-        "ratings.csv",
-        "items-meta.csv",
-    ] {
-        assert!(
-            std::fs::read(first.join(name)).unwrap() == std::fs::read(second.join(name)).unwrap(),
-            "{name}"
-        );
-    }
+    common::assert_same_model_files(&first, &second);
     assert_eq!(sextant::model::load_model(&second).unwrap(), model);
 }
 

@@ -254,15 +254,5 @@ fn committed_demo_model_is_reproduced_bit_for_bit() {
     let out = tempfile::tempdir().unwrap();
     let dir = out.path().join("model");
     sextant::model::save_model(&dir, &model).unwrap();
-    for name in [
-        "manifest.ron",
-        "users.csv",
-        "items.csv",
-        "ratings.csv",
-        "items-meta.csv",
-    ] {
-        let fresh = std::fs::read(dir.join(name)).unwrap();
-        let old = std::fs::read(repo("demo-data/model").join(name)).unwrap();
-        assert!(fresh == old, "{name} differs from the committed demo model");
-    }
+    common::assert_same_model_files(&dir, &repo("demo-data/model"));
 }

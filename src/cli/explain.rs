@@ -111,7 +111,10 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         Format::Csv => {
             let mut out = String::from("factor,value\n");
             for c in &report.contributions {
-                let _ = writeln!(out, "{},{}", c.factor, csv_number(Some(c.value)));
+                output::csv_row(
+                    &mut out,
+                    &[&c.factor.to_string(), &csv_number(Some(c.value))],
+                );
             }
             out
         }

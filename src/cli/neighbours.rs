@@ -137,16 +137,13 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
         Format::Csv => {
             let mut out = String::from("rank,id,distance,cosine\n");
             for r in &report.neighbours {
-                let mut id = Vec::new();
-                sextant::data::factors::quote_field(&mut id, r.id);
-                let _ = writeln!(
-                    out,
-                    "{},{},{},{}",
-                    r.rank,
-                    String::from_utf8_lossy(&id),
+                let fields = [
+                    r.rank.to_string(),
+                    r.id.to_owned(),
                     csv_number(Some(r.distance)),
-                    csv_number(r.cosine)
-                );
+                    csv_number(r.cosine),
+                ];
+                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
             }
             out
         }

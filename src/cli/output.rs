@@ -24,6 +24,19 @@ pub fn print(text: &str) -> anyhow::Result<()> {
     Ok(())
 }
 
+/// Appends one CSV row (RFC 4180 quoting where needed) to `out`.
+pub fn csv_row(out: &mut String, fields: &[&str]) {
+    let mut line = Vec::new();
+    for (k, field) in fields.iter().enumerate() {
+        if k > 0 {
+            line.push(b',');
+        }
+        sextant::data::factors::quote_field(&mut line, field);
+    }
+    line.push(b'\n');
+    out.push_str(&String::from_utf8_lossy(&line));
+}
+
 /// `12345` → `12,345`.
 pub fn group(n: usize) -> String {
     let digits = n.to_string();

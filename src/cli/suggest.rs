@@ -83,17 +83,14 @@ pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
         Format::Csv => {
             let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
             for r in &report.suggestions {
-                let mut id = Vec::new();
-                sextant::data::factors::quote_field(&mut id, r.item);
-                let _ = writeln!(
-                    out,
-                    "{},{},{},{},{}",
-                    r.rank,
-                    String::from_utf8_lossy(&id),
+                let fields = [
+                    r.rank.to_string(),
+                    r.item.to_owned(),
                     csv_number(Some(r.predicted)),
                     csv_number(Some(r.rounded)),
-                    csv_number(r.predictive_sd)
-                );
+                    csv_number(r.predictive_sd),
+                ];
+                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
             }
             out
         }

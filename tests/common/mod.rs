@@ -72,3 +72,25 @@ pub fn max_rel_diff(actual: &[f64], expected: &[f64]) -> f64 {
         .map(|(a, e)| (a - e).abs() / e.abs().max(1.0))
         .fold(0.0, f64::max)
 }
+
+/// The files every model directory written from the demo data holds.
+pub const MODEL_FILES: [&str; 5] = [
+    "manifest.ron",
+    "users.csv",
+    "items.csv",
+    "ratings.csv",
+    "items-meta.csv",
+];
+
+/// Asserts that two model directories hold byte-identical files.
+pub fn assert_same_model_files(a: &Path, b: &Path) {
+    for name in MODEL_FILES {
+        let (x, y) = (std::fs::read(a.join(name)), std::fs::read(b.join(name)));
+        assert!(
+            x.is_ok() && x.ok() == y.ok(),
+            "{name} differs between {} and {}",
+            a.display(),
+            b.display()
+        );
+    }
+}
