@@ -4,6 +4,7 @@
 //! 2 bad usage or bad input.
 
 mod cli;
+mod tui;
 
 use std::process::ExitCode;
 

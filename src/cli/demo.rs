@@ -33,17 +33,20 @@ pub const DEMO: EmbeddedSource = EmbeddedSource {
     ],
 };
 
-/// Prints the demo model's summary (the explorer will open here once it exists).
+/// Opens the explorer on the demo model, or prints its summary when there is no terminal.
 pub fn run() -> anyhow::Result<()> {
     let model = load_model_from(&DEMO)?;
+    if super::explore::has_terminal() {
+        return super::explore::open(model, "bundled demo: Ladle & Loaf".to_owned());
+    }
     let mut text = summary::render(
         &model,
         "bundled demo: Ladle & Loaf recipe club",
         Format::Table,
     )?;
     text.push_str(
-        "\nThis is the bundled demo model. Try: sextant fit demo-data/ratings.csv \
-         --items demo-data/items.csv --out my-model\n",
+        "\nThis is the bundled demo model; run sextant in a terminal to explore it. Try also: \
+         sextant fit demo-data/ratings.csv --items demo-data/items.csv --out my-model\n",
     );
     output::print(&text)
 }

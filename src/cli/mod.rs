@@ -4,6 +4,7 @@
 
 mod demo;
 mod explain;
+mod explore;
 mod fit;
 mod import;
 mod info;
@@ -25,7 +26,7 @@ use sextant::model::store::SaveError;
 /// fitted elsewhere) and keeps it as a self-contained model directory. Ratings are personal
 /// data: sextant keeps everything on this machine and sends nothing anywhere.
 ///
-/// Run without arguments to see the bundled demo model.
+/// Run without arguments to open the explorer on the bundled demo model.
 #[derive(Debug, Parser)]
 #[command(name = "sextant", version, propagate_version = true)]
 pub struct Cli {
@@ -41,6 +42,8 @@ enum Command {
     Import(import::ImportArgs),
     /// Summarise a model directory: options, counts, convergence, accuracy.
     Info(info::InfoArgs),
+    /// Open the terminal explorer on a model (needs an interactive terminal).
+    Explore(explore::ExploreArgs),
     /// The items nearest to an item (or members nearest to a member) in the latent space.
     Neighbours(neighbours::NeighboursArgs),
     /// A member's top items by predicted rating, with their uncertainty.
@@ -66,6 +69,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Fit(args)) => fit::run(&args),
         Some(Command::Import(args)) => import::run(&args),
         Some(Command::Info(args)) => info::run(&args),
+        Some(Command::Explore(args)) => explore::run(&args),
         Some(Command::Neighbours(args)) => neighbours::run(&args),
         Some(Command::Suggest(args)) => suggest::run(&args),
         Some(Command::Explain(args)) => explain::run(&args),

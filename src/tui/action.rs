@@ -1,0 +1,45 @@
+//! Everything a person can ask the explorer to do. Keys map to these (`keymap.rs`);
+//! `App::update` is the only place they take effect.
+
+/// One user intent.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Action {
+    /// Leave the explorer.
+    Quit,
+    /// Show or hide the key overlay.
+    ToggleHelp,
+    /// Move focus to the next pane.
+    FocusNextPane,
+    /// Move focus to the previous pane.
+    FocusPreviousPane,
+    /// Move the selection down one row.
+    SelectNext,
+    /// Move the selection up one row.
+    SelectPrevious,
+    /// Move the selection down one page.
+    PageDown,
+    /// Move the selection up one page.
+    PageUp,
+    /// Jump to the first row.
+    SelectFirst,
+    /// Jump to the last row.
+    SelectLast,
+    /// Open the highlighted neighbour (or confirm a search).
+    Open,
+    /// Go back to the previously viewed item.
+    Back,
+    /// Go forward again after going back.
+    Forward,
+    /// Start typing a filter for the catalogue.
+    StartSearch,
+    /// Clear the catalogue filter.
+    ClearSearch,
+    /// Switch the neighbour metric between Euclidean and cosine.
+    ToggleMetric,
+    /// Show more neighbours.
+    MoreNeighbours,
+    /// Show fewer neighbours.
+    FewerNeighbours,
+    /// Cycle the catalogue order (title, category, rating count).
+    CycleSort,
+}

@@ -1,0 +1,441 @@
+//! The explorer's state and the one place it changes (`App::update`). Derived rows
+//! (neighbours, loadings) are recomputed when the selection changes, never per frame.
+
+use sextant::analysis::cosine;
+use sextant::index::{Metric, NeighbourIndex, Path, squared_distance};
+use sextant::model::Model;
+
+use super::action::Action;
+
+/// Panes that can have focus.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Pane {
+    /// The list of every item.
+    Catalogue,
+    /// The current item's nearest items.
+    Neighbours,
+    /// The current item's factor values.
+    Loadings,
+}
+
+const PANES: [Pane; 3] = [Pane::Catalogue, Pane::Neighbours, Pane::Loadings];
+
+/// What keys currently do.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Mode {
+    /// Browsing.
+    Normal,
+    /// Typing a catalogue filter.
+    Search,
+    /// The help overlay is open.
+    Help,
+}
+
+/// Catalogue order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Order {
+    /// By title (then id).
+    Title,
+    /// By category, then title.
+    Category,
+    /// By number of training ratings, most first.
+    Ratings,
+}
+
+/// One row of the neighbours pane, ready to draw.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NeighbourRow {
+    /// The item.
+    pub item: u32,
+    /// Euclidean distance between the raw vectors.
+    pub distance: f64,
+    /// Cosine similarity (none for zero vectors).
+    pub cosine: Option<f64>,
+}
+
+/// The explorer's whole state.
+pub struct App {
+    /// The model being explored.
+    pub model: Model,
+    /// How the model is named in the header.
+    pub label: String,
+    /// Training ratings per item.
+    pub item_counts: Vec<u32>,
+    /// Every item in the current order.
+    order_all: Vec<u32>,
+    /// Items passing the filter, in order.
+    pub visible: Vec<u32>,
+    /// Row of `visible` that is highlighted.
+    pub catalogue_selected: usize,
+    /// The filter text.
+    pub filter: String,
+    /// Catalogue order.
+    pub order: Order,
+    /// The item whose neighbours and loadings are shown.
+    pub current: Option<u32>,
+    /// Neighbours of the current item.
+    pub neighbours: Vec<NeighbourRow>,
+    /// Highlighted neighbour.
+    pub neighbour_selected: usize,
+    /// Highlighted factor in the loadings pane.
+    pub factor_selected: usize,
+    /// Ranking metric of the neighbours pane.
+    pub metric: Metric,
+    /// How many neighbours to show.
+    pub k: usize,
+    /// Focused pane.
+    pub focus: Pane,
+    /// Keys' meaning.
+    pub mode: Mode,
+    /// Items visited before the current one.
+    history: Vec<u32>,
+    /// Items to go forward to.
+    future: Vec<u32>,
+    /// A message for the status line.
+    pub status: String,
+    /// Rows a page moves (set from the last frame's list height).
+    pub page: usize,
+    /// True once the person asked to leave.
+    pub quit: bool,
+    euclidean: Option<NeighbourIndex>,
+    cosine: Option<NeighbourIndex>,
+}
+
+impl App {
+    /// The explorer on `model`, with the first item selected.
+    pub fn new(model: Model, label: impl Into<String>) -> Self {
+        let item_counts = model.ratings.train_support().1;
+        let mut app = Self {
+            model,
+            label: label.into(),
+            item_counts,
+            order_all: Vec::new(),
+            visible: Vec::new(),
+            catalogue_selected: 0,
+            filter: String::new(),
+            order: Order::Title,
+            current: None,
+            neighbours: Vec::new(),
+            neighbour_selected: 0,
+            factor_selected: 0,
+            metric: Metric::Euclidean,
+            k: 10,
+            focus: Pane::Catalogue,
+            mode: Mode::Normal,
+            history: Vec::new(),
+            future: Vec::new(),
+            status: String::new(),
+            page: 10,
+            quit: false,
+            euclidean: None,
+            cosine: None,
+        };
+        app.sort_catalogue();
+        app.select_in_catalogue(0);
+        app
+    }
+
+    /// Title of item `j` (its id when there is no metadata).
+    pub fn title(&self, j: u32) -> &str {
+        self.model
+            .meta
+            .as_ref()
+            .and_then(|m| m.get(j))
+            .and_then(|m| m.title.as_deref())
+            .unwrap_or_else(|| self.model.ratings.items.name(j))
+    }
+
+    /// Category of item `j`, if known.
+    pub fn category(&self, j: u32) -> Option<&str> {
+        self.model
+            .meta
+            .as_ref()
+            .and_then(|m| m.get(j))
+            .and_then(|m| m.category.as_deref())
+    }
+
+    /// Applies one action.
+    pub fn update(&mut self, action: Action) {
+        self.status.clear();
+        match action {
+            Action::Quit => {
+                if self.mode == Mode::Help {
+                    self.mode = Mode::Normal;
+                } else {
+                    self.quit = true;
+                }
+            }
+            Action::ToggleHelp => {
+                self.mode = if self.mode == Mode::Help {
+                    Mode::Normal
+                } else {
+                    Mode::Help
+                }
+            }
+            Action::FocusNextPane => self.focus = PANES[(self.focus_index() + 1) % PANES.len()],
+            Action::FocusPreviousPane => {
+                self.focus = PANES[(self.focus_index() + PANES.len() - 1) % PANES.len()];
+            }
+            Action::SelectNext => self.move_selection(1),
+            Action::SelectPrevious => self.move_selection(-1),
+            Action::PageDown => self.move_selection(self.page as isize),
+            Action::PageUp => self.move_selection(-(self.page as isize)),
+            Action::SelectFirst => self.move_selection(isize::MIN / 2),
+            Action::SelectLast => self.move_selection(isize::MAX / 2),
+            Action::Open => self.open_highlighted(),
+            Action::Back => self.go_back(),
+            Action::Forward => self.go_forward(),
+            Action::StartSearch => {
+                self.mode = Mode::Search;
+                self.focus = Pane::Catalogue;
+            }
+            Action::ClearSearch => self.set_filter(String::new()),
+            Action::ToggleMetric => {
+                self.metric = match self.metric {
+                    Metric::Euclidean => Metric::Cosine,
+                    Metric::Cosine => Metric::Euclidean,
+                };
+                self.refresh_neighbours();
+            }
+            Action::MoreNeighbours => {
+                self.k = (self.k + 5).min(100);
+                self.refresh_neighbours();
+            }
+            Action::FewerNeighbours => {
+                self.k = self.k.saturating_sub(5).max(5);
+                self.refresh_neighbours();
+            }
+            Action::CycleSort => {
+                self.order = match self.order {
+                    Order::Title => Order::Category,
+                    Order::Category => Order::Ratings,
+                    Order::Ratings => Order::Title,
+                };
+                self.sort_catalogue();
+                self.select_in_catalogue(0);
+            }
+        }
+    }
+
+    /// A typed character or editing key while in search mode.
+    pub fn search_input(&mut self, edit: SearchEdit) {
+        match edit {
+            SearchEdit::Insert(c) => {
+                let mut f = self.filter.clone();
+                f.push(c);
+                self.set_filter(f);
+            }
+            SearchEdit::Delete => {
+                let mut f = self.filter.clone();
+                f.pop();
+                self.set_filter(f);
+            }
+            SearchEdit::Accept => self.mode = Mode::Normal,
+            SearchEdit::Cancel => {
+                self.mode = Mode::Normal;
+                self.set_filter(String::new());
+            }
+        }
+    }
+
+    fn focus_index(&self) -> usize {
+        PANES.iter().position(|&p| p == self.focus).unwrap_or(0)
+    }
+
+    fn move_selection(&mut self, delta: isize) {
+        let step = |at: usize, len: usize| -> usize {
+            if len == 0 {
+                return 0;
+            }
+            (at as isize)
+                .saturating_add(delta)
+                .clamp(0, len as isize - 1) as usize
+        };
+        match self.focus {
+            Pane::Catalogue => {
+                let at = step(self.catalogue_selected, self.visible.len());
+                self.select_in_catalogue(at);
+            }
+            Pane::Neighbours => {
+                self.neighbour_selected = step(self.neighbour_selected, self.neighbours.len());
+            }
+            Pane::Loadings => {
+                self.factor_selected = step(self.factor_selected, self.model.factors.rank);
+            }
+        }
+    }
+
+    fn select_in_catalogue(&mut self, at: usize) {
+        self.catalogue_selected = at;
+        if let Some(&j) = self.visible.get(at)
+            && self.current != Some(j)
+        {
+            if let Some(previous) = self.current {
+                self.history.push(previous);
+                self.future.clear();
+            }
+            self.show(j);
+        }
+    }
+
+    fn open_highlighted(&mut self) {
+        match self.focus {
+            Pane::Neighbours => {
+                let Some(row) = self.neighbours.get(self.neighbour_selected) else {
+                    return;
+                };
+                let j = row.item;
+                if let Some(previous) = self.current {
+                    self.history.push(previous);
+                }
+                self.future.clear();
+                self.show(j);
+                self.reveal(j);
+            }
+            Pane::Catalogue | Pane::Loadings => {
+                self.focus = Pane::Neighbours;
+            }
+        }
+    }
+
+    fn go_back(&mut self) {
+        let Some(j) = self.history.pop() else {
+            self.status = "nothing to go back to".into();
+            return;
+        };
+        if let Some(current) = self.current {
+            self.future.push(current);
+        }
+        self.show(j);
+        self.reveal(j);
+    }
+
+    fn go_forward(&mut self) {
+        let Some(j) = self.future.pop() else {
+            self.status = "nothing to go forward to".into();
+            return;
+        };
+        if let Some(current) = self.current {
+            self.history.push(current);
+        }
+        self.show(j);
+        self.reveal(j);
+    }
+
+    /// Moves the catalogue highlight onto item `j` when it is visible.
+    fn reveal(&mut self, j: u32) {
+        if let Some(at) = self.visible.iter().position(|&v| v == j) {
+            self.catalogue_selected = at;
+        }
+    }
+
+    fn show(&mut self, j: u32) {
+        self.current = Some(j);
+        self.neighbour_selected = 0;
+        self.refresh_neighbours();
+    }
+
+    fn index(&mut self) -> &NeighbourIndex {
+        let f = &self.model.factors;
+        let slot = match self.metric {
+            Metric::Euclidean => &mut self.euclidean,
+            Metric::Cosine => &mut self.cosine,
+        };
+        slot.get_or_insert_with(|| NeighbourIndex::build(&f.items, f.rank, self.metric, Path::Auto))
+    }
+
+    fn refresh_neighbours(&mut self) {
+        let Some(j) = self.current else { return };
+        let k = self.k;
+        let found = self.index().nearest_to_row(j, k);
+        let f = &self.model.factors;
+        self.neighbours = match found {
+            Ok(found) => found
+                .iter()
+                .map(|n| NeighbourRow {
+                    item: n.row,
+                    distance: squared_distance(f.item(j), f.item(n.row)).sqrt(),
+                    cosine: cosine(f.item(j), f.item(n.row)),
+                })
+                .collect(),
+            Err(e) => {
+                self.status = format!("{}: {e}", self.model.ratings.items.name(j));
+                Vec::new()
+            }
+        };
+        self.neighbour_selected = self
+            .neighbour_selected
+            .min(self.neighbours.len().saturating_sub(1));
+    }
+
+    fn sort_catalogue(&mut self) {
+        let mut all: Vec<u32> = (0..self.model.ratings.items.len() as u32).collect();
+        let key_title = |j: &u32| (self.title(*j).to_lowercase(), *j);
+        match self.order {
+            Order::Title => all.sort_by_cached_key(key_title),
+            Order::Category => all.sort_by_cached_key(|j| {
+                (
+                    self.category(*j).unwrap_or("~").to_lowercase(),
+                    key_title(j),
+                )
+            }),
+            Order::Ratings => {
+                all.sort_by_key(|&j| (std::cmp::Reverse(self.item_counts[j as usize]), j));
+            }
+        }
+        self.order_all = all;
+        self.apply_filter();
+    }
+
+    fn set_filter(&mut self, filter: String) {
+        self.filter = filter;
+        self.apply_filter();
+        self.catalogue_selected = 0;
+        match self.current {
+            // Keep the current item when it still matches; otherwise show the first match.
+            Some(j) if self.visible.contains(&j) => self.reveal(j),
+            _ => self.select_in_catalogue(0),
+        }
+    }
+
+    fn apply_filter(&mut self) {
+        let needle = self.filter.to_lowercase();
+        self.visible = if needle.is_empty() {
+            self.order_all.clone()
+        } else {
+            let matches = |j: u32| {
+                self.model
+                    .ratings
+                    .items
+                    .name(j)
+                    .to_lowercase()
+                    .contains(&needle)
+                    || self.title(j).to_lowercase().contains(&needle)
+                    || self
+                        .category(j)
+                        .is_some_and(|c| c.to_lowercase().contains(&needle))
+            };
+            self.order_all
+                .iter()
+                .copied()
+                .filter(|&j| matches(j))
+                .collect()
+        };
+        self.catalogue_selected = self
+            .catalogue_selected
+            .min(self.visible.len().saturating_sub(1));
+    }
+}
+
+/// Keys that edit the filter in search mode.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SearchEdit {
+    /// Add a character.
+    Insert(char),
+    /// Remove the last character.
+    Delete,
+    /// Keep the filter and go back to browsing.
+    Accept,
+    /// Drop the filter and go back to browsing.
+    Cancel,
+}

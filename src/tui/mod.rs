@@ -1,0 +1,311 @@
+//! The terminal explorer: event loop, key handling and the screen layout.
+//!
+//! State lives in [`app::App`]; keys become [`action::Action`]s through the one table in
+//! [`keymap`]; panes in [`panes`] draw from the state and change nothing.
+
+pub mod action;
+pub mod app;
+pub mod keymap;
+pub mod panes;
+pub mod theme;
+
+use std::io;
+
+use ratatui::crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::text::Line;
+use ratatui::widgets::Paragraph;
+use ratatui::{DefaultTerminal, Frame};
+
+use app::{App, Mode, SearchEdit};
+use theme::Theme;
+
+/// Smallest window the explorer draws into; below it, it says so.
+pub const MIN_WIDTH: u16 = 60;
+/// Smallest window height.
+pub const MIN_HEIGHT: u16 = 12;
+
+/// Runs the explorer until the person quits. The app (and its indexes) must be built
+/// before this is called, so that load errors print on the normal screen.
+pub fn run(mut app: App) -> io::Result<()> {
+    let mut terminal = ratatui::init();
+    let result = event_loop(&mut terminal, &mut app);
+    ratatui::restore();
+    result
+}
+
+fn event_loop(terminal: &mut DefaultTerminal, app: &mut App) -> io::Result<()> {
+    let theme = Theme::from_env();
+    while !app.quit {
+        terminal.draw(|frame| render(app, frame, theme))?;
+        match event::read()? {
+            Event::Key(key) if key.kind == KeyEventKind::Press => handle_key(app, key),
+            _ => {}
+        }
+    }
+    Ok(())
+}
+
+/// Turns one key press into state changes (global keys first, then the mode's keys).
+pub fn handle_key(app: &mut App, key: KeyEvent) {
+    if let Some(action) = keymap::global_action(key) {
+        app.update(action);
+        return;
+    }
+    match app.mode {
+        Mode::Search => {
+            let edit = match key.code {
+                KeyCode::Enter => Some(SearchEdit::Accept),
+                KeyCode::Esc => Some(SearchEdit::Cancel),
+                KeyCode::Backspace => Some(SearchEdit::Delete),
+                KeyCode::Char(c)
+                    if !key
+                        .modifiers
+                        .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
+                {
+                    Some(SearchEdit::Insert(c))
+                }
+                _ => None,
+            };
+            if let Some(edit) = edit {
+                app.search_input(edit);
+            }
+        }
+        Mode::Help => {
+            if matches!(key.code, KeyCode::Esc | KeyCode::Char('?' | 'q')) {
+                app.mode = Mode::Normal;
+            }
+        }
+        Mode::Normal => {
+            if let Some(action) = keymap::action_for(key) {
+                app.update(action);
+            }
+        }
+    }
+}
+
+/// The whole screen, top-down: header, body (catalogue | neighbours over loadings), status.
+pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
+    let area = frame.area();
+    if area.width < MIN_WIDTH || area.height < MIN_HEIGHT {
+        let message = format!(
+            "window too small: {}×{}; sextant needs at least {MIN_WIDTH}×{MIN_HEIGHT}",
+            area.width, area.height
+        );
+        frame.render_widget(
+            Paragraph::new(message).wrap(ratatui::widgets::Wrap { trim: true }),
+            area,
+        );
+        return;
+    }
+    let [header, body, status] = Layout::vertical([
+        Constraint::Length(1),
+        Constraint::Min(0),
+        Constraint::Length(1),
+    ])
+    .areas(area);
+    let [left, right] =
+        Layout::horizontal([Constraint::Percentage(48), Constraint::Percentage(52)]).areas(body);
+    let loadings_height = (app.model.factors.rank as u16 + 2)
+        .min(right.height / 2)
+        .max(4);
+    let [upper, lower] =
+        Layout::vertical([Constraint::Min(0), Constraint::Length(loadings_height)]).areas(right);
+    app.page = panes::inner(left).height.max(1) as usize;
+    render_header(app, frame, header, theme);
+    panes::catalogue::render(app, frame, left, theme);
+    panes::neighbours::render(app, frame, upper, theme);
+    panes::loadings::render(app, frame, lower, theme);
+    panes::status_bar::render(app, frame, status, theme);
+    if app.mode == Mode::Help {
+        panes::help::render(frame, area, theme);
+    }
+}
+
+fn render_header(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let m = &app.model.manifest;
+    let text = format!(
+        " sextant · {} · {} items · {} members · rank {} · held-out RMSE {}",
+        app.label,
+        m.counts.items,
+        m.counts.users,
+        m.rank,
+        m.metrics
+            .holdout
+            .map_or_else(|| "–".to_owned(), |h| format!("{:.3}", h.rmse))
+    );
+    frame.render_widget(Paragraph::new(Line::from(text)).style(theme.header()), area);
+}
+
+#[cfg(test)]
+mod tests {
+    use ratatui::Terminal;
+    use ratatui::backend::TestBackend;
+    use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+    use sextant::model::store::{DirSource, load_model_from};
+
+    use super::app::{App, Mode, Pane};
+    use super::theme::Theme;
+    use super::{handle_key, render};
+
+    fn demo_app() -> App {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
+        App::new(
+            load_model_from(&DirSource::new(&dir)).expect("demo model loads"),
+            "demo",
+        )
+    }
+
+    fn press(app: &mut App, code: KeyCode) {
+        handle_key(app, KeyEvent::new(code, KeyModifiers::NONE));
+    }
+
+    fn screen(app: &mut App, width: u16, height: u16) -> String {
+        let mut terminal = Terminal::new(TestBackend::new(width, height)).expect("test backend");
+        terminal
+            .draw(|frame| render(app, frame, Theme::plain()))
+            .expect("draw");
+        let buffer = terminal.backend().buffer().clone();
+        (0..height)
+            .map(|y| {
+                (0..width)
+                    .map(|x| buffer[(x, y)].symbol().to_owned())
+                    .collect::<String>()
+            })
+            .collect::<Vec<_>>()
+            .join("\n")
+    }
+
+    #[test]
+    fn every_pane_shows_what_a_person_reads_at_80_by_24() {
+        let mut app = demo_app();
+        let text = screen(&mut app, 80, 24);
+        let lines: Vec<&str> = text.lines().collect();
+        assert!(
+            lines[0].starts_with(" sextant · demo · 400 items · 1500 members · rank 10"),
+            "{}",
+            lines[0]
+        );
+        assert!(
+            lines[1].contains("Catalogue · 400 items · by title"),
+            "{}",
+            lines[1]
+        );
+        // The first item by title is highlighted and is the current item.
+        let first = app.visible[0];
+        assert_eq!(app.current, Some(first));
+        assert!(
+            lines[2].contains(app.model.ratings.items.name(first)),
+            "{}",
+            lines[2]
+        );
+        assert!(
+            text.contains(&format!("Nearest 10 to {}", app.title(first))),
+            "{text}"
+        );
+        assert!(text.contains("# distance  cosine"), "{text}");
+        assert!(text.contains("Loadings"), "{text}");
+        assert!(text.contains("f1 "), "{text}");
+        assert!(
+            lines[23].contains("q/Esc quit") && lines[23].contains("? help"),
+            "{}",
+            lines[23]
+        );
+        // Neighbour rows carry the distance of the first neighbour.
+        let d = format!("{:.4}", app.neighbours[0].distance);
+        assert!(text.contains(&d), "{d} in {text}");
+    }
+
+    #[test]
+    fn search_open_back_and_forward() {
+        let mut app = demo_app();
+        press(&mut app, KeyCode::Char('/'));
+        assert_eq!(app.mode, Mode::Search);
+        for c in "lentil".chars() {
+            press(&mut app, KeyCode::Char(c));
+        }
+        press(&mut app, KeyCode::Enter);
+        assert_eq!(app.mode, Mode::Normal);
+        assert!(
+            app.visible.len() >= 2
+                && app
+                    .visible
+                    .iter()
+                    .all(|&j| app.title(j).to_lowercase().contains("lentil"))
+        );
+        let start = app.current.expect("an item is shown");
+        assert_eq!(start, app.visible[0], "the first match is shown");
+        press(&mut app, KeyCode::Tab);
+        assert_eq!(app.focus, Pane::Neighbours);
+        press(&mut app, KeyCode::Down);
+        let target = app.neighbours[1].item;
+        press(&mut app, KeyCode::Enter);
+        assert_eq!(app.current, Some(target));
+        press(&mut app, KeyCode::Char('['));
+        assert_eq!(app.current, Some(start));
+        press(&mut app, KeyCode::Char(']'));
+        assert_eq!(app.current, Some(target));
+        press(&mut app, KeyCode::Char('m'));
+        assert!(screen(&mut app, 100, 30).contains("· cosine"));
+        press(&mut app, KeyCode::Char('?'));
+        assert!(screen(&mut app, 100, 30).contains("show or hide this help"));
+        press(&mut app, KeyCode::Esc);
+        assert_eq!(app.mode, Mode::Normal);
+        assert!(!app.quit);
+        press(&mut app, KeyCode::Char('q'));
+        assert!(app.quit);
+    }
+
+    #[test]
+    fn a_tiny_window_says_so() {
+        let mut app = demo_app();
+        assert!(screen(&mut app, 40, 8).contains("window too small"));
+    }
+
+    #[test]
+    fn thousands_of_random_keys_and_sizes_never_panic() {
+        let mut app = demo_app();
+        let mut rng = sextant::rng::Rng::new(2024);
+        let keys = [
+            KeyCode::Up,
+            KeyCode::Down,
+            KeyCode::Left,
+            KeyCode::Right,
+            KeyCode::PageUp,
+            KeyCode::PageDown,
+            KeyCode::Home,
+            KeyCode::End,
+            KeyCode::Enter,
+            KeyCode::Tab,
+            KeyCode::BackTab,
+            KeyCode::Backspace,
+            KeyCode::Esc,
+            KeyCode::Char('/'),
+            KeyCode::Char('?'),
+            KeyCode::Char('['),
+            KeyCode::Char(']'),
+            KeyCode::Char('m'),
+            KeyCode::Char('+'),
+            KeyCode::Char('-'),
+            KeyCode::Char('o'),
+            KeyCode::Char('x'),
+            KeyCode::Char('g'),
+            KeyCode::Char('G'),
+            KeyCode::Char('s'),
+            KeyCode::Char('é'),
+            KeyCode::F(5),
+        ];
+        for step in 0..4000 {
+            let code = keys[rng.below(keys.len() as u64) as usize];
+            if code == KeyCode::Esc && app.mode == Mode::Normal {
+                continue; // Esc would quit; the point is to keep going.
+            }
+            handle_key(&mut app, KeyEvent::new(code, KeyModifiers::NONE));
+            app.quit = false;
+            if step % 50 == 0 {
+                let (w, h) = (1 + rng.below(160) as u16, 1 + rng.below(60) as u16);
+                screen(&mut app, w, h);
+            }
+        }
+    }
+}

@@ -1,0 +1,79 @@
+//! The current item's factor values as signed horizontal bars around a centre line.
+
+use ratatui::Frame;
+use ratatui::layout::Rect;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::Paragraph;
+
+use super::{framed, inner};
+use crate::tui::app::{App, Pane};
+use crate::tui::theme::Theme;
+
+/// A bar of `value / scale` of `half` cells, drawn leftwards for negative values.
+pub fn signed_bar(value: f64, scale: f64, half: usize) -> (String, String) {
+    let cells = if scale > 0.0 {
+        (value.abs() / scale * half as f64).round() as usize
+    } else {
+        0
+    };
+    let cells = cells.min(half);
+    let bar = "█".repeat(cells);
+    if value < 0.0 {
+        (format!("{bar:>half$}"), " ".repeat(half))
+    } else {
+        (" ".repeat(half), format!("{bar:<half$}"))
+    }
+}
+
+/// Draws the loadings pane.
+pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let title = " Loadings · factor values of the current item ".to_owned();
+    frame.render_widget(framed(title, app.focus == Pane::Loadings, theme), area);
+    let body = inner(area);
+    let Some(j) = app.current else { return };
+    let values = app.model.factors.item(j);
+    let scale = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let half = (body.width as usize).saturating_sub(14) / 2;
+    let height = body.height as usize;
+    let start = app.factor_selected.saturating_sub(height.saturating_sub(1));
+    let lines: Vec<Line<'_>> = values
+        .iter()
+        .enumerate()
+        .skip(start)
+        .take(height)
+        .map(|(d, &v)| {
+            let (left, right) = signed_bar(v, scale, half);
+            let label = format!("f{:<3}{:>+7.3} ", d + 1, v);
+            let label = if d == app.factor_selected && app.focus == Pane::Loadings {
+                Span::styled(label, theme.selected())
+            } else {
+                Span::raw(label)
+            };
+            Line::from(vec![
+                label,
+                Span::styled(left, theme.negative()),
+                Span::styled("│", theme.muted()),
+                Span::styled(right, theme.positive()),
+            ])
+        })
+        .collect();
+    frame.render_widget(Paragraph::new(lines), body);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn bars_point_the_right_way() {
+        assert_eq!(
+            signed_bar(1.0, 1.0, 4),
+            ("    ".to_owned(), "████".to_owned())
+        );
+        assert_eq!(
+            signed_bar(-0.5, 1.0, 4),
+            ("  ██".to_owned(), "    ".to_owned())
+        );
+        assert_eq!(signed_bar(0.0, 0.0, 2), ("  ".to_owned(), "  ".to_owned()));
+    }
+}

@@ -1,0 +1,44 @@
+//! One file per pane; each draws ready-made rows from the `App` and changes nothing.
+
+pub mod catalogue;
+pub mod help;
+pub mod loadings;
+pub mod neighbours;
+pub mod status_bar;
+
+use ratatui::layout::Rect;
+use ratatui::widgets::{Block, Borders};
+
+use super::theme::Theme;
+
+/// A bordered block with a title, highlighted when focused.
+pub fn framed(title: String, focused: bool, theme: Theme) -> Block<'static> {
+    Block::default()
+        .borders(Borders::ALL)
+        .border_style(theme.border(focused))
+        .title(title)
+        .title_style(theme.title())
+}
+
+/// First row of a window of `height` rows that keeps `selected` visible, roughly centred.
+pub fn window_start(selected: usize, len: usize, height: usize) -> usize {
+    if len <= height || height == 0 {
+        return 0;
+    }
+    selected.saturating_sub(height / 2).min(len - height)
+}
+
+/// Cuts `text` to `width` characters, marking the cut with an ellipsis.
+pub fn fit(text: &str, width: usize) -> String {
+    if text.chars().count() <= width {
+        return text.to_owned();
+    }
+    let mut out: String = text.chars().take(width.saturating_sub(1)).collect();
+    out.push('…');
+    out
+}
+
+/// The inner area of a bordered block.
+pub fn inner(area: Rect) -> Rect {
+    Block::default().borders(Borders::ALL).inner(area)
+}

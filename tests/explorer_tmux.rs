@@ -1,0 +1,115 @@
+//! The real binary in a real terminal (tmux): open the demo, search, jump to a neighbour
+//! and back, open help, quit — and check the terminal came back (echo and line mode on).
+//! `.ci/run` installs tmux when it is missing.
+#![allow(clippy::unwrap_used, clippy::expect_used)]
+
+use std::process::Command;
+use std::thread::sleep;
+use std::time::{Duration, Instant};
+
+struct Session(String);
+
+impl Session {
+    fn start(name: &str, command: &str) -> Self {
+        let _ = Command::new("tmux")
+            .args(["kill-session", "-t", name])
+            .output();
+        let status = Command::new("tmux")
+            .args([
+                "new-session",
+                "-d",
+                "-x",
+                "120",
+                "-y",
+                "40",
+                "-s",
+                name,
+                command,
+            ])
+            .status()
+            .expect("tmux runs (install it: apt-get install tmux)");
+        assert!(status.success());
+        Self(name.to_owned())
+    }
+
+    fn keys(&self, keys: &[&str]) {
+        for key in keys {
+            let status = Command::new("tmux")
+                .args(["send-keys", "-t", &self.0, key])
+                .status()
+                .unwrap();
+            assert!(status.success());
+            sleep(Duration::from_millis(120));
+        }
+    }
+
+    fn screen(&self) -> String {
+        let out = Command::new("tmux")
+            .args(["capture-pane", "-p", "-t", &self.0])
+            .output()
+            .unwrap();
+        String::from_utf8_lossy(&out.stdout).into_owned()
+    }
+
+    /// Waits until the screen contains `text` (the binary may take a moment to start).
+    fn wait_for(&self, text: &str) -> String {
+        let start = Instant::now();
+        loop {
+            let screen = self.screen();
+            if screen.contains(text) {
+                return screen;
+            }
+            assert!(
+                start.elapsed() < Duration::from_secs(20),
+                "waited for {text:?}; screen:\n{screen}"
+            );
+            sleep(Duration::from_millis(100));
+        }
+    }
+}
+
+impl Drop for Session {
+    fn drop(&mut self) {
+        let _ = Command::new("tmux")
+            .args(["kill-session", "-t", &self.0])
+            .output();
+    }
+}
+
+#[test]
+fn explore_the_demo_and_leave_the_terminal_as_it_was() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    let script = format!(
+        "'{binary}'; echo EXITED $?; stty -a | tr ' ' '\\n' | grep -x -e echo -e icanon | tr '\\n' ' '; echo; sleep 30"
+    );
+    let session = Session::start(
+        "sextant-e2e",
+        &format!("sh -c \"{}\"", script.replace('"', "\\\"")),
+    );
+    session.wait_for("Catalogue · 400 items");
+    session.keys(&["/", "l", "e", "n", "t", "i", "l", "Enter"]);
+    let screen = session.wait_for("match 'lentil'");
+    assert!(screen.contains("Lentil"), "{screen}");
+    session.keys(&["Tab", "j", "Enter"]);
+    let jumped = session.screen();
+    session.keys(&["["]);
+    let back = session.screen();
+    assert_ne!(
+        jumped.lines().nth(1),
+        back.lines().nth(1),
+        "jump and back show different items"
+    );
+    session.keys(&["?"]);
+    session.wait_for("show or hide this help");
+    session.keys(&["Escape", "q"]);
+    let after = session.wait_for("EXITED");
+    assert!(after.contains("EXITED 0"), "{after}");
+    let modes = after
+        .lines()
+        .find(|l| l.contains("icanon"))
+        .unwrap_or_default();
+    assert!(
+        modes.split_whitespace().any(|w| w == "echo") && modes.contains("icanon"),
+        "terminal modes restored: {after}"
+    );
+}
