@@ -1,5 +1,5 @@
 //! The real binary in a real terminal (tmux): open the demo, search, jump to a neighbour
-//! and back, open help, quit — and check the terminal came back (echo and line mode on).
+//! and back, open a member and their explanation, open help, quit — and check the terminal came back (echo and line mode on).
 //! `.ci/run` installs tmux when it is missing.
 #![allow(clippy::unwrap_used, clippy::expect_used)]
 
@@ -99,6 +99,16 @@ fn explore_the_demo_and_leave_the_terminal_as_it_was() {
         back.lines().nth(1),
         "jump and back show different items"
     );
+    session.keys(&["u", "m", "0", "0", "0", "1", "Enter"]);
+    let member = session.wait_for("Member m0001");
+    assert!(
+        member.contains("Why")
+            && member.contains("predicted")
+            && member.contains("support: member"),
+        "{member}"
+    );
+    session.keys(&["1"]);
+    session.wait_for("Catalogue ·");
     session.keys(&["?"]);
     session.wait_for("show or hide this help");
     session.keys(&["Escape", "q"]);

@@ -94,6 +94,31 @@ pub fn fit_metrics(
     })
 }
 
+/// Counts of training residuals `actual − predicted` in `bins` equal bins over
+/// `[-limit, limit]`; residuals outside go to the end bins. Returns (bin centre, count).
+pub fn residual_histogram(
+    model: &FactorModel,
+    ratings: &Ratings,
+    bins: usize,
+    limit: f64,
+) -> Vec<(f64, u64)> {
+    let bins = bins.max(1);
+    let width = 2.0 * limit / bins as f64;
+    let mut counts = vec![0u64; bins];
+    for r in ratings.entries.iter().filter(|r| !r.holdout) {
+        let residual = r.value - model.predict(r.user, r.item);
+        let at = ((residual + limit) / width)
+            .floor()
+            .clamp(0.0, (bins - 1) as f64) as usize;
+        counts[at] += 1;
+    }
+    counts
+        .into_iter()
+        .enumerate()
+        .map(|(k, c)| (-limit + (k as f64 + 0.5) * width, c))
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -3,10 +3,12 @@
 
 pub mod explain;
 pub mod metrics;
+pub mod projection;
 pub mod subspace;
 pub mod suggest;
 
 pub use explain::{Explanation, Posterior, cosine, explain};
 pub use metrics::{ErrorMetrics, FitMetrics, error_metrics, fit_metrics};
+pub use projection::{Projection, pca_2d};
 pub use subspace::principal_angles;
 pub use suggest::{Suggestion, suggest};

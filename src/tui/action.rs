@@ -42,4 +42,16 @@ pub enum Action {
     FewerNeighbours,
     /// Cycle the catalogue order (title, category, rating count).
     CycleSort,
+    /// Show the item screen (catalogue, neighbours, loadings).
+    ShowItems,
+    /// Show the member screen.
+    ShowMember,
+    /// Show the 2-D map.
+    ShowMap,
+    /// Show the fit's health.
+    ShowFit,
+    /// Type a member id to open.
+    FindMember,
+    /// Order the member's ratings by size of residual, or by item.
+    ToggleResidualOrder,
 }

@@ -1,8 +1,10 @@
 //! The explorer's state and the one place it changes (`App::update`). Derived rows
 //! (neighbours, loadings) are recomputed when the selection changes, never per frame.
 
-use sextant::analysis::cosine;
-use sextant::index::{Metric, NeighbourIndex, Path, squared_distance};
+use sextant::analysis::explain::{Explanation, explain};
+use sextant::analysis::metrics::residual_histogram;
+use sextant::analysis::{Projection, Suggestion, cosine, pca_2d, suggest};
+use sextant::index::{InnerProductIndex, Metric, NeighbourIndex, Path, squared_distance};
 use sextant::model::Model;
 
 use super::action::Action;
@@ -27,8 +29,59 @@ pub enum Mode {
     Normal,
     /// Typing a catalogue filter.
     Search,
+    /// Typing a member id.
+    MemberPrompt,
     /// The help overlay is open.
     Help,
+}
+
+/// Which screen is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Screen {
+    /// Catalogue, neighbours, loadings.
+    Items,
+    /// One member: ratings, suggestions, explanation.
+    Member,
+    /// The items' 2-D map.
+    Map,
+    /// The fit's health.
+    Fit,
+}
+
+/// One of the member's ratings, ready to draw.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RatedRow {
+    /// The item.
+    pub item: u32,
+    /// The member's rating.
+    pub actual: f64,
+    /// The raw prediction.
+    pub predicted: f64,
+    /// The prediction on the scale.
+    pub rounded: f64,
+    /// `actual − predicted`.
+    pub residual: f64,
+    /// True for a held-out rating.
+    pub holdout: bool,
+}
+
+/// The member screen's state.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MemberView {
+    /// The member.
+    pub user: u32,
+    /// Their ratings.
+    pub rated: Vec<RatedRow>,
+    /// Their top suggestions.
+    pub suggestions: Vec<Suggestion>,
+    /// Highlighted row of the focused list.
+    pub selected: usize,
+    /// True when the suggestions list has focus (else the ratings).
+    pub in_suggestions: bool,
+    /// Ratings ordered by |residual| (else by item title).
+    pub by_residual: bool,
+    /// Explanation of the highlighted item.
+    pub explanation: Option<Explanation>,
 }
 
 /// Catalogue order.
@@ -99,6 +152,21 @@ pub struct App {
     pub quit: bool,
     euclidean: Option<NeighbourIndex>,
     cosine: Option<NeighbourIndex>,
+    /// The screen shown.
+    pub screen: Screen,
+    /// The open member, if any.
+    pub member: Option<MemberView>,
+    /// The member id being typed.
+    pub member_input: String,
+    /// The items' PCA map, computed the first time the map is shown.
+    pub projection: Option<Projection>,
+    /// Map zoom (1 = everything) and centre in map coordinates.
+    pub map_zoom: f64,
+    /// Map centre.
+    pub map_centre: [f64; 2],
+    /// Training residuals in bins (centre, count).
+    pub histogram: Vec<(f64, u64)>,
+    suggestions_index: Option<InnerProductIndex>,
 }
 
 impl App {
@@ -129,7 +197,16 @@ impl App {
             quit: false,
             euclidean: None,
             cosine: None,
+            screen: Screen::Items,
+            member: None,
+            member_input: String::new(),
+            projection: None,
+            map_zoom: 1.0,
+            map_centre: [0.0, 0.0],
+            histogram: Vec::new(),
+            suggestions_index: None,
         };
+        app.histogram = residual_histogram(&app.model.factors, &app.model.ratings, 21, 3.0);
         app.sort_catalogue();
         app.select_in_catalogue(0);
         app
@@ -171,6 +248,59 @@ impl App {
                 } else {
                     Mode::Help
                 }
+            }
+            Action::FocusNextPane | Action::FocusPreviousPane if self.screen == Screen::Member => {
+                if let Some(m) = &mut self.member {
+                    m.in_suggestions = !m.in_suggestions;
+                    m.selected = 0;
+                }
+                self.explain_selected();
+            }
+            Action::SelectNext | Action::SelectPrevious | Action::PageDown | Action::PageUp
+                if self.screen == Screen::Map =>
+            {
+                self.pan(action);
+            }
+            Action::MoreNeighbours if self.screen == Screen::Map => {
+                self.map_zoom = (self.map_zoom * 1.5).min(200.0);
+            }
+            Action::FewerNeighbours if self.screen == Screen::Map => {
+                self.map_zoom = (self.map_zoom / 1.5).max(1.0);
+            }
+            Action::SelectNext
+            | Action::SelectPrevious
+            | Action::PageDown
+            | Action::PageUp
+            | Action::SelectFirst
+            | Action::SelectLast
+                if self.screen == Screen::Member =>
+            {
+                self.move_in_member(action);
+            }
+            Action::ShowItems => self.screen = Screen::Items,
+            Action::ShowMember => {
+                self.screen = Screen::Member;
+                if self.member.is_none() {
+                    self.status = "press u to open a member by id".into();
+                }
+            }
+            Action::ShowMap => {
+                if self.projection.is_none() {
+                    let f = &self.model.factors;
+                    self.projection = Some(pca_2d(&f.items, f.rank));
+                }
+                self.screen = Screen::Map;
+            }
+            Action::ShowFit => self.screen = Screen::Fit,
+            Action::FindMember => {
+                self.mode = Mode::MemberPrompt;
+                self.member_input.clear();
+            }
+            Action::ToggleResidualOrder => {
+                if let Some(m) = &mut self.member {
+                    m.by_residual = !m.by_residual;
+                }
+                self.sort_member_ratings();
             }
             Action::FocusNextPane => self.focus = PANES[(self.focus_index() + 1) % PANES.len()],
             Action::FocusPreviousPane => {
@@ -235,6 +365,153 @@ impl App {
                 self.mode = Mode::Normal;
                 self.set_filter(String::new());
             }
+        }
+    }
+
+    /// A typed character or editing key while typing a member id.
+    pub fn member_prompt_input(&mut self, edit: SearchEdit) {
+        match edit {
+            SearchEdit::Insert(c) => self.member_input.push(c),
+            SearchEdit::Delete => {
+                self.member_input.pop();
+            }
+            SearchEdit::Cancel => self.mode = Mode::Normal,
+            SearchEdit::Accept => {
+                self.mode = Mode::Normal;
+                let id = self.member_input.trim().to_owned();
+                if let Some(user) = self.model.ratings.users.get(&id) {
+                    self.open_member(user);
+                } else {
+                    let close = self.model.ratings.users.closest(&id, 3).join(", ");
+                    self.status = format!("no member '{id}'; closest: {close}");
+                }
+            }
+        }
+    }
+
+    /// Opens member `user` on the member screen.
+    pub fn open_member(&mut self, user: u32) {
+        let model = &self.model;
+        let entries = &model.ratings.entries;
+        let start = entries.partition_point(|r| r.user < user);
+        let rated = entries[start..]
+            .iter()
+            .take_while(|r| r.user == user)
+            .map(|r| {
+                let predicted = model.factors.predict(user, r.item);
+                RatedRow {
+                    item: r.item,
+                    actual: r.value,
+                    predicted,
+                    rounded: model.manifest.scale.round(predicted),
+                    residual: r.value - predicted,
+                    holdout: r.holdout,
+                }
+            })
+            .collect();
+        let f = &model.factors;
+        let index = self
+            .suggestions_index
+            .get_or_insert_with(|| InnerProductIndex::build(&f.items, f.rank, Path::Auto));
+        let suggestions = suggest(model, index, user, 10, false);
+        self.member = Some(MemberView {
+            user,
+            rated,
+            suggestions,
+            selected: 0,
+            in_suggestions: false,
+            by_residual: true,
+            explanation: None,
+        });
+        self.sort_member_ratings();
+        self.screen = Screen::Member;
+    }
+
+    fn sort_member_ratings(&mut self) {
+        let Some(mut m) = self.member.take() else {
+            return;
+        };
+        if m.by_residual {
+            m.rated.sort_by(|a, b| {
+                b.residual
+                    .abs()
+                    .total_cmp(&a.residual.abs())
+                    .then(a.item.cmp(&b.item))
+            });
+        } else {
+            m.rated
+                .sort_by_cached_key(|r| (self.title(r.item).to_lowercase(), r.item));
+        }
+        m.selected = 0;
+        self.member = Some(m);
+        self.explain_selected();
+    }
+
+    fn move_in_member(&mut self, action: Action) {
+        let page = self.page as isize;
+        let Some(m) = &mut self.member else { return };
+        let len = if m.in_suggestions {
+            m.suggestions.len()
+        } else {
+            m.rated.len()
+        };
+        if len == 0 {
+            return;
+        }
+        let delta = match action {
+            Action::SelectNext => 1,
+            Action::SelectPrevious => -1,
+            Action::PageDown => page,
+            Action::PageUp => -page,
+            Action::SelectFirst => isize::MIN / 2,
+            _ => isize::MAX / 2,
+        };
+        m.selected = (m.selected as isize)
+            .saturating_add(delta)
+            .clamp(0, len as isize - 1) as usize;
+        self.explain_selected();
+    }
+
+    /// The item highlighted on the member screen.
+    pub fn member_item(&self) -> Option<u32> {
+        let m = self.member.as_ref()?;
+        if m.in_suggestions {
+            m.suggestions.get(m.selected).map(|s| s.item)
+        } else {
+            m.rated.get(m.selected).map(|r| r.item)
+        }
+    }
+
+    fn explain_selected(&mut self) {
+        let Some(item) = self.member_item() else {
+            return;
+        };
+        let Some(user) = self.member.as_ref().map(|m| m.user) else {
+            return;
+        };
+        let explanation = explain(&self.model, user, item, 3, &self.item_counts);
+        if let Some(m) = &mut self.member {
+            m.explanation = Some(explanation);
+        }
+    }
+
+    fn pan(&mut self, action: Action) {
+        let Some(p) = &self.projection else { return };
+        let spread = |k: usize| {
+            let (lo, hi) = p
+                .points
+                .iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), q| {
+                    (lo.min(q[k]), hi.max(q[k]))
+                });
+            (hi - lo).max(f64::MIN_POSITIVE)
+        };
+        let step = 0.1 / self.map_zoom;
+        match action {
+            Action::SelectNext => self.map_centre[1] -= step * spread(1),
+            Action::SelectPrevious => self.map_centre[1] += step * spread(1),
+            Action::PageDown => self.map_centre[0] += step * spread(0),
+            _ => self.map_centre[0] -= step * spread(0),
         }
     }
 

@@ -71,6 +71,24 @@ pub fn handle_key(app: &mut App, key: KeyEvent) {
                 app.search_input(edit);
             }
         }
+        Mode::MemberPrompt => {
+            let edit = match key.code {
+                KeyCode::Enter => Some(SearchEdit::Accept),
+                KeyCode::Esc => Some(SearchEdit::Cancel),
+                KeyCode::Backspace => Some(SearchEdit::Delete),
+                KeyCode::Char(c)
+                    if !key
+                        .modifiers
+                        .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
+                {
+                    Some(SearchEdit::Insert(c))
+                }
+                _ => None,
+            };
+            if let Some(edit) = edit {
+                app.member_prompt_input(edit);
+            }
+        }
         Mode::Help => {
             if matches!(key.code, KeyCode::Esc | KeyCode::Char('?' | 'q')) {
                 app.mode = Mode::Normal;
@@ -104,6 +122,21 @@ pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
         Constraint::Length(1),
     ])
     .areas(area);
+    render_header(app, frame, header, theme);
+    panes::status_bar::render(app, frame, status, theme);
+    match app.screen {
+        app::Screen::Items => render_items(app, frame, body, theme),
+        app::Screen::Member => panes::member::render(app, frame, body, theme),
+        app::Screen::Map => panes::map::render(app, frame, body, theme),
+        app::Screen::Fit => panes::fit::render(app, frame, body, theme),
+    }
+    if app.mode == Mode::Help {
+        panes::help::render(frame, area, theme);
+    }
+}
+
+/// The item screen: catalogue on the left, neighbours over loadings on the right.
+fn render_items(app: &mut App, frame: &mut Frame<'_>, body: Rect, theme: Theme) {
     let [left, right] =
         Layout::horizontal([Constraint::Percentage(48), Constraint::Percentage(52)]).areas(body);
     let loadings_height = (app.model.factors.rank as u16 + 2)
@@ -112,20 +145,29 @@ pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
     let [upper, lower] =
         Layout::vertical([Constraint::Min(0), Constraint::Length(loadings_height)]).areas(right);
     app.page = panes::inner(left).height.max(1) as usize;
-    render_header(app, frame, header, theme);
     panes::catalogue::render(app, frame, left, theme);
     panes::neighbours::render(app, frame, upper, theme);
     panes::loadings::render(app, frame, lower, theme);
-    panes::status_bar::render(app, frame, status, theme);
-    if app.mode == Mode::Help {
-        panes::help::render(frame, area, theme);
-    }
 }
 
 fn render_header(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let m = &app.model.manifest;
+    let tab = |screen: app::Screen, name: &str| {
+        if app.screen == screen {
+            format!("[{name}]")
+        } else {
+            format!(" {name} ")
+        }
+    };
+    let tabs = format!(
+        "{}{}{}{}",
+        tab(app::Screen::Items, "1 items"),
+        tab(app::Screen::Member, "2 member"),
+        tab(app::Screen::Map, "3 map"),
+        tab(app::Screen::Fit, "4 fit")
+    );
     let text = format!(
-        " sextant · {} · {} items · {} members · rank {} · held-out RMSE {}",
+        " sextant {tabs} · {} · {} items · {} members · rank {} · held-out RMSE {}",
         app.label,
         m.counts.items,
         m.counts.users,
@@ -182,7 +224,7 @@ mod tests {
         let text = screen(&mut app, 80, 24);
         let lines: Vec<&str> = text.lines().collect();
         assert!(
-            lines[0].starts_with(" sextant · demo · 400 items · 1500 members · rank 10"),
+            lines[0].starts_with(" sextant [1 items] 2 member  3 map  4 fit  · demo · 400 items"),
             "{}",
             lines[0]
         );
@@ -254,6 +296,75 @@ mod tests {
         assert!(!app.quit);
         press(&mut app, KeyCode::Char('q'));
         assert!(app.quit);
+    }
+
+    #[test]
+    fn member_map_and_fit_screens_show_their_numbers() {
+        let mut app = demo_app();
+        press(&mut app, KeyCode::Char('u'));
+        assert_eq!(app.mode, Mode::MemberPrompt);
+        for c in "m0001".chars() {
+            press(&mut app, KeyCode::Char(c));
+        }
+        press(&mut app, KeyCode::Enter);
+        let m = app.member.as_ref().expect("member open");
+        assert_eq!(app.model.ratings.users.name(m.user), "m0001");
+        assert!(
+            m.rated
+                .windows(2)
+                .all(|w| w[0].residual.abs() >= w[1].residual.abs()),
+            "largest misses first"
+        );
+        let e = m
+            .explanation
+            .clone()
+            .expect("explanation of the highlighted rating");
+        assert_eq!(e.item, m.rated[0].item);
+        let text = screen(&mut app, 110, 32);
+        assert!(text.contains("Member m0001"), "{text}");
+        assert!(text.contains("Suggestions"), "{text}");
+        assert!(
+            text.contains(&format!("predicted {:.2}", e.predicted)),
+            "{text}"
+        );
+        press(&mut app, KeyCode::Tab);
+        press(&mut app, KeyCode::Down);
+        let m = app.member.as_ref().expect("member open");
+        assert!(m.in_suggestions);
+        assert_eq!(
+            m.explanation.as_ref().map(|e| e.item),
+            Some(m.suggestions[1].item)
+        );
+        // An unknown member is reported, and the app keeps running.
+        press(&mut app, KeyCode::Char('u'));
+        for c in "m01".chars() {
+            press(&mut app, KeyCode::Char(c));
+        }
+        press(&mut app, KeyCode::Enter);
+        assert!(
+            app.status.starts_with("no member 'm01'; closest:"),
+            "{}",
+            app.status
+        );
+        press(&mut app, KeyCode::Char('4'));
+        let text = screen(&mut app, 110, 32);
+        assert!(text.contains("326 iterations, converged"), "{text}");
+        assert!(
+            text.contains(&format!("{:.4}", app.model.manifest.metrics.train.rmse)),
+            "{text}"
+        );
+        press(&mut app, KeyCode::Char('3'));
+        let ratio = app
+            .projection
+            .as_ref()
+            .expect("projection computed on first view")
+            .explained_ratio[0];
+        let text = screen(&mut app, 110, 32);
+        assert!(text.contains(&format!("x {:.0}%", 100.0 * ratio)), "{text}");
+        press(&mut app, KeyCode::Char('+'));
+        assert!(app.map_zoom > 1.0);
+        press(&mut app, KeyCode::Char('1'));
+        assert!(screen(&mut app, 110, 32).contains("Catalogue"));
     }
 
     #[test]

@@ -1,8 +1,11 @@
 //! One file per pane; each draws ready-made rows from the `App` and changes nothing.
 
 pub mod catalogue;
+pub mod fit;
 pub mod help;
 pub mod loadings;
+pub mod map;
+pub mod member;
 pub mod neighbours;
 pub mod status_bar;
 

@@ -19,6 +19,12 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             Span::styled("▏", theme.key()),
             Span::styled("   Enter keep · Esc drop", theme.muted()),
         ]),
+        Mode::MemberPrompt => Line::from(vec![
+            Span::styled("member id: ", theme.key()),
+            Span::raw(app.member_input.clone()),
+            Span::styled("▏", theme.key()),
+            Span::styled("   Enter open · Esc cancel", theme.muted()),
+        ]),
         _ if !app.status.is_empty() => Line::styled(app.status.clone(), theme.warning()),
         _ => {
             let mut spans = Vec::new();

@@ -1,0 +1,196 @@
+//! The fit's health: the log joint likelihood and RMSE per iteration, accuracy on training
+//! and held-out ratings, the residual histogram and how many users and items are thin.
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::Style;
+use ratatui::symbols::Marker;
+use ratatui::text::Line;
+use ratatui::widgets::{Axis, Bar, BarChart, BarGroup, Chart, Dataset, GraphType, Paragraph};
+
+use super::{framed, inner};
+use crate::tui::app::App;
+use crate::tui::theme::Theme;
+
+fn bounds(values: impl Iterator<Item = f64>) -> [f64; 2] {
+    let (lo, hi) = values.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+        (lo.min(v), hi.max(v))
+    });
+    if lo.is_finite() && hi > lo {
+        [lo, hi]
+    } else if lo.is_finite() {
+        [lo - 1.0, lo + 1.0]
+    } else {
+        [0.0, 1.0]
+    }
+}
+
+/// Draws the fit screen.
+pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let m = &app.model.manifest;
+    let [top, bottom] =
+        Layout::vertical([Constraint::Percentage(55), Constraint::Percentage(45)]).areas(area);
+    let [l_area, rmse_area] =
+        Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(top);
+    let [metrics_area, histogram_area] =
+        Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(bottom);
+
+    let trace = &m.trace;
+    let iters = [1.0, trace.len().max(2) as f64];
+    if trace.is_empty() {
+        let note = "imported model: no fitting trace";
+        frame.render_widget(
+            Paragraph::new(note).block(framed(" Log joint likelihood ".into(), false, theme)),
+            l_area,
+        );
+        frame.render_widget(
+            Paragraph::new(note).block(framed(" RMSE ".into(), false, theme)),
+            rmse_area,
+        );
+    } else {
+        let l: Vec<(f64, f64)> = trace.iter().map(|r| (r.iter as f64, r.log_joint)).collect();
+        let yb = bounds(l.iter().map(|p| p.1));
+        let chart = Chart::new(vec![
+            Dataset::default()
+                .marker(Marker::Braille)
+                .graph_type(GraphType::Line)
+                .style(theme.positive())
+                .data(&l),
+        ])
+        .block(framed(
+            format!(
+                " Log joint likelihood · {} iterations{} ",
+                trace.len(),
+                if m.converged { ", converged" } else { "" }
+            ),
+            false,
+            theme,
+        ))
+        .x_axis(
+            Axis::default()
+                .bounds(iters)
+                .labels(vec![Line::raw("1"), Line::raw(trace.len().to_string())]),
+        )
+        .y_axis(Axis::default().bounds(yb).labels(vec![
+            Line::raw(format!("{:.0}", yb[0])),
+            Line::raw(format!("{:.0}", yb[1])),
+        ]));
+        frame.render_widget(chart, l_area);
+        let train: Vec<(f64, f64)> = trace
+            .iter()
+            .map(|r| (r.iter as f64, r.train_rmse))
+            .collect();
+        let held: Vec<(f64, f64)> = trace
+            .iter()
+            .filter_map(|r| r.holdout_rmse.map(|h| (r.iter as f64, h)))
+            .collect();
+        let yb = bounds(train.iter().chain(&held).map(|p| p.1));
+        let mut sets = vec![
+            Dataset::default()
+                .name("train")
+                .marker(Marker::Braille)
+                .graph_type(GraphType::Line)
+                .style(theme.positive())
+                .data(&train),
+        ];
+        if !held.is_empty() {
+            sets.push(
+                Dataset::default()
+                    .name("held out")
+                    .marker(Marker::Braille)
+                    .graph_type(GraphType::Line)
+                    .style(theme.negative())
+                    .data(&held),
+            );
+        }
+        let chart = Chart::new(sets)
+            .block(framed(" RMSE per iteration ".into(), false, theme))
+            .x_axis(
+                Axis::default()
+                    .bounds(iters)
+                    .labels(vec![Line::raw("1"), Line::raw(trace.len().to_string())]),
+            )
+            .y_axis(Axis::default().bounds(yb).labels(vec![
+                Line::raw(format!("{:.3}", yb[0])),
+                Line::raw(format!("{:.3}", yb[1])),
+            ]));
+        frame.render_widget(chart, rmse_area);
+    }
+
+    let row = |name: &str, e: Option<&sextant::analysis::ErrorMetrics>| match e {
+        Some(e) => format!(
+            "{name:<9}{:>7.4}{:>7.4}{:>8.4}{:>8.4}{:>7.1}%",
+            e.rmse,
+            e.mae,
+            e.rmse_rounded,
+            e.mae_rounded,
+            100.0 * e.exact_rate
+        ),
+        None => format!("{name:<9}{:>7}", "–"),
+    };
+    let lines = vec![
+        Line::styled(
+            format!(
+                "{:<9}{:>7}{:>7}{:>8}{:>8}{:>8}",
+                "", "RMSE", "MAE", "RMSE·r", "MAE·r", "exact"
+            ),
+            theme.muted(),
+        ),
+        Line::raw(row("train", Some(&m.metrics.train))),
+        Line::raw(row("held out", m.metrics.holdout.as_ref())),
+        Line::raw(""),
+        Line::raw(format!(
+            "rank {} · λ {} · σ² {} · μ {:.3}",
+            m.rank, m.lambda, m.sigma2, m.mu
+        )),
+        Line::styled(
+            format!(
+                "thin (fewer than {} ratings): {} members, {} items",
+                m.rank, m.metrics.low_support_users, m.metrics.low_support_items
+            ),
+            if m.metrics.low_support_users + m.metrics.low_support_items > 0 {
+                theme.warning()
+            } else {
+                Style::new()
+            },
+        ),
+        Line::styled(
+            "·r = predictions rounded onto the rating scale",
+            theme.muted(),
+        ),
+    ];
+    frame.render_widget(
+        Paragraph::new(lines).block(framed(" Accuracy ".into(), false, theme)),
+        metrics_area,
+    );
+
+    let bars: Vec<Bar<'_>> = app
+        .histogram
+        .iter()
+        .map(|&(centre, count)| {
+            Bar::default()
+                .value(count)
+                .text_value(String::new())
+                .label(Line::raw(if centre.abs() < 1e-9 {
+                    "0".to_owned()
+                } else {
+                    String::new()
+                }))
+        })
+        .collect();
+    let inner_width = inner(histogram_area).width as usize;
+    let bar_width = (inner_width / app.histogram.len().max(1))
+        .saturating_sub(1)
+        .max(1) as u16;
+    let chart = BarChart::default()
+        .block(framed(
+            " Training residuals, actual − predicted, −3 … +3 ".into(),
+            false,
+            theme,
+        ))
+        .data(BarGroup::default().bars(&bars))
+        .bar_width(bar_width)
+        .bar_gap(1)
+        .bar_style(theme.category());
+    frame.render_widget(chart, histogram_area);
+}
