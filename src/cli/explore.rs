@@ -15,9 +15,17 @@ pub struct ExploreArgs {
     /// The model directory.
     #[arg(value_name = "MODEL")]
     model: PathBuf,
+    /// Benchmark hook: instead of opening the terminal, time loading, the first frame and
+    /// this many further frames (each after a keystroke) on an off-screen 120×40 buffer, and
+    /// print the times as JSON.
+    #[arg(long, hide = true, value_name = "FRAMES")]
+    measure_frames: Option<usize>,
 }
 
 pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
+    if let Some(frames) = args.measure_frames {
+        return measure(args, frames);
+    }
     ensure_terminal()?;
     let model = load_model(&args.model)?;
     open(model, args.model.display().to_string())
@@ -40,5 +48,56 @@ fn ensure_terminal() -> Result<(), UsageError> {
 pub fn open(model: Model, label: String) -> anyhow::Result<()> {
     let app = tui::app::App::new(model, label);
     tui::run(app)?;
+    Ok(())
+}
+
+/// Times what a person waits for: load, first frame, and frames after keystrokes.
+fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
+    use ratatui::Terminal;
+    use ratatui::backend::TestBackend;
+    use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+    use std::time::Instant;
+
+    let start = Instant::now();
+    let model = load_model(&args.model)?;
+    let loaded = start.elapsed();
+    let mut app = tui::app::App::new(model, args.model.display().to_string());
+    let mut terminal = Terminal::new(TestBackend::new(120, 40))?;
+    let theme = tui::theme::Theme::plain();
+    terminal.draw(|frame| tui::render(&mut app, frame, theme))?;
+    let first = start.elapsed();
+    let keys = [
+        KeyCode::Down,
+        KeyCode::Down,
+        KeyCode::PageDown,
+        KeyCode::Tab,
+        KeyCode::Down,
+        KeyCode::Enter,
+        KeyCode::Char('['),
+    ];
+    let mut times = Vec::with_capacity(frames);
+    for k in 0..frames {
+        let t = Instant::now();
+        tui::handle_key(
+            &mut app,
+            KeyEvent::new(keys[k % keys.len()], KeyModifiers::NONE),
+        );
+        terminal.draw(|frame| tui::render(&mut app, frame, theme))?;
+        times.push(t.elapsed().as_secs_f64());
+    }
+    times.sort_by(f64::total_cmp);
+    let at = |q: f64| {
+        times
+            .get(((times.len() as f64 * q) as usize).min(times.len().saturating_sub(1)))
+            .copied()
+            .unwrap_or(0.0)
+    };
+    println!(
+        "{{\"load_s\": {}, \"first_frame_s\": {}, \"median_keystroke_frame_ms\": {}, \"p99_keystroke_frame_ms\": {}}}",
+        loaded.as_secs_f64(),
+        first.as_secs_f64(),
+        at(0.5) * 1e3,
+        at(0.99) * 1e3
+    );
     Ok(())
 }

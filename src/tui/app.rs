@@ -148,6 +148,15 @@ pub struct App {
     pub status: String,
     /// Rows a page moves (set from the last frame's list height).
     pub page: usize,
+    /// Where the last frame drew the catalogue and neighbour lists (for mouse clicks).
+    pub catalogue_area: ratatui::layout::Rect,
+    /// See `catalogue_area`.
+    pub neighbours_area: ratatui::layout::Rect,
+    /// Extent of the map, `[[x0, x1], [y0, y1]]`, and the distinct categories in order,
+    /// computed with the projection so that a frame does not walk the catalogue.
+    pub map_extent: [[f64; 2]; 2],
+    /// Distinct categories, sorted (map colours and legend).
+    pub categories: Vec<String>,
     /// True once the person asked to leave.
     pub quit: bool,
     euclidean: Option<NeighbourIndex>,
@@ -194,6 +203,10 @@ impl App {
             future: Vec::new(),
             status: String::new(),
             page: 10,
+            catalogue_area: ratatui::layout::Rect::default(),
+            neighbours_area: ratatui::layout::Rect::default(),
+            map_extent: [[0.0, 1.0], [0.0, 1.0]],
+            categories: Vec::new(),
             quit: false,
             euclidean: None,
             cosine: None,
@@ -207,6 +220,15 @@ impl App {
             suggestions_index: None,
         };
         app.histogram = residual_histogram(&app.model.factors, &app.model.ratings, 21, 3.0);
+        let mut categories: Vec<String> = app
+            .model
+            .meta
+            .iter()
+            .flat_map(|m| m.rows.iter().flatten().filter_map(|r| r.category.clone()))
+            .collect();
+        categories.sort_unstable();
+        categories.dedup();
+        app.categories = categories;
         app.sort_catalogue();
         app.select_in_catalogue(0);
         app
@@ -287,7 +309,16 @@ impl App {
             Action::ShowMap => {
                 if self.projection.is_none() {
                     let f = &self.model.factors;
-                    self.projection = Some(pca_2d(&f.items, f.rank));
+                    let p = pca_2d(&f.items, f.rank);
+                    let extent = |k: usize| {
+                        p.points
+                            .iter()
+                            .fold([f64::INFINITY, f64::NEG_INFINITY], |[lo, hi], q| {
+                                [lo.min(q[k]), hi.max(q[k])]
+                            })
+                    };
+                    self.map_extent = [extent(0), extent(1)];
+                    self.projection = Some(p);
                 }
                 self.screen = Screen::Map;
             }
@@ -512,6 +543,39 @@ impl App {
             Action::SelectPrevious => self.map_centre[1] += step * spread(1),
             Action::PageDown => self.map_centre[0] += step * spread(0),
             _ => self.map_centre[0] -= step * spread(0),
+        }
+    }
+
+    /// A mouse click at a screen position: selects the catalogue row or neighbour under it.
+    pub fn click(&mut self, column: u16, row: u16) {
+        let inside = |area: ratatui::layout::Rect| {
+            column > area.x
+                && column < area.right().saturating_sub(1)
+                && row > area.y
+                && row < area.bottom().saturating_sub(1)
+        };
+        if self.screen != Screen::Items {
+            return;
+        }
+        if inside(self.catalogue_area) {
+            self.focus = Pane::Catalogue;
+            let height = self.catalogue_area.height.saturating_sub(2) as usize;
+            let start =
+                super::panes::window_start(self.catalogue_selected, self.visible.len(), height);
+            let at = start + (row - self.catalogue_area.y - 1) as usize;
+            if at < self.visible.len() {
+                self.select_in_catalogue(at);
+            }
+        } else if inside(self.neighbours_area) {
+            self.focus = Pane::Neighbours;
+            // The first line of the pane is its column header.
+            let height = self.neighbours_area.height.saturating_sub(3) as usize;
+            let start =
+                super::panes::window_start(self.neighbour_selected, self.neighbours.len(), height);
+            let line = (row - self.neighbours_area.y - 1) as usize;
+            if line >= 1 && start + line - 1 < self.neighbours.len() {
+                self.neighbour_selected = start + line - 1;
+            }
         }
     }
 

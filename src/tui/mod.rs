@@ -28,8 +28,22 @@ pub const MIN_HEIGHT: u16 = 12;
 /// Runs the explorer until the person quits. The app (and its indexes) must be built
 /// before this is called, so that load errors print on the normal screen.
 pub fn run(mut app: App) -> io::Result<()> {
+    // Mouse capture is ours to undo: on the way out, and in a panic before ratatui's own
+    // hook restores the rest of the terminal.
+    let previous = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        let _ = ratatui::crossterm::execute!(
+            io::stdout(),
+            ratatui::crossterm::event::DisableMouseCapture
+        );
+        previous(info);
+    }));
     let mut terminal = ratatui::init();
-    let result = event_loop(&mut terminal, &mut app);
+    let mouse =
+        ratatui::crossterm::execute!(io::stdout(), ratatui::crossterm::event::EnableMouseCapture);
+    let result = mouse.and_then(|()| event_loop(&mut terminal, &mut app));
+    let _ =
+        ratatui::crossterm::execute!(io::stdout(), ratatui::crossterm::event::DisableMouseCapture);
     ratatui::restore();
     result
 }
@@ -40,6 +54,7 @@ fn event_loop(terminal: &mut DefaultTerminal, app: &mut App) -> io::Result<()> {
         terminal.draw(|frame| render(app, frame, theme))?;
         match event::read()? {
             Event::Key(key) if key.kind == KeyEventKind::Press => handle_key(app, key),
+            Event::Mouse(mouse) => handle_mouse(app, mouse),
             _ => {}
         }
     }
@@ -102,6 +117,20 @@ pub fn handle_key(app: &mut App, key: KeyEvent) {
     }
 }
 
+/// Mouse: the wheel moves the selection, a left click selects the row under it.
+pub fn handle_mouse(app: &mut App, mouse: ratatui::crossterm::event::MouseEvent) {
+    use ratatui::crossterm::event::{MouseButton, MouseEventKind};
+    if app.mode != Mode::Normal {
+        return;
+    }
+    match mouse.kind {
+        MouseEventKind::ScrollDown => app.update(action::Action::SelectNext),
+        MouseEventKind::ScrollUp => app.update(action::Action::SelectPrevious),
+        MouseEventKind::Down(MouseButton::Left) => app.click(mouse.column, mouse.row),
+        _ => {}
+    }
+}
+
 /// The whole screen, top-down: header, body (catalogue | neighbours over loadings), status.
 pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
     let area = frame.area();
@@ -145,6 +174,8 @@ fn render_items(app: &mut App, frame: &mut Frame<'_>, body: Rect, theme: Theme) 
     let [upper, lower] =
         Layout::vertical([Constraint::Min(0), Constraint::Length(loadings_height)]).areas(right);
     app.page = panes::inner(left).height.max(1) as usize;
+    app.catalogue_area = left;
+    app.neighbours_area = upper;
     panes::catalogue::render(app, frame, left, theme);
     panes::neighbours::render(app, frame, upper, theme);
     panes::loadings::render(app, frame, lower, theme);
@@ -365,6 +396,37 @@ mod tests {
         assert!(app.map_zoom > 1.0);
         press(&mut app, KeyCode::Char('1'));
         assert!(screen(&mut app, 110, 32).contains("Catalogue"));
+    }
+
+    #[test]
+    fn mouse_clicks_select_rows_and_the_wheel_scrolls() {
+        use ratatui::crossterm::event::{MouseButton, MouseEvent, MouseEventKind};
+        let mut app = demo_app();
+        screen(&mut app, 80, 24);
+        let mouse = |kind, column, row| MouseEvent {
+            kind,
+            column,
+            row,
+            modifiers: KeyModifiers::NONE,
+        };
+        // Catalogue rows start one line below the pane's top border.
+        let top = app.catalogue_area.y;
+        super::handle_mouse(
+            &mut app,
+            mouse(MouseEventKind::Down(MouseButton::Left), 3, top + 4),
+        );
+        assert_eq!(app.catalogue_selected, 3);
+        assert_eq!(app.current, Some(app.visible[3]));
+        super::handle_mouse(&mut app, mouse(MouseEventKind::ScrollDown, 3, top + 4));
+        assert_eq!(app.catalogue_selected, 4);
+        // A click on the second neighbour row (below the column header) selects it.
+        let n = app.neighbours_area;
+        super::handle_mouse(
+            &mut app,
+            mouse(MouseEventKind::Down(MouseButton::Left), n.x + 5, n.y + 3),
+        );
+        assert_eq!(app.focus, Pane::Neighbours);
+        assert_eq!(app.neighbour_selected, 1);
     }
 
     #[test]

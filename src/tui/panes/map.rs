@@ -30,25 +30,14 @@ const PALETTE: [Color; 8] = [
 /// Draws the map screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let Some(p) = &app.projection else { return };
-    let extent = |k: usize| {
-        p.points
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), q| {
-                (lo.min(q[k]), hi.max(q[k]))
-            })
-    };
-    let ((x0, x1), (y0, y1)) = (extent(0), extent(1));
+    let [[x0, x1], [y0, y1]] = app.map_extent;
     let half = |lo: f64, hi: f64| ((hi - lo) / 2.0).max(1e-9) / app.map_zoom;
     let (cx, cy) = (
         f64::midpoint(x0, x1) + app.map_centre[0],
         f64::midpoint(y0, y1) + app.map_centre[1],
     );
     let (hx, hy) = (half(x0, x1), half(y0, y1));
-    let mut categories: Vec<&str> = (0..app.model.ratings.items.len() as u32)
-        .filter_map(|j| app.category(j))
-        .collect();
-    categories.sort_unstable();
-    categories.dedup();
+    let categories = &app.categories;
     let step = (p.points.len() / MAX_POINTS).max(1);
     let mut layers: Vec<(Color, Vec<(f64, f64)>)> =
         PALETTE.iter().map(|&c| (c, Vec::new())).collect();
@@ -75,7 +64,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let legend = categories
         .iter()
         .take(PALETTE.len())
-        .copied()
+        .cloned()
         .collect::<Vec<_>>()
         .join(" ");
     let canvas = Canvas::default()
