@@ -159,6 +159,11 @@ pub struct App {
     pub categories: Vec<String>,
     /// True once the person asked to leave.
     pub quit: bool,
+    /// When true, neighbour lists are recomputed only when input pauses ([`App::settle`]),
+    /// so holding a movement key over a large catalogue never waits on a search.
+    pub defer_refresh: bool,
+    /// The neighbour list belongs to an earlier item and awaits [`App::settle`].
+    pub neighbours_stale: bool,
     euclidean: Option<NeighbourIndex>,
     cosine: Option<NeighbourIndex>,
     /// The screen shown.
@@ -203,6 +208,8 @@ impl App {
             future: Vec::new(),
             status: String::new(),
             page: 10,
+            defer_refresh: false,
+            neighbours_stale: false,
             catalogue_area: ratatui::layout::Rect::default(),
             neighbours_area: ratatui::layout::Rect::default(),
             map_extent: [[0.0, 1.0], [0.0, 1.0]],
@@ -673,7 +680,19 @@ impl App {
     fn show(&mut self, j: u32) {
         self.current = Some(j);
         self.neighbour_selected = 0;
-        self.refresh_neighbours();
+        if self.defer_refresh {
+            self.neighbours_stale = true;
+        } else {
+            self.refresh_neighbours();
+        }
+    }
+
+    /// Brings deferred work up to date (called by the event loop when no input is waiting).
+    pub fn settle(&mut self) {
+        if self.neighbours_stale {
+            self.neighbours_stale = false;
+            self.refresh_neighbours();
+        }
     }
 
     fn index(&mut self) -> &NeighbourIndex {

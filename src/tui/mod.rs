@@ -50,7 +50,12 @@ pub fn run(mut app: App) -> io::Result<()> {
 
 fn event_loop(terminal: &mut DefaultTerminal, app: &mut App) -> io::Result<()> {
     let theme = Theme::from_env();
+    app.defer_refresh = true;
     while !app.quit {
+        // Catch up on deferred work only when no input is waiting.
+        if !event::poll(std::time::Duration::ZERO)? {
+            app.settle();
+        }
         terminal.draw(|frame| render(app, frame, theme))?;
         match event::read()? {
             Event::Key(key) if key.kind == KeyEventKind::Press => handle_key(app, key),
