@@ -2,6 +2,7 @@
 //! suggestions, and subspace comparison.
 
 pub mod explain;
+pub mod loadings;
 pub mod metrics;
 pub mod projection;
 pub mod subspace;

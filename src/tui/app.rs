@@ -132,6 +132,8 @@ pub struct App {
     pub neighbour_selected: usize,
     /// Highlighted factor in the loadings pane.
     pub factor_selected: usize,
+    /// Items loading most positively and most negatively on the highlighted factor.
+    pub factor_extremes: (Vec<(u32, f64)>, Vec<(u32, f64)>),
     /// Ranking metric of the neighbours pane.
     pub metric: Metric,
     /// How many neighbours to show.
@@ -200,6 +202,7 @@ impl App {
             neighbours: Vec::new(),
             neighbour_selected: 0,
             factor_selected: 0,
+            factor_extremes: (Vec::new(), Vec::new()),
             metric: Metric::Euclidean,
             k: 10,
             focus: Pane::Catalogue,
@@ -340,9 +343,13 @@ impl App {
                 }
                 self.sort_member_ratings();
             }
-            Action::FocusNextPane => self.focus = PANES[(self.focus_index() + 1) % PANES.len()],
+            Action::FocusNextPane => {
+                self.focus = PANES[(self.focus_index() + 1) % PANES.len()];
+                self.refresh_factor();
+            }
             Action::FocusPreviousPane => {
                 self.focus = PANES[(self.focus_index() + PANES.len() - 1) % PANES.len()];
+                self.refresh_factor();
             }
             Action::SelectNext => self.move_selection(1),
             Action::SelectPrevious => self.move_selection(-1),
@@ -609,6 +616,7 @@ impl App {
             }
             Pane::Loadings => {
                 self.factor_selected = step(self.factor_selected, self.model.factors.rank);
+                self.refresh_factor();
             }
         }
     }
@@ -685,6 +693,16 @@ impl App {
         } else {
             self.refresh_neighbours();
         }
+    }
+
+    /// Recomputes the highlighted factor's extreme items (once per change of factor).
+    fn refresh_factor(&mut self) {
+        if self.focus != Pane::Loadings {
+            return;
+        }
+        let f = &self.model.factors;
+        self.factor_extremes =
+            sextant::analysis::loadings::factor_extremes(&f.items, f.rank, self.factor_selected, 4);
     }
 
     /// Brings deferred work up to date (called by the event loop when no input is waiting).

@@ -435,6 +435,27 @@ mod tests {
     }
 
     #[test]
+    fn the_loadings_pane_shows_what_a_factor_stands_for() {
+        let mut app = demo_app();
+        press(&mut app, KeyCode::Tab);
+        press(&mut app, KeyCode::Tab);
+        assert_eq!(app.focus, Pane::Loadings);
+        press(&mut app, KeyCode::Down);
+        assert_eq!(app.factor_selected, 1);
+        let (top, bottom) = app.factor_extremes.clone();
+        assert_eq!(top.len(), 4);
+        let column = |j: u32| app.model.factors.item(j)[1];
+        let max = (0..app.model.ratings.items.len() as u32)
+            .map(column)
+            .fold(f64::MIN, f64::max);
+        assert_eq!(top[0].1, max);
+        assert!(bottom[0].1 <= bottom[1].1);
+        let text = screen(&mut app, 120, 40);
+        assert!(text.contains("factor 2 — most positive:"), "{text}");
+        assert!(text.contains(app.title(top[0].0)), "{text}");
+    }
+
+    #[test]
     fn a_tiny_window_says_so() {
         let mut app = demo_app();
         assert!(screen(&mut app, 40, 8).contains("window too small"));

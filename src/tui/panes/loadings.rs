@@ -29,8 +29,18 @@ pub fn signed_bar(value: f64, scale: f64, half: usize) -> (String, String) {
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let title = " Loadings · factor values of the current item ".to_owned();
     frame.render_widget(framed(title, app.focus == Pane::Loadings, theme), area);
-    let body = inner(area);
+    let mut body = inner(area);
     let Some(j) = app.current else { return };
+    if app.focus == Pane::Loadings && body.width >= 60 {
+        // Beside the bars: what the highlighted factor stands for.
+        let [bars, meaning] = ratatui::layout::Layout::horizontal([
+            ratatui::layout::Constraint::Percentage(55),
+            ratatui::layout::Constraint::Percentage(45),
+        ])
+        .areas(body);
+        body = bars;
+        render_meaning(app, frame, meaning, theme);
+    }
     let values = app.model.factors.item(j);
     let scale = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     let half = (body.width as usize).saturating_sub(14) / 2;
@@ -58,6 +68,26 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         })
         .collect();
     frame.render_widget(Paragraph::new(lines), body);
+}
+
+/// The items loading most positively and most negatively on the highlighted factor.
+fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let width = area.width as usize;
+    let (top, bottom) = &app.factor_extremes;
+    let row = |&(j, v): &(u32, f64)| {
+        Line::raw(format!(
+            "{v:>+6.2} {}",
+            super::fit(app.title(j), width.saturating_sub(8))
+        ))
+    };
+    let mut lines = vec![Line::styled(
+        format!("factor {} — most positive:", app.factor_selected + 1),
+        theme.positive(),
+    )];
+    lines.extend(top.iter().map(row));
+    lines.push(Line::styled("most negative:", theme.negative()));
+    lines.extend(bottom.iter().map(row));
+    frame.render_widget(Paragraph::new(lines), area);
 }
 
 #[cfg(test)]
