@@ -1,13 +1,11 @@
 //! What a factor stands for: the items loading most positively and most negatively on it.
 
+/// Items with their values: the most positive first, then the most negative first.
+pub type Extremes = (Vec<(u32, f64)>, Vec<(u32, f64)>);
+
 /// Items with the largest and the smallest value of factor `factor` (0-based), `k` of
 /// each, as (item, value): largest first, and smallest first. Ties go to the lower item.
-pub fn factor_extremes(
-    items: &[f64],
-    width: usize,
-    factor: usize,
-    k: usize,
-) -> (Vec<(u32, f64)>, Vec<(u32, f64)>) {
+pub fn factor_extremes(items: &[f64], width: usize, factor: usize, k: usize) -> Extremes {
     let values: Vec<(u32, f64)> = items
         .chunks_exact(width)
         .enumerate()

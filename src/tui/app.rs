@@ -133,7 +133,7 @@ pub struct App {
     /// Highlighted factor in the loadings pane.
     pub factor_selected: usize,
     /// Items loading most positively and most negatively on the highlighted factor.
-    pub factor_extremes: (Vec<(u32, f64)>, Vec<(u32, f64)>),
+    pub factor_extremes: sextant::analysis::loadings::Extremes,
     /// Ranking metric of the neighbours pane.
     pub metric: Metric,
     /// How many neighbours to show.
