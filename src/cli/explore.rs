@@ -77,7 +77,7 @@ fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
     ];
     // As in the event loop: searches wait until input pauses. Every fourth key is followed
     // by a pause; the search then runs and its frame is timed separately.
-    app.defer_refresh = true;
+    app.deferred.enabled = true;
     let (mut times, mut settles) = (Vec::with_capacity(frames), Vec::new());
     for k in 0..frames {
         let t = Instant::now();

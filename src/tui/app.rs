@@ -161,11 +161,8 @@ pub struct App {
     pub categories: Vec<String>,
     /// True once the person asked to leave.
     pub quit: bool,
-    /// When true, neighbour lists are recomputed only when input pauses ([`App::settle`]),
-    /// so holding a movement key over a large catalogue never waits on a search.
-    pub defer_refresh: bool,
-    /// The neighbour list belongs to an earlier item and awaits [`App::settle`].
-    pub neighbours_stale: bool,
+    /// Work that waits until input pauses.
+    pub deferred: Deferred,
     euclidean: Option<NeighbourIndex>,
     cosine: Option<NeighbourIndex>,
     /// The screen shown.
@@ -211,8 +208,7 @@ impl App {
             future: Vec::new(),
             status: String::new(),
             page: 10,
-            defer_refresh: false,
-            neighbours_stale: false,
+            deferred: Deferred::default(),
             catalogue_area: ratatui::layout::Rect::default(),
             neighbours_area: ratatui::layout::Rect::default(),
             map_extent: [[0.0, 1.0], [0.0, 1.0]],
@@ -688,8 +684,8 @@ impl App {
     fn show(&mut self, j: u32) {
         self.current = Some(j);
         self.neighbour_selected = 0;
-        if self.defer_refresh {
-            self.neighbours_stale = true;
+        if self.deferred.enabled {
+            self.deferred.neighbours = true;
         } else {
             self.refresh_neighbours();
         }
@@ -707,8 +703,12 @@ impl App {
 
     /// Brings deferred work up to date (called by the event loop when no input is waiting).
     pub fn settle(&mut self) {
-        if self.neighbours_stale {
-            self.neighbours_stale = false;
+        if self.deferred.filter {
+            self.deferred.filter = false;
+            self.refilter();
+        }
+        if self.deferred.neighbours {
+            self.deferred.neighbours = false;
             self.refresh_neighbours();
         }
     }
@@ -767,6 +767,15 @@ impl App {
 
     fn set_filter(&mut self, filter: String) {
         self.filter = filter;
+        if self.deferred.enabled {
+            // Matching walks the whole catalogue: wait until typing pauses.
+            self.deferred.filter = true;
+        } else {
+            self.refilter();
+        }
+    }
+
+    fn refilter(&mut self) {
         self.apply_filter();
         self.catalogue_selected = 0;
         match self.current {
@@ -803,6 +812,18 @@ impl App {
             .catalogue_selected
             .min(self.visible.len().saturating_sub(1));
     }
+}
+
+/// Work that waits until input pauses ([`App::settle`]), so that holding a key over a
+/// large catalogue never waits on a search.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct Deferred {
+    /// Defer at all (the event loop turns this on; tests and scripts leave it off).
+    pub enabled: bool,
+    /// The neighbour list belongs to an earlier item.
+    pub neighbours: bool,
+    /// The catalogue does not reflect the filter text yet.
+    pub filter: bool,
 }
 
 /// Keys that edit the filter in search mode.

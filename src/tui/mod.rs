@@ -50,7 +50,7 @@ pub fn run(mut app: App) -> io::Result<()> {
 
 fn event_loop(terminal: &mut DefaultTerminal, app: &mut App) -> io::Result<()> {
     let theme = Theme::from_env();
-    app.defer_refresh = true;
+    app.deferred.enabled = true;
     while !app.quit {
         // Catch up on deferred work only when no input is waiting.
         if !event::poll(std::time::Duration::ZERO)? {
@@ -453,6 +453,29 @@ mod tests {
         let text = screen(&mut app, 120, 40);
         assert!(text.contains("factor 2 — most positive:"), "{text}");
         assert!(text.contains(app.title(top[0].0)), "{text}");
+    }
+
+    #[test]
+    fn searches_wait_for_a_pause_when_deferred() {
+        let mut app = demo_app();
+        app.deferred.enabled = true;
+        let before = app.neighbours.clone();
+        press(&mut app, KeyCode::Down);
+        press(&mut app, KeyCode::Down);
+        assert!(app.deferred.neighbours);
+        assert_eq!(app.neighbours, before, "no search while keys arrive");
+        assert!(screen(&mut app, 100, 30).contains("updating…"));
+        press(&mut app, KeyCode::Char('/'));
+        press(&mut app, KeyCode::Char('z'));
+        assert!(app.deferred.filter);
+        app.settle();
+        assert!(!app.deferred.neighbours && !app.deferred.filter);
+        assert!(
+            app.visible
+                .iter()
+                .all(|&j| app.title(j).to_lowercase().contains('z'))
+        );
+        assert_ne!(app.neighbours, before);
     }
 
     #[test]

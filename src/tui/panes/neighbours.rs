@@ -17,6 +17,9 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         Metric::Cosine => "cosine",
     };
     let title = match app.current {
+        Some(j) if app.deferred.neighbours => {
+            format!(" Nearest to {} · updating… ", fit(app.title(j), 40))
+        }
         Some(j) => format!(
             " Nearest {} to {} · {metric} ",
             app.k,
