@@ -74,38 +74,12 @@ pub fn handle_key(app: &mut App, key: KeyEvent) {
     }
     match app.mode {
         Mode::Search => {
-            let edit = match key.code {
-                KeyCode::Enter => Some(SearchEdit::Accept),
-                KeyCode::Esc => Some(SearchEdit::Cancel),
-                KeyCode::Backspace => Some(SearchEdit::Delete),
-                KeyCode::Char(c)
-                    if !key
-                        .modifiers
-                        .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
-                {
-                    Some(SearchEdit::Insert(c))
-                }
-                _ => None,
-            };
-            if let Some(edit) = edit {
+            if let Some(edit) = text_edit(key) {
                 app.search_input(edit);
             }
         }
         Mode::MemberPrompt => {
-            let edit = match key.code {
-                KeyCode::Enter => Some(SearchEdit::Accept),
-                KeyCode::Esc => Some(SearchEdit::Cancel),
-                KeyCode::Backspace => Some(SearchEdit::Delete),
-                KeyCode::Char(c)
-                    if !key
-                        .modifiers
-                        .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
-                {
-                    Some(SearchEdit::Insert(c))
-                }
-                _ => None,
-            };
-            if let Some(edit) = edit {
+            if let Some(edit) = text_edit(key) {
                 app.member_prompt_input(edit);
             }
         }
@@ -119,6 +93,23 @@ pub fn handle_key(app: &mut App, key: KeyEvent) {
                 app.update(action);
             }
         }
+    }
+}
+
+/// What a key does to a line of text being typed (a filter or a member id).
+fn text_edit(key: KeyEvent) -> Option<SearchEdit> {
+    match key.code {
+        KeyCode::Enter => Some(SearchEdit::Accept),
+        KeyCode::Esc => Some(SearchEdit::Cancel),
+        KeyCode::Backspace => Some(SearchEdit::Delete),
+        KeyCode::Char(c)
+            if !key
+                .modifiers
+                .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
+        {
+            Some(SearchEdit::Insert(c))
+        }
+        _ => None,
     }
 }
 
