@@ -7,14 +7,7 @@ mod common;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-use common::repo;
-
-fn sextant(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_sextant"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
-}
+use common::{repo, sextant};
 
 fn text(bytes: &[u8]) -> String {
     String::from_utf8_lossy(bytes).into_owned()

@@ -4,17 +4,8 @@
 
 mod common;
 
-use std::process::{Command, Output};
-
-use common::repo;
+use common::{repo, sextant};
 use serde_json::Value;
-
-fn sextant(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_sextant"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
-}
 
 fn demo() -> String {
     repo("demo-data/model").display().to_string()

@@ -94,3 +94,11 @@ pub fn assert_same_model_files(a: &Path, b: &Path) {
         );
     }
 }
+
+/// Runs the built `sextant` binary with `args`.
+pub fn sextant(args: &[&str]) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_sextant"))
+        .args(args)
+        .output()
+        .expect("the binary runs")
+}
