@@ -60,7 +60,10 @@ fn main() {
     };
     let model = Model::from_import(ratings, factors, 1.0, 1.0, Center::Global, provenance)
         .expect("training ratings");
-    let dir = std::env::temp_dir().join(format!("sextant-bench-explorer-{}", std::process::id()));
+    let dir = std::env::var_os("SEXTANT_BENCH_KEEP").map_or_else(
+        || std::env::temp_dir().join(format!("sextant-bench-explorer-{}", std::process::id())),
+        std::path::PathBuf::from,
+    );
     save_model(&dir, &model).expect("model written");
     let binary = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("target/release/sextant");
     let output = Command::new(&binary)
@@ -72,7 +75,9 @@ fn main() {
         ])
         .output()
         .expect("run `cargo build --release` first: the benchmark drives target/release/sextant");
-    let _ = std::fs::remove_dir_all(&dir);
+    if std::env::var_os("SEXTANT_BENCH_KEEP").is_none() {
+        let _ = std::fs::remove_dir_all(&dir);
+    }
     assert!(
         output.status.success(),
         "{}",

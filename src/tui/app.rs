@@ -696,6 +696,14 @@ impl App {
         if self.focus != Pane::Loadings {
             return;
         }
+        if self.deferred.enabled {
+            self.deferred.factor = true;
+            return;
+        }
+        self.compute_factor_extremes();
+    }
+
+    fn compute_factor_extremes(&mut self) {
         let f = &self.model.factors;
         self.factor_extremes =
             sextant::analysis::loadings::factor_extremes(&f.items, f.rank, self.factor_selected, 4);
@@ -703,6 +711,10 @@ impl App {
 
     /// Brings deferred work up to date (called by the event loop when no input is waiting).
     pub fn settle(&mut self) {
+        if self.deferred.factor {
+            self.deferred.factor = false;
+            self.compute_factor_extremes();
+        }
         if self.deferred.filter {
             self.deferred.filter = false;
             self.refilter();
@@ -816,6 +828,8 @@ impl App {
 
 /// Work that waits until input pauses ([`App::settle`]), so that holding a key over a
 /// large catalogue never waits on a search.
+// Independent pending-work flags: a bool each is the plain way to say it.
+#[allow(clippy::struct_excessive_bools)]
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct Deferred {
     /// Defer at all (the event loop turns this on; tests and scripts leave it off).
@@ -824,6 +838,8 @@ pub struct Deferred {
     pub neighbours: bool,
     /// The catalogue does not reflect the filter text yet.
     pub filter: bool,
+    /// The highlighted factor's extreme items are not computed yet.
+    pub factor: bool,
 }
 
 /// Keys that edit the filter in search mode.
