@@ -548,6 +548,43 @@ fn tampered_models_are_refused_with_file_line_and_reason() {
 }
 
 #[test]
+fn binary_tables_are_a_cache_the_csv_overrules() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = demo_copy(tmp.path());
+    let model = sextant::model::load_model(&dir).unwrap();
+    // A damaged binary copy is ignored: the CSV gives the same model.
+    let mut bytes = std::fs::read(dir.join("items.bin")).unwrap();
+    let at = bytes.len() / 2;
+    bytes[at] ^= 0x40;
+    std::fs::write(dir.join("items.bin"), &bytes).unwrap();
+    std::fs::remove_file(dir.join("users.bin")).unwrap();
+    assert_eq!(sextant::model::load_model(&dir).unwrap(), model);
+    // A CSV edited after the binary was written wins, same size or not.
+    let edited = std::fs::read_to_string(dir.join("items.csv")).unwrap();
+    let first_value = edited
+        .lines()
+        .nth(1)
+        .unwrap()
+        .split(',')
+        .nth(1)
+        .unwrap()
+        .to_owned();
+    let replacement = if first_value.starts_with('-') {
+        "-9".to_owned()
+    } else {
+        "9".to_owned()
+    };
+    let padded = format!("{replacement:0<width$}", width = first_value.len());
+    std::fs::write(
+        dir.join("items.csv"),
+        edited.replacen(&first_value, &padded, 1),
+    )
+    .unwrap();
+    let changed = sextant::model::load_model(&dir).unwrap();
+    assert_ne!(changed.factors.items, model.factors.items);
+}
+
+#[test]
 fn a_symlink_leading_out_of_the_model_directory_is_refused() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = demo_copy(tmp.path());

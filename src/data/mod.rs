@@ -1,6 +1,7 @@
 //! Input data: ratings CSV loading, id ↔ index maps, the rating scale, the held-out split,
 //! items metadata and factor tables.
 
+pub mod binary;
 pub mod factors;
 pub mod fingerprint;
 pub mod ids;

@@ -75,6 +75,12 @@ pub struct Files {
     pub ratings: String,
     /// Items metadata, when the model has some.
     pub items_meta: Option<String>,
+    /// Binary copy of the user table (a cache for fast opening; see `data::binary`).
+    #[serde(default)]
+    pub users_bin: Option<String>,
+    /// Binary copy of the item table.
+    #[serde(default)]
+    pub items_bin: Option<String>,
 }
 
 impl Default for Files {
@@ -84,6 +90,8 @@ impl Default for Files {
             items: "items.csv".into(),
             ratings: "ratings.csv".into(),
             items_meta: None,
+            users_bin: Some("users.bin".into()),
+            items_bin: Some("items.bin".into()),
         }
     }
 }

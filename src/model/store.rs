@@ -68,13 +68,15 @@ fn io_error(path: &Path) -> impl FnOnce(std::io::Error) -> SaveError + '_ {
 }
 
 /// Files a model directory may contain; anything else makes `save_model` refuse to replace it.
-const KNOWN_FILES: [&str; 6] = [
+const KNOWN_FILES: [&str; 8] = [
     MANIFEST,
     "users.csv",
     "items.csv",
     "ratings.csv",
     ITEMS_META,
     ANNOTATIONS,
+    "users.bin",
+    "items.bin",
 ];
 
 /// Writes `model` to `dir` atomically. `dir` may be absent, an empty directory, or an
@@ -221,12 +223,29 @@ fn swap_dirs(new: &Path, target: &Path) -> Result<(), SaveError> {
 fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
     let files = &model.manifest.files;
     let f = &model.factors;
-    write_synced(&dir.join(&files.users), |w| {
-        write_factor_table(w, &model.ratings.users, f.rank, &f.users)
-    })?;
-    write_synced(&dir.join(&files.items), |w| {
-        write_factor_table(w, &model.ratings.items, f.rank, &f.items)
-    })?;
+    let tables = [
+        (
+            &files.users,
+            &files.users_bin,
+            &model.ratings.users,
+            &f.users,
+        ),
+        (
+            &files.items,
+            &files.items_bin,
+            &model.ratings.items,
+            &f.items,
+        ),
+    ];
+    for (csv_name, bin_name, ids, values) in tables {
+        let csv_path = dir.join(csv_name);
+        write_synced(&csv_path, |w| write_factor_table(w, ids, f.rank, values))?;
+        if let Some(bin_name) = bin_name {
+            let twin = file_twin(&csv_path).map_err(io_error(&csv_path))?;
+            let encoded = crate::data::binary::encode(ids, f.rank, values, twin);
+            write_synced(&dir.join(bin_name), |w| w.write_all(&encoded))?;
+        }
+    }
     write_synced(&dir.join(&files.ratings), |w| {
         write_model_ratings(w, &model.ratings)
     })?;
@@ -237,6 +256,25 @@ fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
     }
     let text = manifest_text(&model.manifest);
     write_synced(&dir.join(MANIFEST), |w| w.write_all(text.as_bytes()))
+}
+
+/// Size and streamed checksum of a file.
+fn file_twin(path: &Path) -> std::io::Result<crate::data::binary::Twin> {
+    use std::io::Read;
+    let mut file = File::open(path)?;
+    let mut sum = crate::data::binary::Checksum::default();
+    let mut buffer = vec![0u8; 1 << 20];
+    loop {
+        let n = file.read(&mut buffer)?;
+        if n == 0 {
+            break;
+        }
+        sum.update(&buffer[..n]);
+    }
+    Ok(crate::data::binary::Twin {
+        bytes: file.metadata()?.len(),
+        checksum: sum.finish(),
+    })
 }
 
 /// The manifest as RON text.
@@ -301,6 +339,10 @@ pub trait ModelSource {
     fn read(&self, name: &str) -> Result<Vec<u8>, DataError>;
     /// The path to show in messages for `name`.
     fn path(&self, name: &str) -> PathBuf;
+    /// The size of a file in bytes, if it exists.
+    fn size(&self, name: &str) -> Option<u64>;
+    /// The [`crate::data::binary::checksum`] of a file, streamed (no copy in memory).
+    fn checksum(&self, name: &str) -> Option<u64>;
 }
 
 /// A model directory on disk. Every file the manifest names must stay inside it.
@@ -336,6 +378,21 @@ impl ModelSource for DirSource {
     fn path(&self, name: &str) -> PathBuf {
         self.dir.join(name)
     }
+
+    fn size(&self, name: &str) -> Option<u64> {
+        fs::metadata(self.path(name)).ok().map(|m| m.len())
+    }
+
+    fn checksum(&self, name: &str) -> Option<u64> {
+        // Only files that stay inside the directory (the same check as `read`).
+        let path = self.path(name);
+        let inside = fs::canonicalize(&self.dir)
+            .and_then(|d| fs::canonicalize(&path).map(|p| p.starts_with(d)))
+            .ok()?;
+        inside
+            .then(|| file_twin(&path).ok().map(|t| t.checksum))
+            .flatten()
+    }
 }
 
 /// Model files compiled into the binary (the bundled demo).
@@ -363,6 +420,20 @@ impl ModelSource for EmbeddedSource {
 
     fn path(&self, name: &str) -> PathBuf {
         Path::new(self.label).join(name)
+    }
+
+    fn size(&self, name: &str) -> Option<u64> {
+        self.files
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, bytes)| bytes.len() as u64)
+    }
+
+    fn checksum(&self, name: &str) -> Option<u64> {
+        self.files
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, bytes)| crate::data::binary::checksum(bytes))
     }
 }
 
@@ -394,6 +465,8 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         Some(&files.items),
         Some(&files.ratings),
         files.items_meta.as_ref(),
+        files.users_bin.as_ref(),
+        files.items_bin.as_ref(),
     ]
     .into_iter()
     .flatten()
@@ -401,8 +474,26 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         check_file_name(name, &manifest_path)?;
     }
     let rank = manifest.rank;
-    let users = read_table(source, &files.users, rank, manifest.counts.users, "users")?;
-    let items = read_table(source, &files.items, rank, manifest.counts.items, "items")?;
+    let users = match fast_table(
+        source,
+        files.users_bin.as_deref(),
+        &files.users,
+        rank,
+        manifest.counts.users,
+    ) {
+        Some(table) => table,
+        None => read_table(source, &files.users, rank, manifest.counts.users, "users")?,
+    };
+    let items = match fast_table(
+        source,
+        files.items_bin.as_deref(),
+        &files.items,
+        rank,
+        manifest.counts.items,
+    ) {
+        Some(table) => table,
+        None => read_table(source, &files.items, rank, manifest.counts.items, "items")?,
+    };
     let ratings_path = source.path(&files.ratings);
     let options = RatingsOptions {
         columns: RatingColumns {
@@ -463,6 +554,22 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         factors,
         meta,
     })
+}
+
+/// The binary copy of a table when it exists and checks out; `None` sends the caller to
+/// the CSV, which stays the source of truth.
+fn fast_table(
+    source: &dyn ModelSource,
+    bin: Option<&str>,
+    csv: &str,
+    rank: usize,
+    rows: usize,
+) -> Option<crate::data::FactorTable> {
+    let bin = bin?;
+    let csv_bytes = source.size(csv)?;
+    source.size(bin)?;
+    let bytes = source.read(bin).ok()?;
+    crate::data::binary::decode(&bytes, rank, rows, csv_bytes, || source.checksum(csv)).ok()
 }
 
 fn read_table(
