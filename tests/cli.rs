@@ -547,41 +547,96 @@ fn tampered_models_are_refused_with_file_line_and_reason() {
     }
 }
 
-#[test]
-fn binary_tables_are_a_cache_the_csv_overrules() {
-    let tmp = tempfile::tempdir().unwrap();
-    let dir = demo_copy(tmp.path());
-    let model = sextant::model::load_model(&dir).unwrap();
-    // A damaged binary copy is ignored: the CSV gives the same model.
-    let mut bytes = std::fs::read(dir.join("items.bin")).unwrap();
-    let at = bytes.len() / 2;
-    bytes[at] ^= 0x40;
-    std::fs::write(dir.join("items.bin"), &bytes).unwrap();
-    std::fs::remove_file(dir.join("users.bin")).unwrap();
-    assert_eq!(sextant::model::load_model(&dir).unwrap(), model);
-    // A CSV edited after the binary was written wins, same size or not.
-    let edited = std::fs::read_to_string(dir.join("items.csv")).unwrap();
-    let first_value = edited
-        .lines()
-        .nth(1)
-        .unwrap()
-        .split(',')
-        .nth(1)
-        .unwrap()
-        .to_owned();
-    let replacement = if first_value.starts_with('-') {
-        "-9".to_owned()
-    } else {
-        "9".to_owned()
+/// A model large enough to get binary twins of its user table and ratings.
+fn large_model(dir: &Path) -> sextant::model::Model {
+    use sextant::data::{Rating, RatingScale, Ratings};
+    let mut rng = sextant::rng::Rng::new(3);
+    let mut ratings = Ratings::default();
+    let (users, items, rank) = (32_000u32, 400u32, 10);
+    for i in 0..users {
+        ratings.users.intern(&format!("u{i}"));
+    }
+    for j in 0..items {
+        ratings.items.intern(&format!("i{j}"));
+    }
+    for user in 0..users {
+        for item in (0..360).step_by(45) {
+            let value = 1.0 + rng.below(5) as f64;
+            ratings.entries.push(Rating {
+                user,
+                item: item + user % 45,
+                value,
+                holdout: user % 7 == 0,
+            });
+        }
+    }
+    ratings.entries.sort_by_key(|r| (r.user, r.item));
+    let factors = sextant::model::FactorModel {
+        rank,
+        mu: 3.0,
+        users: (0..users as usize * rank).map(|_| rng.normal()).collect(),
+        items: (0..items as usize * rank).map(|_| rng.normal()).collect(),
     };
-    let padded = format!("{replacement:0<width$}", width = first_value.len());
-    std::fs::write(
-        dir.join("items.csv"),
-        edited.replacen(&first_value, &padded, 1),
+    let provenance = sextant::model::Provenance {
+        scale: RatingScale::Levels(vec![1.0, 2.0, 3.0, 4.0, 5.0]),
+        inputs: Vec::new(),
+        meta: None,
+    };
+    let model = sextant::model::Model::from_import(
+        ratings,
+        factors,
+        1.0,
+        1.0,
+        sextant::model::Center::Global,
+        provenance,
     )
     .unwrap();
-    let changed = sextant::model::load_model(&dir).unwrap();
-    assert_ne!(changed.factors.items, model.factors.items);
+    sextant::model::save_model(dir, &model).unwrap();
+    sextant::model::load_model(dir).unwrap()
+}
+
+#[test]
+fn binary_twins_are_a_cache_the_csv_overrules() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("large");
+    let model = large_model(&dir);
+    assert!(dir.join("users.bin").is_file() && dir.join("ratings.bin").is_file());
+    assert!(!dir.join("items.bin").exists(), "small tables get no twin");
+    // Saving what was loaded gives the same files, twins included.
+    let again = tmp.path().join("again");
+    sextant::model::save_model(&again, &model).unwrap();
+    common::assert_same_model_files(&dir, &again);
+    // Damaged or missing twins are ignored: the CSVs give the same model.
+    for name in ["users.bin", "ratings.bin"] {
+        let mut bytes = std::fs::read(dir.join(name)).unwrap();
+        let at = bytes.len() / 2;
+        bytes[at] ^= 0x40;
+        std::fs::write(dir.join(name), &bytes).unwrap();
+    }
+    assert_eq!(sextant::model::load_model(&dir).unwrap(), model);
+    std::fs::remove_file(dir.join("users.bin")).unwrap();
+    assert_eq!(sextant::model::load_model(&dir).unwrap(), model);
+    // A CSV edited after its twin was written wins, even at the same size.
+    let fresh = tmp.path().join("fresh");
+    sextant::model::save_model(&fresh, &model).unwrap();
+    let edited = std::fs::read_to_string(fresh.join("users.csv")).unwrap();
+    let line = edited.lines().nth(1).unwrap();
+    let value = line.split(',').nth(1).unwrap();
+    let digit = value.chars().rev().find(char::is_ascii_digit).unwrap();
+    let swapped = if digit == '1' { '2' } else { '1' };
+    let changed_value = format!("{}{swapped}", &value[..value.rfind(digit).unwrap()])
+        + &value[value.rfind(digit).unwrap() + 1..];
+    std::fs::write(
+        fresh.join("users.csv"),
+        edited.replacen(value, &changed_value, 1),
+    )
+    .unwrap();
+    let loaded = sextant::model::load_model(&fresh).unwrap();
+    assert_ne!(loaded.factors.users[0], model.factors.users[0]);
+    assert_eq!(
+        loaded.factors.users[0],
+        changed_value.parse::<f64>().unwrap()
+    );
 }
 
 #[test]

@@ -1,4 +1,5 @@
-//! A compact binary twin of a factor table, for opening large models fast.
+//! Compact binary twins of a model's factor tables and ratings, for opening large models
+//! fast.
 //!
 //! A model directory keeps its factor tables as CSV (the interchange format) and, beside
 //! each, a binary copy that loads without parsing text. The binary copy is only a cache: it
@@ -26,6 +27,7 @@
 
 use super::factors::FactorTable;
 use super::ids::IdMap;
+use super::ratings::{Rating, Ratings};
 
 /// The file's first eight bytes.
 pub const MAGIC: [u8; 8] = *b"sxtfctrs";
@@ -228,6 +230,103 @@ pub fn decode(
         return Err(Unusable("non-finite value"));
     }
     Ok(FactorTable { ids, rank, values })
+}
+
+/// Magic of a binary ratings file.
+pub const RATINGS_MAGIC: [u8; 8] = *b"sxtrtngs";
+
+/// The binary twin of a model's `ratings.csv`: the same header as a factor file (with
+/// `rank` 0), then four arrays of N entries — user index (u32), item index (u32), rating
+/// (f64), split (u8: 0 train, 1 held out) — then the checksum.
+pub fn encode_ratings(ratings: &Ratings, twin: Twin) -> Vec<u8> {
+    let n = ratings.entries.len();
+    let mut out = Vec::with_capacity(HEADER + n * 17 + 8);
+    out.extend_from_slice(&RATINGS_MAGIC);
+    out.extend_from_slice(&VERSION.to_le_bytes());
+    out.extend_from_slice(&BYTE_ORDER.to_le_bytes());
+    out.extend_from_slice(&0u32.to_le_bytes());
+    out.extend_from_slice(&0u32.to_le_bytes());
+    out.extend_from_slice(&(n as u64).to_le_bytes());
+    out.extend_from_slice(&twin.bytes.to_le_bytes());
+    out.extend_from_slice(&twin.checksum.to_le_bytes());
+    out.extend_from_slice(&0u64.to_le_bytes());
+    out.extend(ratings.entries.iter().flat_map(|r| r.user.to_le_bytes()));
+    out.extend(ratings.entries.iter().flat_map(|r| r.item.to_le_bytes()));
+    out.extend(ratings.entries.iter().flat_map(|r| r.value.to_le_bytes()));
+    out.extend(ratings.entries.iter().map(|r| u8::from(r.holdout)));
+    let sum = checksum(&out);
+    out.extend_from_slice(&sum.to_le_bytes());
+    out
+}
+
+/// Decodes a binary ratings file for a model with `users` users, `items` items and `rows`
+/// ratings (interning into the given id maps), with the same checks as [`decode`], plus:
+/// indices in range, finite ratings, entries strictly sorted by (user, item).
+pub fn decode_ratings(
+    bytes: &[u8],
+    users: IdMap,
+    items: IdMap,
+    rows: usize,
+    twin_bytes: u64,
+    twin_checksum: impl FnOnce() -> Option<u64>,
+) -> Result<Ratings, Unusable> {
+    if bytes.len() < HEADER + 8 || bytes[..8] != RATINGS_MAGIC {
+        return Err(Unusable("not a sextant ratings file"));
+    }
+    if u32_at(bytes, 8) != VERSION || u32_at(bytes, 12) != BYTE_ORDER {
+        return Err(Unusable("unsupported version or byte order"));
+    }
+    if u64_at(bytes, 24) != rows as u64 || u64_at(bytes, 32) != twin_bytes {
+        return Err(Unusable("row count or CSV twin differs"));
+    }
+    if rows.checked_mul(17).and_then(|n| n.checked_add(HEADER + 8)) != Some(bytes.len()) {
+        return Err(Unusable("the file's length does not match its header"));
+    }
+    let (body, tail) = bytes.split_at(bytes.len() - 8);
+    if checksum(body) != u64::from_le_bytes(tail.try_into().expect("8 bytes")) {
+        return Err(Unusable("checksum mismatch"));
+    }
+    if twin_checksum() != Some(u64_at(bytes, 40)) {
+        return Err(Unusable(
+            "the CSV twin changed since the binary copy was written",
+        ));
+    }
+    let (user_part, rest) = body[HEADER..].split_at(rows * 4);
+    let (item_part, rest) = rest.split_at(rows * 4);
+    let (value_part, split_part) = rest.split_at(rows * 8);
+    let word = |b: &[u8]| u32::from_le_bytes(b.try_into().expect("4 bytes"));
+    let mut entries = Vec::with_capacity(rows);
+    for k in 0..rows {
+        let user = word(&user_part[k * 4..k * 4 + 4]);
+        let item = word(&item_part[k * 4..k * 4 + 4]);
+        let value = f64::from_le_bytes(value_part[k * 8..k * 8 + 8].try_into().expect("8 bytes"));
+        let holdout = match split_part[k] {
+            0 => false,
+            1 => true,
+            _ => return Err(Unusable("bad split flag")),
+        };
+        if user as usize >= users.len() || item as usize >= items.len() || !value.is_finite() {
+            return Err(Unusable("index out of range or non-finite rating"));
+        }
+        let entry = Rating {
+            user,
+            item,
+            value,
+            holdout,
+        };
+        if entries
+            .last()
+            .is_some_and(|p: &Rating| (p.user, p.item) >= (user, item))
+        {
+            return Err(Unusable("ratings not strictly sorted"));
+        }
+        entries.push(entry);
+    }
+    Ok(Ratings {
+        users,
+        items,
+        entries,
+    })
 }
 
 #[cfg(test)]

@@ -81,6 +81,9 @@ pub struct Files {
     /// Binary copy of the item table.
     #[serde(default)]
     pub items_bin: Option<String>,
+    /// Binary copy of the ratings.
+    #[serde(default)]
+    pub ratings_bin: Option<String>,
 }
 
 impl Default for Files {
@@ -92,6 +95,7 @@ impl Default for Files {
             items_meta: None,
             users_bin: Some("users.bin".into()),
             items_bin: Some("items.bin".into()),
+            ratings_bin: Some("ratings.bin".into()),
         }
     }
 }

@@ -68,7 +68,7 @@ fn io_error(path: &Path) -> impl FnOnce(std::io::Error) -> SaveError + '_ {
 }
 
 /// Files a model directory may contain; anything else makes `save_model` refuse to replace it.
-const KNOWN_FILES: [&str; 8] = [
+const KNOWN_FILES: [&str; 9] = [
     MANIFEST,
     "users.csv",
     "items.csv",
@@ -77,6 +77,7 @@ const KNOWN_FILES: [&str; 8] = [
     ANNOTATIONS,
     "users.bin",
     "items.bin",
+    "ratings.bin",
 ];
 
 /// Writes `model` to `dir` atomically. `dir` may be absent, an empty directory, or an
@@ -220,8 +221,25 @@ fn swap_dirs(new: &Path, target: &Path) -> Result<(), SaveError> {
     Ok(())
 }
 
+/// Smallest table (values) or rating list (entries) that gets a binary twin: below it the
+/// CSV opens in a blink and the twin would only take space.
+const BINARY_MIN_ENTRIES: usize = 250_000;
+
 fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
-    let files = &model.manifest.files;
+    // Binary twins only for large tables; the manifest names exactly the files written.
+    let mut manifest = model.manifest.clone();
+    let big = |n: usize| n >= BINARY_MIN_ENTRIES;
+    let default = super::manifest::Files::default();
+    manifest.files.users_bin = big(model.factors.users.len())
+        .then_some(default.users_bin)
+        .flatten();
+    manifest.files.items_bin = big(model.factors.items.len())
+        .then_some(default.items_bin)
+        .flatten();
+    manifest.files.ratings_bin = big(model.ratings.entries.len())
+        .then_some(default.ratings_bin)
+        .flatten();
+    let files = &manifest.files;
     let f = &model.factors;
     let tables = [
         (
@@ -246,15 +264,19 @@ fn write_files(dir: &Path, model: &Model) -> Result<(), SaveError> {
             write_synced(&dir.join(bin_name), |w| w.write_all(&encoded))?;
         }
     }
-    write_synced(&dir.join(&files.ratings), |w| {
-        write_model_ratings(w, &model.ratings)
-    })?;
+    let ratings_path = dir.join(&files.ratings);
+    write_synced(&ratings_path, |w| write_model_ratings(w, &model.ratings))?;
+    if let Some(bin_name) = &files.ratings_bin {
+        let twin = file_twin(&ratings_path).map_err(io_error(&ratings_path))?;
+        let encoded = crate::data::binary::encode_ratings(&model.ratings, twin);
+        write_synced(&dir.join(bin_name), |w| w.write_all(&encoded))?;
+    }
     if let (Some(name), Some(meta)) = (&files.items_meta, &model.meta) {
         write_synced(&dir.join(name), |w| {
             write_items_meta(w, meta, &model.ratings.items)
         })?;
     }
-    let text = manifest_text(&model.manifest);
+    let text = manifest_text(&manifest);
     write_synced(&dir.join(MANIFEST), |w| w.write_all(text.as_bytes()))
 }
 
@@ -467,6 +489,7 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         files.items_meta.as_ref(),
         files.users_bin.as_ref(),
         files.items_bin.as_ref(),
+        files.ratings_bin.as_ref(),
     ]
     .into_iter()
     .flatten()
@@ -503,14 +526,31 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         known_ids_only: true,
         ..RatingsOptions::default()
     };
-    let bytes = source.read(&files.ratings)?;
-    let ratings = read_ratings_with_ids(
-        bytes.as_slice(),
-        &ratings_path,
-        &options,
-        users.ids.clone(),
-        items.ids.clone(),
-    )?;
+    let fast = files.ratings_bin.as_deref().and_then(|bin| {
+        let csv_bytes = source.size(&files.ratings)?;
+        let bytes = source.read(bin).ok()?;
+        crate::data::binary::decode_ratings(
+            &bytes,
+            users.ids.clone(),
+            items.ids.clone(),
+            manifest.counts.ratings,
+            csv_bytes,
+            || source.checksum(&files.ratings),
+        )
+        .ok()
+    });
+    let ratings = if let Some(ratings) = fast {
+        ratings
+    } else {
+        let bytes = source.read(&files.ratings)?;
+        read_ratings_with_ids(
+            bytes.as_slice(),
+            &ratings_path,
+            &options,
+            users.ids.clone(),
+            items.ids.clone(),
+        )?
+    };
     let found = Counts {
         users: ratings.users.len(),
         items: ratings.items.len(),

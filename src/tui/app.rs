@@ -225,7 +225,7 @@ impl App {
             histogram: Vec::new(),
             suggestions_index: None,
         };
-        app.histogram = residual_histogram(&app.model.factors, &app.model.ratings, 21, 3.0);
+
         let mut categories: Vec<String> = app
             .model
             .meta
@@ -328,7 +328,13 @@ impl App {
                 }
                 self.screen = Screen::Map;
             }
-            Action::ShowFit => self.screen = Screen::Fit,
+            Action::ShowFit => {
+                if self.histogram.is_empty() {
+                    self.histogram =
+                        residual_histogram(&self.model.factors, &self.model.ratings, 21, 3.0);
+                }
+                self.screen = Screen::Fit;
+            }
             Action::FindMember => {
                 self.mode = Mode::MemberPrompt;
                 self.member_input.clear();
@@ -762,7 +768,10 @@ impl App {
         let mut all: Vec<u32> = (0..self.model.ratings.items.len() as u32).collect();
         let key_title = |j: &u32| (self.title(*j).to_lowercase(), *j);
         match self.order {
-            Order::Title => all.sort_by_cached_key(key_title),
+            Order::Title => {
+                use rayon::slice::ParallelSliceMut;
+                all.par_sort_by_cached_key(key_title);
+            }
             Order::Category => all.sort_by_cached_key(|j| {
                 (
                     self.category(*j).unwrap_or("~").to_lowercase(),

@@ -74,20 +74,27 @@ pub fn max_rel_diff(actual: &[f64], expected: &[f64]) -> f64 {
 }
 
 /// The files every model directory written from the demo data holds.
-pub const MODEL_FILES: [&str; 5] = [
+pub const MODEL_FILES: [&str; 8] = [
     "manifest.ron",
     "users.csv",
     "items.csv",
     "ratings.csv",
     "items-meta.csv",
+    "users.bin",
+    "items.bin",
+    "ratings.bin",
 ];
 
 /// Asserts that two model directories hold byte-identical files.
 pub fn assert_same_model_files(a: &Path, b: &Path) {
     for name in MODEL_FILES {
-        let (x, y) = (std::fs::read(a.join(name)), std::fs::read(b.join(name)));
+        // Files absent from both (binary twins of small tables) agree too.
+        let (x, y) = (
+            std::fs::read(a.join(name)).ok(),
+            std::fs::read(b.join(name)).ok(),
+        );
         assert!(
-            x.is_ok() && x.ok() == y.ok(),
+            x == y,
             "{name} differs between {} and {}",
             a.display(),
             b.display()
