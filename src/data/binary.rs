@@ -117,15 +117,7 @@ pub struct Twin {
 pub fn encode(ids: &IdMap, rank: usize, values: &[f64], twin: Twin) -> Vec<u8> {
     let id_block: usize = ids.names().iter().map(|n| 4 + n.len()).sum();
     let mut out = Vec::with_capacity(HEADER + id_block + values.len() * 8 + 8);
-    out.extend_from_slice(&MAGIC);
-    out.extend_from_slice(&VERSION.to_le_bytes());
-    out.extend_from_slice(&BYTE_ORDER.to_le_bytes());
-    out.extend_from_slice(&(rank as u32).to_le_bytes());
-    out.extend_from_slice(&0u32.to_le_bytes());
-    out.extend_from_slice(&(ids.len() as u64).to_le_bytes());
-    out.extend_from_slice(&twin.bytes.to_le_bytes());
-    out.extend_from_slice(&twin.checksum.to_le_bytes());
-    out.extend_from_slice(&(id_block as u64).to_le_bytes());
+    write_header(&mut out, MAGIC, rank, ids.len(), twin, id_block);
     for name in ids.names() {
         out.extend_from_slice(&(name.len() as u32).to_le_bytes());
         out.extend_from_slice(name.as_bytes());
@@ -142,6 +134,69 @@ pub fn encode(ids: &IdMap, rank: usize, values: &[f64], twin: Twin) -> Vec<u8> {
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 #[error("{0}")]
 pub struct Unusable(pub &'static str);
+
+fn write_header(
+    out: &mut Vec<u8>,
+    magic: [u8; 8],
+    rank: usize,
+    rows: usize,
+    twin: Twin,
+    id_block: usize,
+) {
+    out.extend_from_slice(&magic);
+    out.extend_from_slice(&VERSION.to_le_bytes());
+    out.extend_from_slice(&BYTE_ORDER.to_le_bytes());
+    out.extend_from_slice(&(rank as u32).to_le_bytes());
+    out.extend_from_slice(&0u32.to_le_bytes());
+    out.extend_from_slice(&(rows as u64).to_le_bytes());
+    out.extend_from_slice(&twin.bytes.to_le_bytes());
+    out.extend_from_slice(&twin.checksum.to_le_bytes());
+    out.extend_from_slice(&(id_block as u64).to_le_bytes());
+}
+
+/// Magic, version, byte order, row count and the CSV twin's size.
+fn check_header(
+    bytes: &[u8],
+    magic: [u8; 8],
+    rows: usize,
+    twin_bytes: u64,
+) -> Result<(), Unusable> {
+    if bytes.len() < HEADER + 8 || bytes[..8] != magic {
+        return Err(Unusable("not a sextant binary file of this kind"));
+    }
+    if u32_at(bytes, 8) != VERSION {
+        return Err(Unusable("unsupported version"));
+    }
+    if u32_at(bytes, 12) != BYTE_ORDER {
+        return Err(Unusable("written in another byte order"));
+    }
+    if u64_at(bytes, 24) != rows as u64 {
+        return Err(Unusable("row count differs from the manifest"));
+    }
+    if u64_at(bytes, 32) != twin_bytes {
+        return Err(Unusable(
+            "the CSV twin changed since the binary copy was written",
+        ));
+    }
+    Ok(())
+}
+
+/// The file's own checksum, then (costlier) its CSV twin's; returns the checksummed body.
+fn check_sums(
+    bytes: &[u8],
+    twin_checksum: impl FnOnce() -> Option<u64>,
+) -> Result<&[u8], Unusable> {
+    let (body, tail) = bytes.split_at(bytes.len() - 8);
+    if checksum(body) != u64::from_le_bytes(tail.try_into().expect("8 bytes")) {
+        return Err(Unusable("checksum mismatch"));
+    }
+    if twin_checksum() != Some(u64_at(bytes, 40)) {
+        return Err(Unusable(
+            "the CSV twin changed since the binary copy was written",
+        ));
+    }
+    Ok(body)
+}
 
 fn u32_at(bytes: &[u8], at: usize) -> u32 {
     u32::from_le_bytes(bytes[at..at + 4].try_into().expect("4 bytes"))
@@ -161,22 +216,9 @@ pub fn decode(
     twin_bytes: u64,
     twin_checksum: impl FnOnce() -> Option<u64>,
 ) -> Result<FactorTable, Unusable> {
-    if bytes.len() < HEADER + 8 || bytes[..8] != MAGIC {
-        return Err(Unusable("not a sextant factor file"));
-    }
-    if u32_at(bytes, 8) != VERSION {
-        return Err(Unusable("unsupported version"));
-    }
-    if u32_at(bytes, 12) != BYTE_ORDER {
-        return Err(Unusable("written in another byte order"));
-    }
-    if u32_at(bytes, 16) as usize != rank || u64_at(bytes, 24) != rows as u64 {
-        return Err(Unusable("rank or row count differs from the manifest"));
-    }
-    if u64_at(bytes, 32) != twin_bytes {
-        return Err(Unusable(
-            "the CSV twin changed since the binary copy was written",
-        ));
+    check_header(bytes, MAGIC, rows, twin_bytes)?;
+    if u32_at(bytes, 16) as usize != rank {
+        return Err(Unusable("rank differs from the manifest"));
     }
     let id_block =
         usize::try_from(u64_at(bytes, 48)).map_err(|_| Unusable("id block too large"))?;
@@ -191,15 +233,7 @@ pub fn decode(
     if expected_len != Some(bytes.len()) {
         return Err(Unusable("the file's length does not match its header"));
     }
-    let (body, tail) = bytes.split_at(bytes.len() - 8);
-    if checksum(body) != u64::from_le_bytes(tail.try_into().expect("8 bytes")) {
-        return Err(Unusable("checksum mismatch"));
-    }
-    if twin_checksum() != Some(u64_at(bytes, 40)) {
-        return Err(Unusable(
-            "the CSV twin changed since the binary copy was written",
-        ));
-    }
+    let body = check_sums(bytes, twin_checksum)?;
     let mut ids = IdMap::new();
     let mut at = HEADER;
     let end = HEADER + id_block;
@@ -241,15 +275,7 @@ pub const RATINGS_MAGIC: [u8; 8] = *b"sxtrtngs";
 pub fn encode_ratings(ratings: &Ratings, twin: Twin) -> Vec<u8> {
     let n = ratings.entries.len();
     let mut out = Vec::with_capacity(HEADER + n * 17 + 8);
-    out.extend_from_slice(&RATINGS_MAGIC);
-    out.extend_from_slice(&VERSION.to_le_bytes());
-    out.extend_from_slice(&BYTE_ORDER.to_le_bytes());
-    out.extend_from_slice(&0u32.to_le_bytes());
-    out.extend_from_slice(&0u32.to_le_bytes());
-    out.extend_from_slice(&(n as u64).to_le_bytes());
-    out.extend_from_slice(&twin.bytes.to_le_bytes());
-    out.extend_from_slice(&twin.checksum.to_le_bytes());
-    out.extend_from_slice(&0u64.to_le_bytes());
+    write_header(&mut out, RATINGS_MAGIC, 0, n, twin, 0);
     out.extend(ratings.entries.iter().flat_map(|r| r.user.to_le_bytes()));
     out.extend(ratings.entries.iter().flat_map(|r| r.item.to_le_bytes()));
     out.extend(ratings.entries.iter().flat_map(|r| r.value.to_le_bytes()));
@@ -270,27 +296,11 @@ pub fn decode_ratings(
     twin_bytes: u64,
     twin_checksum: impl FnOnce() -> Option<u64>,
 ) -> Result<Ratings, Unusable> {
-    if bytes.len() < HEADER + 8 || bytes[..8] != RATINGS_MAGIC {
-        return Err(Unusable("not a sextant ratings file"));
-    }
-    if u32_at(bytes, 8) != VERSION || u32_at(bytes, 12) != BYTE_ORDER {
-        return Err(Unusable("unsupported version or byte order"));
-    }
-    if u64_at(bytes, 24) != rows as u64 || u64_at(bytes, 32) != twin_bytes {
-        return Err(Unusable("row count or CSV twin differs"));
-    }
+    check_header(bytes, RATINGS_MAGIC, rows, twin_bytes)?;
     if rows.checked_mul(17).and_then(|n| n.checked_add(HEADER + 8)) != Some(bytes.len()) {
         return Err(Unusable("the file's length does not match its header"));
     }
-    let (body, tail) = bytes.split_at(bytes.len() - 8);
-    if checksum(body) != u64::from_le_bytes(tail.try_into().expect("8 bytes")) {
-        return Err(Unusable("checksum mismatch"));
-    }
-    if twin_checksum() != Some(u64_at(bytes, 40)) {
-        return Err(Unusable(
-            "the CSV twin changed since the binary copy was written",
-        ));
-    }
+    let body = check_sums(bytes, twin_checksum)?;
     let (user_part, rest) = body[HEADER..].split_at(rows * 4);
     let (item_part, rest) = rest.split_at(rows * 4);
     let (value_part, split_part) = rest.split_at(rows * 8);
@@ -360,7 +370,7 @@ mod tests {
         );
         assert_eq!(
             decode(&bytes, 4, 2, 77, || Some(5)).unwrap_err(),
-            Unusable("rank or row count differs from the manifest")
+            Unusable("rank differs from the manifest")
         );
         let changed = Unusable("the CSV twin changed since the binary copy was written");
         assert_eq!(decode(&bytes, 3, 2, 78, || Some(5)).unwrap_err(), changed);
@@ -376,7 +386,7 @@ mod tests {
         let junk = [b'x'; 80];
         assert_eq!(
             decode(&junk, 3, 2, 77, || Some(5)).unwrap_err(),
-            Unusable("not a sextant factor file")
+            Unusable("not a sextant binary file of this kind")
         );
     }
 

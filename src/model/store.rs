@@ -497,26 +497,22 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         check_file_name(name, &manifest_path)?;
     }
     let rank = manifest.rank;
-    let users = match fast_table(
+    let users = load_table(
         source,
         files.users_bin.as_deref(),
         &files.users,
         rank,
         manifest.counts.users,
-    ) {
-        Some(table) => table,
-        None => read_table(source, &files.users, rank, manifest.counts.users, "users")?,
-    };
-    let items = match fast_table(
+        "users",
+    )?;
+    let items = load_table(
         source,
         files.items_bin.as_deref(),
         &files.items,
         rank,
         manifest.counts.items,
-    ) {
-        Some(table) => table,
-        None => read_table(source, &files.items, rank, manifest.counts.items, "items")?,
-    };
+        "items",
+    )?;
     let ratings_path = source.path(&files.ratings);
     let options = RatingsOptions {
         columns: RatingColumns {
@@ -607,9 +603,23 @@ fn fast_table(
 ) -> Option<crate::data::FactorTable> {
     let bin = bin?;
     let csv_bytes = source.size(csv)?;
-    source.size(bin)?;
     let bytes = source.read(bin).ok()?;
     crate::data::binary::decode(&bytes, rank, rows, csv_bytes, || source.checksum(csv)).ok()
+}
+
+/// A factor table from its binary twin when that checks out, else from the CSV.
+fn load_table(
+    source: &dyn ModelSource,
+    bin: Option<&str>,
+    csv: &str,
+    rank: usize,
+    rows: usize,
+    what: &str,
+) -> Result<crate::data::FactorTable, DataError> {
+    match fast_table(source, bin, csv, rank, rows) {
+        Some(table) => Ok(table),
+        None => read_table(source, csv, rank, rows, what),
+    }
 }
 
 fn read_table(
