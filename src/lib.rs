@@ -15,6 +15,7 @@ pub mod data;
 pub mod error;
 pub mod index;
 pub mod model;
+pub mod report;
 pub mod rng;
 
 pub use error::{DataError, FitError};

@@ -1,10 +1,15 @@
 //! Analyses of a fitted model: accuracy metrics, explanations of single predictions,
 //! suggestions, and subspace comparison.
 
+pub mod audit;
+pub mod coherence;
+pub mod diagnostics;
 pub mod explain;
 pub mod loadings;
 pub mod metrics;
 pub mod projection;
+pub mod ranking;
+pub mod stats;
 pub mod subspace;
 pub mod suggest;
 

@@ -2,6 +2,7 @@
 //! subcommand parses and validates, resolves a plan (data loaded, model fitted or loaded),
 //! then does the work through the library and prints through [`output`].
 
+mod audit;
 mod demo;
 mod explain;
 mod explore;
@@ -61,6 +62,8 @@ enum Command {
     /// about people beyond what to show them. An explanation given to a member uses that
     /// member's own ratings only.
     Explain(explain::ExplainArgs),
+    /// Audit a model: coherence, worst fits, support, factor meaning, ranking, notes.
+    Audit(audit::AuditArgs),
 }
 
 /// Runs the parsed command line.
@@ -73,6 +76,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Neighbours(args)) => neighbours::run(&args),
         Some(Command::Suggest(args)) => suggest::run(&args),
         Some(Command::Explain(args)) => explain::run(&args),
+        Some(Command::Audit(args)) => audit::run(&args),
         None => demo::run(),
     }
 }

@@ -22,6 +22,15 @@ pub enum MetricArg {
     Cosine,
 }
 
+impl From<MetricArg> for Metric {
+    fn from(arg: MetricArg) -> Self {
+        match arg {
+            MetricArg::Euclidean => Metric::Euclidean,
+            MetricArg::Cosine => Metric::Cosine,
+        }
+    }
+}
+
 /// The k nearest items to an item, or members to a member, in the latent space.
 ///
 /// Both the Euclidean distance and the cosine similarity are shown whatever the ranking.
@@ -92,10 +101,7 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
         }
     };
     let row = resolve(ids, query, if kind == "item" { "item" } else { "member" })?;
-    let metric = match args.metric {
-        MetricArg::Euclidean => Metric::Euclidean,
-        MetricArg::Cosine => Metric::Cosine,
-    };
+    let metric: Metric = args.metric.into();
     let d = model.factors.rank;
     let index = NeighbourIndex::build(vectors, d, metric, Path::Auto);
     let found = index

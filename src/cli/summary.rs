@@ -264,5 +264,20 @@ pub fn save_and_print(
     if !quiet {
         eprintln!("wrote model directory {}", out.display());
     }
+    // Curator notes carried over from the model this one replaced.
+    match sextant::model::notes::read_notes(out) {
+        Ok(notes) if !notes.is_empty() => {
+            let orphans = notes.orphans(&model.ratings.items, model.factors.rank);
+            eprintln!(
+                "kept {} curator note(s) from the previous model; factor labels may no longer fit the refitted factors",
+                notes.len()
+            );
+            if !orphans.is_empty() {
+                eprintln!("note: {}", orphans.describe());
+            }
+        }
+        Ok(_) => {}
+        Err(e) => eprintln!("warning: the carried-over curator notes cannot be read: {e}"),
+    }
     super::output::print(&render(model, &out.display().to_string(), format)?)
 }

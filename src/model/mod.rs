@@ -21,6 +21,7 @@ pub mod build;
 pub mod fit;
 pub mod kernels;
 pub mod manifest;
+pub mod notes;
 pub mod solve;
 pub mod store;
 

@@ -93,6 +93,13 @@ pub fn save_model(dir: &Path, model: &Model) -> Result<(), SaveError> {
         .map_or_else(|| "model".into(), |n| n.to_string_lossy().into_owned());
     let staging = Staging::create(&parent, &name)?;
     write_files(&staging.path, model)?;
+    // Curator notes are copied and the directories swapped under the notes lock, so a note
+    // saved by an open explorer meanwhile lands either before the copy or in the new model.
+    let _lock = if existing == Target::Model {
+        Some(super::notes::lock_dir(dir).map_err(io_error(dir))?)
+    } else {
+        None
+    };
     if existing == Target::Model {
         let notes = dir.join(ANNOTATIONS);
         if notes.is_file() {

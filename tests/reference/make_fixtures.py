@@ -160,6 +160,51 @@ def predictive_sd():
     return {"source": "numpy (Bishop 2006, eq. 3.59)", "cases": cases}
 
 
+def hypergeometric():
+    """scipy.stats.hypergeom(M=population, n=marked, N=draws): pmf, cdf and sf at every x."""
+    from scipy.stats import hypergeom
+    cases = []
+    for population, marked, draws in [(399, 49, 10), (20, 7, 5), (1000, 3, 8), (1000000, 125000, 10), (12, 3, 3)]:
+        law = hypergeom(population, marked, draws)
+        xs = list(range(0, min(marked, draws) + 1))
+        cases.append({"population": population, "marked": marked, "draws": draws,
+                      "pmf": [float(law.pmf(x)) for x in xs],
+                      "cdf": [float(law.cdf(x)) for x in xs],
+                      "at_least": [float(law.sf(x - 1)) for x in xs]})
+    return {"source": "scipy.stats.hypergeom", "cases": cases}
+
+
+def ndcg_cases():
+    """sklearn.metrics.ndcg_score (linear gain, log2 discount) on random graded relevance
+    with distinct scores, at several cut-offs."""
+    from sklearn.metrics import ndcg_score
+    rng = np.random.default_rng(53)
+    cases = []
+    for n, k in [(6, 3), (20, 5), (50, 10), (50, 50)]:
+        relevance = rng.integers(0, 4, size=n).astype(float)
+        scores = rng.permutation(n).astype(float)
+        cases.append({"k": k, "relevance": relevance.tolist(), "scores": scores.tolist(),
+                      "ndcg": float(ndcg_score([relevance], [scores], k=k))})
+    return {"source": "sklearn.metrics.ndcg_score", "cases": cases}
+
+
+def fold_in():
+    """A profile folded into fixed item vectors is one ridge solve:
+    u = (lambda sigma2 I + V'V)^-1 V'(r - mu), predictions mu + V_all u (numpy.linalg.solve)."""
+    rng = np.random.default_rng(67)
+    cases = []
+    for n_items, d, n_rated, lam, sigma2, mu in [(40, 6, 9, 1.0, 1.0, 3.5), (25, 3, 2, 0.3, 0.7, 0.0), (60, 10, 30, 2.0, 0.5, 2.75)]:
+        items = rng.normal(size=(n_items, d))
+        rated = np.sort(rng.choice(n_items, size=n_rated, replace=False))
+        ratings = rng.integers(1, 6, size=n_rated).astype(float)
+        v = items[rated]
+        u = np.linalg.solve(lam * sigma2 * np.eye(d) + v.T @ v, v.T @ (ratings - mu))
+        cases.append({"d": d, "lambda": lam, "sigma2": sigma2, "mu": mu, "items": items.tolist(),
+                      "rated": rated.astype(float).tolist(), "ratings": ratings.tolist(),
+                      "vector": u.tolist(), "predictions": (mu + items @ u).tolist()})
+    return {"source": "numpy.linalg.solve", "cases": cases}
+
+
 def build():
     return {
         "ridge_steps.json": {
@@ -175,6 +220,9 @@ def build():
         "longley.json": longley(),
         "knn_ckdtree.json": knn_ckdtree(),
         "predictive_sd.json": predictive_sd(),
+        "hypergeometric.json": hypergeometric(),
+        "ndcg.json": ndcg_cases(),
+        "fold_in.json": fold_in(),
     }
 
 

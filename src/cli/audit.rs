@@ -1,0 +1,98 @@
+//! `sextant audit`: neighbour coherence, worst fits, support, vector lengths, factor meaning,
+//! ranking quality and curator notes, as a Markdown report and CSV files.
+
+use std::path::PathBuf;
+
+use anyhow::Context as _;
+use clap::Args;
+use sextant::analysis::audit::{AuditOptions, audit};
+use sextant::model::load_model;
+use sextant::model::notes::read_notes;
+use sextant::report;
+
+use super::neighbours::MetricArg;
+use super::output;
+
+/// Audit a model: how coherent item neighbourhoods are, where the fit misses, which members
+/// and items the data cannot place, what each factor stands for, how well held-out ratings
+/// are ranked, and the curators' notes.
+///
+/// Without --report or --csv the Markdown report goes to stdout.
+#[derive(Debug, Args)]
+pub struct AuditArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// Write the Markdown report to this file.
+    #[arg(long, value_name = "FILE")]
+    report: Option<PathBuf>,
+    /// Write the figures as CSV files into this directory (created if missing).
+    #[arg(long, value_name = "DIR")]
+    csv: Option<PathBuf>,
+    /// Neighbours per item for the coherence check.
+    #[arg(long, default_value_t = 10, value_name = "K")]
+    neighbours: usize,
+    /// Metric for the coherence neighbours.
+    #[arg(long, value_enum, default_value_t = MetricArg::Cosine)]
+    metric: MetricArg,
+    /// Length of each "worst" list.
+    #[arg(long, default_value_t = 20, value_name = "N")]
+    top: usize,
+    /// Items listed at each end of a factor.
+    #[arg(long, default_value_t = 8, value_name = "N")]
+    ends: usize,
+    /// Cut-off k of precision@k, recall@k and NDCG@k.
+    #[arg(short, long, default_value_t = 10)]
+    k: usize,
+    /// Held-out ratings at or above this count as relevant (default: three quarters of the
+    /// way up the rating scale, 4 on 1–5).
+    #[arg(long, value_name = "RATING")]
+    relevant: Option<f64>,
+}
+
+pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
+    if args.neighbours == 0 || args.k == 0 {
+        return Err(super::UsageError("--neighbours and -k must be at least 1".into()).into());
+    }
+    if args.relevant.is_some_and(|r| !r.is_finite()) {
+        return Err(super::UsageError("--relevant must be a finite number".into()).into());
+    }
+    let model = load_model(&args.model)?;
+    let notes = read_notes(&args.model)?;
+    let options = AuditOptions {
+        neighbours: args.neighbours,
+        metric: args.metric.into(),
+        top: args.top,
+        ends: args.ends,
+        k: args.k,
+        threshold: args.relevant,
+    };
+    let found = audit(&model, options);
+    let name = args.model.display().to_string();
+    let text = report::markdown(&model, &name, &found, &notes);
+    if let Some(dir) = &args.csv {
+        std::fs::create_dir_all(dir)
+            .with_context(|| format!("{}: cannot create", dir.display()))?;
+        for (file, content) in report::csv_files(&model, &found, &notes) {
+            output::write_atomic(&dir.join(file), content.as_bytes())?;
+        }
+        eprintln!("wrote the audit's CSV files to {}", dir.display());
+    }
+    match &args.report {
+        Some(path) => {
+            output::write_atomic(path, text.as_bytes())?;
+            eprintln!("wrote the audit report to {}", path.display());
+            if let Some(c) = &found.coherence {
+                eprintln!(
+                    "neighbour coherence {:.3} (random {:.3}); {} members and items prior-dominated",
+                    c.mean,
+                    c.baseline,
+                    found.low_support.len()
+                );
+            }
+            Ok(())
+        }
+        None if args.csv.is_none() => output::print(&text),
+        None => Ok(()),
+    }
+}
