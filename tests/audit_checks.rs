@@ -211,10 +211,9 @@ fn the_report_reads_back_with_the_computed_figures() {
     );
 }
 
-#[test]
-fn audit_without_categories_or_holdout_says_what_it_could_not_measure() {
-    let dir = tempfile::tempdir().unwrap();
-    let ratings = dir.path().join("r.csv");
+/// A small ratings file (30 members × 12 items, some pairs missing).
+fn small_ratings(dir: &std::path::Path) -> std::path::PathBuf {
+    let ratings = dir.join("r.csv");
     let mut text = String::from("user,item,rating\n");
     for u in 0..30 {
         for i in 0..12 {
@@ -224,8 +223,11 @@ fn audit_without_categories_or_holdout_says_what_it_could_not_measure() {
         }
     }
     std::fs::write(&ratings, text).unwrap();
-    let model = dir.path().join("m");
-    let fit = sextant(&[
+    ratings
+}
+
+fn fit_small(ratings: &std::path::Path, model: &std::path::Path) -> std::process::Output {
+    let out = sextant(&[
         "fit",
         ratings.to_str().unwrap(),
         "--out",
@@ -236,11 +238,16 @@ fn audit_without_categories_or_holdout_says_what_it_could_not_measure() {
         "0",
         "-q",
     ]);
-    assert!(
-        fit.status.success(),
-        "{}",
-        String::from_utf8_lossy(&fit.stderr)
-    );
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    out
+}
+
+#[test]
+fn audit_without_categories_or_holdout_says_what_it_could_not_measure() {
+    let dir = tempfile::tempdir().unwrap();
+    let ratings = small_ratings(dir.path());
+    let model = dir.path().join("m");
+    fit_small(&ratings, &model);
     let out = sextant(&["audit", model.to_str().unwrap()]);
     assert!(out.status.success());
     let text = String::from_utf8(out.stdout).unwrap();
@@ -248,6 +255,24 @@ fn audit_without_categories_or_holdout_says_what_it_could_not_measure() {
     assert!(text.contains("Not measured: the items metadata names fewer than two categories"));
     assert!(text.contains("No ratings are held out."));
     assert!(!text.contains("NaN"));
+}
+
+#[test]
+fn a_refit_keeps_the_notes_and_reports_those_about_missing_items() {
+    let dir = tempfile::tempdir().unwrap();
+    let ratings = small_ratings(dir.path());
+    let model = dir.path().join("m");
+    fit_small(&ratings, &model);
+    let notes = "(format: \"sextant-notes\", version: 1, factors: {1: \"mild\", 7: \"gone\"}, \
+                 items: {\"i3\": \"keep\", \"i99\": \"orphan\"})\n";
+    std::fs::write(model.join("annotations.ron"), notes).unwrap();
+    let out = fit_small(&ratings, &model);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains("kept 4 curator note(s)"), "{stderr}");
+    assert!(stderr.contains("1 item note refers"), "{stderr}");
+    assert!(stderr.contains("'i99'") && stderr.contains("factors 7"), "{stderr}");
+    // Nothing is dropped from the file: orphans stay until a curator removes them.
+    assert_eq!(std::fs::read_to_string(model.join("annotations.ron")).unwrap(), notes);
 }
 
 fn copy_dir(from: &std::path::Path, to: &std::path::Path) {

@@ -264,8 +264,13 @@ impl Orphans {
                 .cloned()
                 .or_else(|| self.pairs.first().map(|(a, b)| format!("{a}–{b}")))
                 .unwrap_or_default();
+            let verb = if self.items.len() + self.pairs.len() == 1 {
+                "refers"
+            } else {
+                "refer"
+            };
             text = format!(
-                "{} refer to items this model does not have (first: '{first}')",
+                "{} {verb} to items this model does not have (first: '{first}')",
                 parts.join(" and ")
             );
         }
