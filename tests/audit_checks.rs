@@ -238,7 +238,11 @@ fn fit_small(ratings: &std::path::Path, model: &std::path::Path) -> std::process
         "0",
         "-q",
     ]);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     out
 }
 
@@ -270,9 +274,15 @@ fn a_refit_keeps_the_notes_and_reports_those_about_missing_items() {
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(stderr.contains("kept 4 curator note(s)"), "{stderr}");
     assert!(stderr.contains("1 item note refers"), "{stderr}");
-    assert!(stderr.contains("'i99'") && stderr.contains("factors 7"), "{stderr}");
+    assert!(
+        stderr.contains("'i99'") && stderr.contains("factors 7"),
+        "{stderr}"
+    );
     // Nothing is dropped from the file: orphans stay until a curator removes them.
-    assert_eq!(std::fs::read_to_string(model.join("annotations.ron")).unwrap(), notes);
+    assert_eq!(
+        std::fs::read_to_string(model.join("annotations.ron")).unwrap(),
+        notes
+    );
 }
 
 fn copy_dir(from: &std::path::Path, to: &std::path::Path) {

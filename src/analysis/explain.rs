@@ -132,8 +132,8 @@ pub struct Support {
 /// A prediction taken apart.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Explanation {
-    /// Member.
-    pub user: u32,
+    /// Member (`None` for a what-if profile that belongs to nobody).
+    pub user: Option<u32>,
     /// Item.
     pub item: u32,
     /// The global offset μ.
@@ -167,8 +167,38 @@ pub fn explain(
     evidence: usize,
     item_counts: &[u32],
 ) -> Explanation {
+    let rated = training_ratings(model, user);
+    let profile = Profile {
+        vector: model.factors.user(user),
+        rated: &rated,
+    };
+    let mut e = explain_profile(model, &profile, item, evidence, item_counts);
+    e.user = Some(user);
+    e.actual = actual_rating(model, user, item);
+    e
+}
+
+/// A member's vector and the ratings it was fitted from: a fitted member's, or a what-if
+/// profile folded in against the item vectors.
+#[derive(Debug, Clone, Copy)]
+pub struct Profile<'a> {
+    /// The member vector.
+    pub vector: &'a [f64],
+    /// The (item, rating) pairs behind it.
+    pub rated: &'a [(u32, f64)],
+}
+
+/// Explains the prediction of `item` for any profile. `actual` is the profile's rating of
+/// the item when it has one.
+pub fn explain_profile(
+    model: &Model,
+    profile: &Profile<'_>,
+    item: u32,
+    evidence: usize,
+    item_counts: &[u32],
+) -> Explanation {
     let f = &model.factors;
-    let (u, v) = (f.user(user), f.item(item));
+    let (u, v) = (profile.vector, f.item(item));
     let mut contributions: Vec<Contribution> = u
         .iter()
         .zip(v)
@@ -184,15 +214,15 @@ pub fn explain(
             .total_cmp(&a.value.abs())
             .then(a.factor.cmp(&b.factor))
     });
-    let predicted = f.predict(user, item);
-    let rated = training_ratings(model, user);
+    let predicted = f.mu + dot(u, v);
+    let rated = profile.rated;
     let mut nearest: Vec<Evidence> = rated
         .iter()
         .filter(|&&(j, _)| j != item)
         .map(|&(j, actual)| Evidence {
             item: j,
             actual,
-            predicted: f.predict(user, j),
+            predicted: f.mu + dot(u, f.item(j)),
             distance: squared_distance(f.item(j), v).sqrt(),
         })
         .collect();
@@ -201,13 +231,13 @@ pub fn explain(
     let rank = f.rank;
     let item_ratings = item_counts[item as usize] as usize;
     Explanation {
-        user,
+        user: None,
         item,
         mu: f.mu,
         predicted,
         rounded: model.manifest.scale.round(predicted),
         predictive_sd: Posterior::for_items(model, rated.iter().map(|&(j, _)| j)).predictive_sd(v),
-        actual: actual_rating(model, user, item),
+        actual: rated.iter().find(|&&(j, _)| j == item).map(|&(_, r)| r),
         contributions,
         evidence: nearest,
         support: Support {

@@ -37,15 +37,35 @@ pub fn suggest(
         .map(|r| r.item)
         .collect();
     let excluded: &[u32] = if include_rated { &[] } else { &rated };
-    // `rated` is sorted by item (the ratings are sorted by user, then item).
-    let keep = |j: u32| excluded.binary_search(&j).is_err();
-    let u = model.factors.user(user);
-    let posterior = Posterior::for_items(
+    let trained: Vec<u32> = training_ratings(model, user)
+        .into_iter()
+        .map(|(j, _)| j)
+        .collect();
+    top_unrated(
         model,
-        training_ratings(model, user).into_iter().map(|(j, _)| j),
-    );
+        index,
+        model.factors.user(user),
+        excluded,
+        &trained,
+        n,
+    )
+}
+
+/// The top `n` items for member vector `vector` by predicted rating, leaving out the
+/// sorted item list `excluded`; the predictive uncertainty comes from a member who rated
+/// `rated`.
+pub fn top_unrated(
+    model: &Model,
+    index: &InnerProductIndex,
+    vector: &[f64],
+    excluded: &[u32],
+    rated: &[u32],
+    n: usize,
+) -> Vec<Suggestion> {
+    let keep = |j: u32| excluded.binary_search(&j).is_err();
+    let posterior = Posterior::for_items(model, rated.iter().copied());
     index
-        .top(u, n, keep, excluded.len())
+        .top(vector, n, keep, excluded.len())
         .into_iter()
         .enumerate()
         .map(|(k, scored)| {

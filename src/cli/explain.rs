@@ -29,6 +29,9 @@ pub struct ExplainArgs {
     /// Output format (CSV lists the per-factor contributions).
     #[arg(long, value_enum, default_value_t = Format::Table)]
     format: Format,
+    /// A few plain sentences for the member, built only from their own ratings.
+    #[arg(long, conflicts_with = "format")]
+    plain: bool,
 }
 
 #[derive(Serialize)]
@@ -72,6 +75,10 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
     let user = resolve(&model.ratings.users, &args.user, "member")?;
     let item = resolve(&model.ratings.items, &args.item, "item")?;
     let e = explain(&model, user, item, args.evidence, &item_support(&model));
+    if args.plain {
+        let text = sextant::analysis::plain::plain_explanation(&model, &e);
+        return output::print(&(text + "\n"));
+    }
     let items = &model.ratings.items;
     let report = Report {
         user: &args.user,

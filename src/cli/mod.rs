@@ -7,6 +7,7 @@ mod demo;
 mod explain;
 mod explore;
 mod fit;
+mod foldin;
 mod import;
 mod info;
 mod inputs;
@@ -64,6 +65,9 @@ enum Command {
     Explain(explain::ExplainArgs),
     /// Audit a model: coherence, worst fits, support, factor meaning, ranking, notes.
     Audit(audit::AuditArgs),
+    /// Fold a what-if profile (item,rating CSV) into a model: its vector and suggestions.
+    #[command(name = "fold-in")]
+    FoldIn(foldin::FoldInArgs),
 }
 
 /// Runs the parsed command line.
@@ -77,6 +81,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Suggest(args)) => suggest::run(&args),
         Some(Command::Explain(args)) => explain::run(&args),
         Some(Command::Audit(args)) => audit::run(&args),
+        Some(Command::FoldIn(args)) => foldin::run(&args),
         None => demo::run(),
     }
 }

@@ -1,0 +1,77 @@
+//! What-if profiles: a member vector for any set of ratings, computed as one user step
+//! against the fixed item vectors, and the suggestions and explanations that follow.
+//!
+//! Folding in is exactly the fitter's user update: `u = (λσ² I + Σ_j v_j v_jᵀ)⁻¹ Σ_j (r_j −
+//! μ) v_j` over the profile's rated items (Hoerl & Kennard 1970), solved by the same
+//! Cholesky code, so folding in a fitted member's training ratings reproduces the vector
+//! the fit's last user step gave them.
+
+use super::explain::Profile;
+use super::suggest::{Suggestion, top_unrated};
+use crate::index::InnerProductIndex;
+use crate::model::{Model, RidgeWorkspace};
+
+/// Why a profile has no vector.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum FoldInError {
+    /// Without the prior (λ = 0) the profile needs as many independent ratings as the rank.
+    #[error(
+        "the model has λ = 0, so a profile needs at least {rank} ratings of items whose vectors are independent; it has {ratings}"
+    )]
+    Underdetermined {
+        /// Ratings in the profile.
+        ratings: usize,
+        /// The model's rank.
+        rank: usize,
+    },
+}
+
+/// The member vector of a profile (pairs of item and rating; the order does not matter).
+/// An empty profile gives the zero vector when λ > 0 (everything predicted at μ).
+pub fn fold_in(model: &Model, rated: &[(u32, f64)]) -> Result<Vec<f64>, FoldInError> {
+    let m = &model.manifest;
+    fold_in_vectors(
+        &model.factors.items,
+        model.factors.rank,
+        model.factors.mu,
+        m.lambda * m.sigma2,
+        rated,
+    )
+}
+
+/// [`fold_in`] on bare item vectors (row-major, width `d`), offset `mu` and ridge term
+/// `λσ²`.
+pub fn fold_in_vectors(
+    items: &[f64],
+    d: usize,
+    mu: f64,
+    ridge: f64,
+    rated: &[(u32, f64)],
+) -> Result<Vec<f64>, FoldInError> {
+    let mut sorted = rated.to_vec();
+    sorted.sort_by_key(|&(j, _)| j);
+    let rows: Vec<u32> = sorted.iter().map(|&(j, _)| j).collect();
+    let targets: Vec<f64> = sorted.iter().map(|&(_, r)| r - mu).collect();
+    let mut vector = vec![0.0; d];
+    RidgeWorkspace::new(d)
+        .solve(items, &rows, &targets, ridge, &mut vector)
+        .map_err(|_| FoldInError::Underdetermined {
+            ratings: rated.len(),
+            rank: d,
+        })?;
+    Ok(vector)
+}
+
+/// The top `n` items for a profile by predicted rating, leaving out the items it rated,
+/// each with its predictive standard deviation.
+pub fn suggest_profile(
+    model: &Model,
+    index: &InnerProductIndex,
+    profile: &Profile<'_>,
+    n: usize,
+) -> Vec<Suggestion> {
+    let mut excluded: Vec<u32> = profile.rated.iter().map(|&(j, _)| j).collect();
+    excluded.sort_unstable();
+    excluded.dedup();
+    top_unrated(model, index, profile.vector, &excluded, &excluded, n)
+}

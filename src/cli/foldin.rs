@@ -1,0 +1,163 @@
+//! `sextant fold-in`: a member vector and suggestions for a set of ratings that is not in
+//! the model (a new member, or an existing one with ratings added, changed or removed).
+
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+use clap::Args;
+use serde::Serialize;
+use sextant::analysis::explain::Profile;
+use sextant::analysis::foldin::{fold_in, suggest_profile};
+use sextant::data::profile::load_profile;
+use sextant::index::{InnerProductIndex, Path};
+use sextant::model::load_model;
+
+use super::lookup::{csv_number, item_label, item_title};
+use super::output::{self, Format};
+
+/// Fold a profile (an `item,rating` CSV) into a model: one member step against the fixed
+/// item vectors gives its vector; suggestions and their uncertainty follow.
+///
+/// Items the model does not know are skipped and named on stderr.
+#[derive(Debug, Args)]
+pub struct FoldInArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// The profile: CSV with columns item,rating.
+    #[arg(value_name = "RATINGS.csv")]
+    ratings: PathBuf,
+    /// How many suggestions.
+    #[arg(short, long, default_value_t = 10)]
+    n: usize,
+    /// Output format (CSV lists the suggestions).
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+}
+
+#[derive(Serialize)]
+struct Row<'a> {
+    rank: usize,
+    item: &'a str,
+    predicted: f64,
+    rounded: f64,
+    predictive_sd: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    title: Option<&'a str>,
+}
+
+#[derive(Serialize)]
+struct Report<'a> {
+    vector: &'a [f64],
+    ratings_used: usize,
+    skipped: Vec<&'a str>,
+    suggestions: Vec<Row<'a>>,
+}
+
+pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
+    let model = load_model(&args.model)?;
+    let profile = load_profile(&args.ratings, &model.ratings.items, &model.manifest.scale)?;
+    if !profile.unknown.is_empty() {
+        let named: Vec<String> = profile
+            .unknown
+            .iter()
+            .take(5)
+            .map(|(id, line)| format!("'{id}' (line {line})"))
+            .collect();
+        eprintln!(
+            "skipped {} rating(s) of items the model does not have: {}{}",
+            profile.unknown.len(),
+            named.join(", "),
+            if profile.unknown.len() > 5 {
+                ", …"
+            } else {
+                ""
+            }
+        );
+    }
+    let vector = fold_in(&model, &profile.ratings)
+        .map_err(|e| super::UsageError(format!("{}: {e}", args.ratings.display())))?;
+    let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
+    let found = suggest_profile(
+        &model,
+        &index,
+        &Profile {
+            vector: &vector,
+            rated: &profile.ratings,
+        },
+        args.n,
+    );
+    let report = Report {
+        vector: &vector,
+        ratings_used: profile.ratings.len(),
+        skipped: profile.unknown.iter().map(|(id, _)| id.as_str()).collect(),
+        suggestions: found
+            .iter()
+            .map(|s| Row {
+                rank: s.rank,
+                item: model.ratings.items.name(s.item),
+                predicted: s.predicted,
+                rounded: s.rounded,
+                predictive_sd: s.predictive_sd,
+                title: item_title(&model, s.item).0,
+            })
+            .collect(),
+    };
+    let text = match args.format {
+        Format::Json => serde_json::to_string_pretty(&report)? + "\n",
+        Format::Csv => {
+            let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
+            for r in &report.suggestions {
+                let fields = [
+                    r.rank.to_string(),
+                    r.item.to_owned(),
+                    csv_number(Some(r.predicted)),
+                    csv_number(Some(r.rounded)),
+                    csv_number(r.predictive_sd),
+                ];
+                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+            }
+            out
+        }
+        Format::Table => {
+            let mut out = String::new();
+            let _ = writeln!(
+                out,
+                "profile of {} rating(s) folded in (rank {}, λ = {}, σ² = {})",
+                report.ratings_used,
+                model.factors.rank,
+                model.manifest.lambda,
+                model.manifest.sigma2
+            );
+            let peak = vector.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(1e-12);
+            for (d, v) in vector.iter().enumerate() {
+                let width = (v.abs() / peak * 20.0).round() as usize;
+                let bar = "█".repeat(width);
+                let (left, right) = if *v < 0.0 {
+                    (format!("{bar:>20}"), String::new())
+                } else {
+                    (" ".repeat(20), bar)
+                };
+                let _ = writeln!(out, "  f{:<3} {v:>+8.3} {left}│{right}", d + 1);
+            }
+            let _ = writeln!(
+                out,
+                "\n{:>4}  {:>9}  {:>7}  {:>6}  item",
+                "rank", "predicted", "rounded", "± sd"
+            );
+            for (r, s) in report.suggestions.iter().zip(&found) {
+                let _ = writeln!(
+                    out,
+                    "{:>4}  {:>9.3}  {:>7}  {:>6}  {}",
+                    r.rank,
+                    r.predicted,
+                    r.rounded,
+                    output::fixed(r.predictive_sd, 2),
+                    item_label(&model, s.item)
+                );
+            }
+            out
+        }
+    };
+    output::print(&text)
+}

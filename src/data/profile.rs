@@ -1,0 +1,96 @@
+//! A what-if profile: one member's ratings as `item,rating` CSV, for folding into a model.
+
+use std::fs::File;
+use std::io::Read;
+use std::path::Path;
+
+use super::ids::IdMap;
+use super::ratings::{
+    csv_error, csv_reader, field, find_column, parse_rating, read_header, record_line,
+};
+use super::scale::RatingScale;
+use crate::error::DataError;
+
+/// A profile read from CSV: the ratings of items the model knows, and the ids it does not.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ProfileRatings {
+    /// (item index, rating), sorted by item.
+    pub ratings: Vec<(u32, f64)>,
+    /// Ids not in the model, with their lines (skipped).
+    pub unknown: Vec<(String, u64)>,
+}
+
+/// Reads a profile CSV from a file.
+pub fn load_profile(
+    path: &Path,
+    items: &IdMap,
+    scale: &RatingScale,
+) -> Result<ProfileRatings, DataError> {
+    let file = File::open(path).map_err(|e| DataError::read(path, e))?;
+    read_profile(file, path, items, scale)
+}
+
+/// Reads a profile CSV (`item,rating` header, extra columns ignored). Ratings must be
+/// finite and on the model's scale; an item may appear once; items the model does not know
+/// are collected in [`ProfileRatings::unknown`].
+pub fn read_profile(
+    reader: impl Read,
+    path: &Path,
+    items: &IdMap,
+    scale: &RatingScale,
+) -> Result<ProfileRatings, DataError> {
+    let mut csv = csv_reader(reader);
+    let header = read_header(&mut csv, path, "item, rating")?;
+    let item_col = find_column(&header, "item", "an 'item' column", path)?;
+    let rating_col = find_column(&header, "rating", "a 'rating' column", path)?;
+    let mut out = ProfileRatings::default();
+    let mut lines: std::collections::HashMap<u32, u64> = std::collections::HashMap::new();
+    let mut record = csv::ByteRecord::new();
+    while csv
+        .read_byte_record(&mut record)
+        .map_err(|e| csv_error(path, &e))?
+    {
+        let line = record_line(&record);
+        if record.iter().all(<[u8]>::is_empty) {
+            continue;
+        }
+        let id = field(&record, item_col, "item id", path, line)?;
+        let value = parse_rating(
+            field(&record, rating_col, "rating", path, line)?,
+            path,
+            line,
+        )?;
+        if !scale.contains(value) {
+            return Err(DataError::at_line(
+                path,
+                line,
+                format!(
+                    "rating {value} is not on the model's rating scale ({})",
+                    scale.describe()
+                ),
+            ));
+        }
+        match items.get(id) {
+            Some(j) => {
+                if let Some(&first) = lines.get(&j) {
+                    return Err(DataError::at_line(
+                        path,
+                        line,
+                        format!("item '{id}' is rated twice (first on line {first})"),
+                    ));
+                }
+                lines.insert(j, line);
+                out.ratings.push((j, value));
+            }
+            None => out.unknown.push((id.to_owned(), line)),
+        }
+    }
+    if out.ratings.is_empty() && out.unknown.is_empty() {
+        return Err(DataError::in_file(
+            path,
+            "has a header but no ratings; a profile needs at least one 'item,rating' row",
+        ));
+    }
+    out.ratings.sort_by_key(|&(j, _)| j);
+    Ok(out)
+}
