@@ -115,31 +115,56 @@ pub fn run(args: &FitArgs) -> anyhow::Result<()> {
     pool.install(|| fit_and_save(args, &options, scale))
 }
 
-fn fit_and_save(
-    args: &FitArgs,
-    options: &FitOptions,
+/// Ratings and metadata read for a fit, with their fingerprints.
+pub struct Prepared {
+    pub ratings: sextant::data::Ratings,
+    pub scale: RatingScale,
+    pub inputs: Vec<sextant::model::manifest::Input>,
+    pub meta: Option<sextant::data::ItemsMeta>,
+}
+
+/// Reads the ratings and the optional items metadata.
+pub fn prepare(
+    ratings_path: &Path,
+    items: Option<&Path>,
+    input: &RatingsArgs,
     scale: Option<RatingScale>,
-) -> anyhow::Result<()> {
-    let read_options = args.input.options(scale.clone(), None, false);
-    let (mut ratings, ratings_input) =
-        inputs::load_ratings(&args.ratings, &read_options, IdMap::new(), IdMap::new())?;
+) -> anyhow::Result<Prepared> {
+    let read_options = input.options(scale.clone(), None, false);
+    let (ratings, ratings_input) =
+        inputs::load_ratings(ratings_path, &read_options, IdMap::new(), IdMap::new())?;
     let scale =
         scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
     let mut input_prints = vec![ratings_input];
-    let meta = match &args.items {
+    let meta = match items {
         Some(path) => {
             let mut reader = inputs::open(path)?;
-            let meta = sextant::data::read_items_meta(
-                &mut reader,
-                path,
-                &args.input.item_col,
-                &ratings.items,
-            )?;
+            let meta =
+                sextant::data::read_items_meta(&mut reader, path, &input.item_col, &ratings.items)?;
             input_prints.push(inputs::input("items-meta", path, &reader));
             Some(meta)
         }
         None => None,
     };
+    Ok(Prepared {
+        ratings,
+        scale,
+        inputs: input_prints,
+        meta,
+    })
+}
+
+fn fit_and_save(
+    args: &FitArgs,
+    options: &FitOptions,
+    scale: Option<RatingScale>,
+) -> anyhow::Result<()> {
+    let Prepared {
+        mut ratings,
+        scale,
+        inputs: mut input_prints,
+        meta,
+    } = prepare(&args.ratings, args.items.as_deref(), &args.input, scale)?;
     let init = match &args.init_items {
         Some(path) => {
             let mut reader = inputs::open(path)?;
@@ -184,7 +209,7 @@ fn file_name(path: &Path) -> String {
     )
 }
 
-fn thread_pool(threads: Option<usize>) -> anyhow::Result<rayon::ThreadPool> {
+pub fn thread_pool(threads: Option<usize>) -> anyhow::Result<rayon::ThreadPool> {
     if threads == Some(0) {
         return Err(UsageError("--threads must be at least 1".into()).into());
     }

@@ -16,6 +16,7 @@ mod neighbours;
 mod output;
 mod suggest;
 mod summary;
+mod tune;
 
 use clap::{Parser, Subcommand};
 
@@ -68,6 +69,8 @@ enum Command {
     /// Fold a what-if profile (item,rating CSV) into a model: its vector and suggestions.
     #[command(name = "fold-in")]
     FoldIn(foldin::FoldInArgs),
+    /// Fit a grid of ranks × λ on one held-out split and compare held-out RMSE.
+    Tune(tune::TuneArgs),
 }
 
 /// Runs the parsed command line.
@@ -82,6 +85,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Explain(args)) => explain::run(&args),
         Some(Command::Audit(args)) => audit::run(&args),
         Some(Command::FoldIn(args)) => foldin::run(&args),
+        Some(Command::Tune(args)) => tune::run(&args),
         None => demo::run(),
     }
 }

@@ -1,0 +1,372 @@
+//! `sextant tune`: fit a grid of ranks × λ on one held-out split and compare held-out RMSE.
+
+use std::fmt::Write as _;
+use std::io::IsTerminal;
+use std::path::PathBuf;
+use std::time::Instant;
+
+use anyhow::Context as _;
+use clap::Args;
+use serde::Serialize;
+use sextant::data::assign_holdout;
+use sextant::model::manifest::RunOptions;
+use sextant::model::{FitOptions, FitResult, Fitter, Model, Provenance};
+
+use super::UsageError;
+use super::fit::{CenterArg, Prepared, prepare, thread_pool};
+use super::inputs::RatingsArgs;
+use super::output::{self, Format};
+
+/// Fit every combination of the given ranks and λ values on the same held-out split and
+/// compare them by held-out RMSE (lower is better). The fits run one after the other, each
+/// on all worker threads, so the times shown are comparable.
+#[derive(Debug, Args)]
+pub struct TuneArgs {
+    /// Ratings CSV with a header row (columns user,item,rating unless renamed).
+    #[arg(value_name = "RATINGS.csv")]
+    ratings: PathBuf,
+    /// Ranks to try, comma-separated.
+    #[arg(
+        long,
+        value_delimiter = ',',
+        default_value = "5,10,20",
+        value_name = "LIST"
+    )]
+    ranks: Vec<usize>,
+    /// Values of λ to try, comma-separated.
+    #[arg(
+        long,
+        value_delimiter = ',',
+        default_value = "0.1,1,10",
+        value_name = "LIST"
+    )]
+    lambdas: Vec<f64>,
+    /// Fraction of each member's ratings held out to compare the fits (above 0).
+    #[arg(long, value_name = "FRACTION", default_value_t = 0.1)]
+    holdout: f64,
+    /// Noise variance σ² of a rating.
+    #[arg(long, default_value_t = 1.0)]
+    sigma2: f64,
+    /// Subtract the global mean rating before fitting, or not.
+    #[arg(long, value_enum, default_value_t = CenterArg::Global)]
+    center: CenterArg,
+    /// Seed of the initial item vectors and of the held-out split.
+    #[arg(long, default_value_t = 0)]
+    seed: u64,
+    /// Convergence tolerance of each fit.
+    #[arg(long, default_value_t = 1e-6)]
+    tol: f64,
+    /// Iteration limit of each fit.
+    #[arg(long, default_value_t = 100)]
+    max_iters: usize,
+    /// Write the best model to this directory.
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
+    /// Items metadata CSV, kept in the best model when --out is given.
+    #[arg(long, value_name = "FILE")]
+    items: Option<PathBuf>,
+    /// Worker threads (default: all cores).
+    #[arg(long, value_name = "N")]
+    threads: Option<usize>,
+    /// Print nothing on stderr except errors.
+    #[arg(long, short)]
+    quiet: bool,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+    #[command(flatten)]
+    input: RatingsArgs,
+}
+
+/// One fit of the grid.
+#[derive(Debug, Clone, Serialize)]
+struct Point {
+    rank: usize,
+    lambda: f64,
+    holdout_rmse: Option<f64>,
+    train_rmse: Option<f64>,
+    iterations: usize,
+    converged: bool,
+    seconds: f64,
+    /// Why the fit failed, when it did (e.g. λ = 0 with too few ratings).
+    error: Option<String>,
+}
+
+#[derive(Serialize)]
+struct Report<'a> {
+    holdout: f64,
+    holdout_ratings: usize,
+    grid: &'a [Point],
+    best: Option<&'a Point>,
+}
+
+pub fn run(args: &TuneArgs) -> anyhow::Result<()> {
+    if args.ranks.is_empty() || args.lambdas.is_empty() {
+        return Err(UsageError("--ranks and --lambdas need at least one value each".into()).into());
+    }
+    if !(args.holdout > 0.0 && args.holdout < 1.0) {
+        return Err(UsageError(format!(
+            "--holdout must be above 0 and below 1 to compare fits, not {}",
+            args.holdout
+        ))
+        .into());
+    }
+    for &rank in &args.ranks {
+        for &lambda in &args.lambdas {
+            options(args, rank, lambda).validate()?;
+        }
+    }
+    let scale = args.input.scale()?;
+    let pool = thread_pool(args.threads)?;
+    pool.install(|| tune(args, scale))
+}
+
+fn options(args: &TuneArgs, rank: usize, lambda: f64) -> FitOptions {
+    FitOptions {
+        rank,
+        lambda,
+        sigma2: args.sigma2,
+        center: args.center.into(),
+        max_iters: args.max_iters,
+        tol: args.tol,
+        seed: args.seed,
+    }
+}
+
+fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::Result<()> {
+    let Prepared {
+        mut ratings,
+        scale,
+        inputs,
+        meta,
+    } = prepare(&args.ratings, args.items.as_deref(), &args.input, scale)?;
+    assign_holdout(&mut ratings, args.holdout, args.seed);
+    let held = ratings.holdout_count();
+    if held == 0 {
+        return Err(UsageError(format!(
+            "{}: no rating could be held out (every member has a single rating); tune needs held-out ratings",
+            args.ratings.display()
+        ))
+        .into());
+    }
+    let grid: Vec<(usize, f64)> = args
+        .ranks
+        .iter()
+        .flat_map(|&r| args.lambdas.iter().map(move |&l| (r, l)))
+        .collect();
+    let bar = (!args.quiet && std::io::stderr().is_terminal()).then(|| {
+        let bar = indicatif::ProgressBar::new(grid.len() as u64);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{elapsed:>4} [{bar:30}] fit {pos}/{len}  {msg}",
+            )
+            .expect("the template is valid")
+            .progress_chars("=> "),
+        );
+        bar
+    });
+    if !args.quiet && bar.is_none() {
+        eprintln!(
+            "tuning on {} ratings ({} held out): {} fits",
+            output::group(ratings.entries.len()),
+            output::group(held),
+            grid.len()
+        );
+    }
+    let mut points = Vec::with_capacity(grid.len());
+    let mut best: Option<(usize, FitResult)> = None;
+    for (k, &(rank, lambda)) in grid.iter().enumerate() {
+        if let Some(bar) = &bar {
+            bar.set_message(format!("rank {rank}, λ {lambda}"));
+        }
+        let started = Instant::now();
+        let outcome =
+            Fitter::new(&ratings, &options(args, rank, lambda), None).and_then(|f| f.run(|_| {}));
+        let seconds = started.elapsed().as_secs_f64();
+        let point = match outcome {
+            Ok(result) => {
+                let last = result.trace.last();
+                let point = Point {
+                    rank,
+                    lambda,
+                    holdout_rmse: last.and_then(|r| r.holdout_rmse),
+                    train_rmse: last.map(|r| r.train_rmse),
+                    iterations: result.trace.len(),
+                    converged: result.converged,
+                    seconds,
+                    error: None,
+                };
+                let better = match (&best, point.holdout_rmse) {
+                    (_, None) => false,
+                    (None, Some(_)) => true,
+                    (Some((b, _)), Some(v)) => points
+                        .get(*b)
+                        .and_then(|p: &Point| p.holdout_rmse)
+                        .is_none_or(|bv| v < bv),
+                };
+                if better && args.out.is_some() {
+                    best = Some((k, result));
+                } else if better {
+                    best = Some((
+                        k,
+                        FitResult {
+                            trace: Vec::new(),
+                            ..result
+                        },
+                    ));
+                }
+                point
+            }
+            Err(e) => Point {
+                rank,
+                lambda,
+                holdout_rmse: None,
+                train_rmse: None,
+                iterations: 0,
+                converged: false,
+                seconds,
+                error: Some(e.to_string()),
+            },
+        };
+        if let Some(bar) = &bar {
+            bar.inc(1);
+        } else if !args.quiet {
+            eprintln!(
+                "fit {}/{}: rank {rank}, λ {lambda}: {} in {seconds:.2} s",
+                k + 1,
+                grid.len(),
+                point.holdout_rmse.map_or_else(
+                    || point.error.clone().unwrap_or_default(),
+                    |v| format!("held-out RMSE {v:.4}")
+                )
+            );
+        }
+        points.push(point);
+    }
+    if let Some(bar) = bar {
+        bar.finish_and_clear();
+    }
+    let best_index = best.as_ref().map(|(k, _)| *k);
+    let report = Report {
+        holdout: args.holdout,
+        holdout_ratings: held,
+        grid: &points,
+        best: best_index.map(|k| &points[k]),
+    };
+    let text = render(&report, best_index, args.format)?;
+    if let (Some(out), Some((k, result))) = (&args.out, best) {
+        let (rank, lambda) = grid[k];
+        let run = RunOptions {
+            max_iters: args.max_iters,
+            tol: args.tol,
+            holdout: args.holdout,
+            duplicates: args.input.duplicates.into(),
+            init_items: None,
+        };
+        let provenance = Provenance {
+            scale,
+            inputs,
+            meta,
+        };
+        let model = Model::from_fit(
+            ratings,
+            &options(args, rank, lambda),
+            run,
+            result,
+            provenance,
+        )
+        .context("the best fit has no training ratings to evaluate")?;
+        sextant::model::save_model(out, &model)?;
+        if !args.quiet {
+            eprintln!(
+                "wrote the best model (rank {rank}, λ {lambda}) to {}",
+                out.display()
+            );
+        }
+    } else if args.out.is_some() {
+        return Err(
+            UsageError("no fit of the grid succeeded, so no model was written".into()).into(),
+        );
+    }
+    output::print(&text)
+}
+
+fn render(report: &Report<'_>, best: Option<usize>, format: Format) -> anyhow::Result<String> {
+    Ok(match format {
+        Format::Json => serde_json::to_string_pretty(report)? + "\n",
+        Format::Csv => {
+            let mut out = String::from(
+                "rank,lambda,holdout_rmse,train_rmse,iterations,converged,seconds,best\n",
+            );
+            for (k, p) in report.grid.iter().enumerate() {
+                let num = |v: Option<f64>| {
+                    v.map(sextant::data::factors::format_float)
+                        .unwrap_or_default()
+                };
+                let fields = [
+                    p.rank.to_string(),
+                    sextant::data::factors::format_float(p.lambda),
+                    num(p.holdout_rmse),
+                    num(p.train_rmse),
+                    p.iterations.to_string(),
+                    p.converged.to_string(),
+                    format!("{:.3}", p.seconds),
+                    (Some(k) == best).to_string(),
+                ];
+                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+            }
+            out
+        }
+        Format::Table => chart(report, best),
+    })
+}
+
+/// The grid as a table with a bar per fit: bar length grows with held-out RMSE above the
+/// best one, so the shortest bar is the best fit.
+fn chart(report: &Report<'_>, best: Option<usize>) -> String {
+    const WIDTH: usize = 32;
+    let values: Vec<f64> = report.grid.iter().filter_map(|p| p.holdout_rmse).collect();
+    let low = values.iter().copied().fold(f64::INFINITY, f64::min);
+    let high = values.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "held-out RMSE on {} ratings ({}% of each member's); shorter bar = better\n",
+        output::group(report.holdout_ratings),
+        report.holdout * 100.0
+    );
+    let _ = writeln!(
+        out,
+        "{:>5} {:>8}  {:>8}  {:>8}  {:>5}  {:>7}",
+        "rank", "λ", "held-out", "train", "iters", "seconds"
+    );
+    for (k, p) in report.grid.iter().enumerate() {
+        let line = match p.holdout_rmse {
+            Some(v) => {
+                let share = if high > low {
+                    (v - low) / (high - low)
+                } else {
+                    0.0
+                };
+                let bar = "▇".repeat(1 + (share * (WIDTH - 1) as f64).round() as usize);
+                format!(
+                    "{:>8.4}  {:>8.4}  {:>5}  {:>7.2}  {bar:<w$}{}{}",
+                    v,
+                    p.train_rmse.unwrap_or(f64::NAN),
+                    p.iterations,
+                    p.seconds,
+                    if p.converged { "" } else { " (not converged)" },
+                    if Some(k) == best { "  ◀ best" } else { "" },
+                    w = WIDTH
+                )
+            }
+            None => format!(
+                "failed: {}",
+                p.error.as_deref().unwrap_or("no held-out ratings")
+            ),
+        };
+        let row = format!("{:>5} {:>8}  {line}", p.rank, p.lambda);
+        let _ = writeln!(out, "{}", row.trim_end());
+    }
+    out
+}
