@@ -37,7 +37,11 @@ pub const DEMO: EmbeddedSource = EmbeddedSource {
 pub fn run() -> anyhow::Result<()> {
     let model = load_model_from(&DEMO)?;
     if super::explore::has_terminal() {
-        return super::explore::open(model, "bundled demo: Ladle & Loaf".to_owned());
+        return super::explore::open(
+            model,
+            "bundled demo: Ladle & Loaf".to_owned(),
+            sextant::model::notes::Notes::in_memory(),
+        );
     }
     let mut text = summary::render(
         &model,

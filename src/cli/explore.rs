@@ -28,7 +28,9 @@ pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
     }
     ensure_terminal()?;
     let model = load_model(&args.model)?;
-    open(model, args.model.display().to_string())
+    sextant::model::notes::clean_leftovers(&args.model);
+    let notes = sextant::model::notes::Notes::open(&args.model)?;
+    open(model, args.model.display().to_string(), notes)
 }
 
 /// True when both standard input and output are terminals.
@@ -45,8 +47,13 @@ fn ensure_terminal() -> Result<(), UsageError> {
 }
 
 /// Builds the explorer's state (indexes included) on the normal screen, then opens it.
-pub fn open(model: Model, label: String) -> anyhow::Result<()> {
-    let app = tui::app::App::new(model, label);
+pub fn open(
+    model: Model,
+    label: String,
+    notes: sextant::model::notes::Notes,
+) -> anyhow::Result<()> {
+    let mut app = tui::app::App::new(model, label);
+    app.notes = notes;
     tui::run(app)?;
     Ok(())
 }

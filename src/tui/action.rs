@@ -54,4 +54,22 @@ pub enum Action {
     FindMember,
     /// Order the member's ratings by size of residual, or by item.
     ToggleResidualOrder,
+    /// Write or edit a curator's note on the current item.
+    NoteItem,
+    /// Write or edit the label of the highlighted factor.
+    LabelFactor,
+    /// Flag (or unflag) the highlighted neighbour pair as wrong.
+    FlagPair,
+    /// Write the plain explanation of the highlighted item to a file.
+    WritePlain,
+    /// Start a what-if profile (from the open member, or from nobody), or leave it.
+    WhatIf,
+    /// Add the current or highlighted item to the what-if profile.
+    AddToProfile,
+    /// Raise the highlighted what-if rating one step.
+    RaiseRating,
+    /// Lower the highlighted what-if rating one step.
+    LowerRating,
+    /// Remove the highlighted what-if rating.
+    RemoveRating,
 }

@@ -29,8 +29,8 @@ pub enum Mode {
     Normal,
     /// Typing a catalogue filter.
     Search,
-    /// Typing a member id.
-    MemberPrompt,
+    /// Typing a line of text for [`App::prompt`] (a member id, a note, a label).
+    Prompt,
     /// The help overlay is open.
     Help,
 }
@@ -65,11 +65,24 @@ pub struct RatedRow {
     pub holdout: bool,
 }
 
+/// What the text being typed is for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Prompt {
+    /// A member id to open.
+    Member,
+    /// A curator's note on an item.
+    ItemNote(u32),
+    /// A curator's label for a factor (0-based).
+    FactorLabel(usize),
+}
+
 /// The member screen's state.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MemberView {
-    /// The member.
-    pub user: u32,
+    /// The member (`None` for a what-if profile started from nobody).
+    pub user: Option<u32>,
+    /// The what-if profile when the view shows one (ratings editable, vector folded in).
+    pub what_if: Option<super::workbench::WhatIf>,
     /// Their ratings.
     pub rated: Vec<RatedRow>,
     /// Their top suggestions.
@@ -169,8 +182,12 @@ pub struct App {
     pub screen: Screen,
     /// The open member, if any.
     pub member: Option<MemberView>,
-    /// The member id being typed.
-    pub member_input: String,
+    /// What the text being typed is for.
+    pub prompt: Prompt,
+    /// The text being typed.
+    pub prompt_input: String,
+    /// Curator notes of the model (saved to its directory when it has one).
+    pub notes: sextant::model::notes::Notes,
     /// The items' PCA map, computed the first time the map is shown.
     pub projection: Option<Projection>,
     /// Map zoom (1 = everything) and centre in map coordinates.
@@ -179,7 +196,7 @@ pub struct App {
     pub map_centre: [f64; 2],
     /// Training residuals in bins (centre, count).
     pub histogram: Vec<(f64, u64)>,
-    suggestions_index: Option<InnerProductIndex>,
+    pub(crate) suggestions_index: Option<InnerProductIndex>,
 }
 
 impl App {
@@ -218,7 +235,9 @@ impl App {
             cosine: None,
             screen: Screen::Items,
             member: None,
-            member_input: String::new(),
+            prompt: Prompt::Member,
+            prompt_input: String::new(),
+            notes: sextant::model::notes::Notes::in_memory(),
             projection: None,
             map_zoom: 1.0,
             map_centre: [0.0, 0.0],
@@ -335,10 +354,16 @@ impl App {
                 }
                 self.screen = Screen::Fit;
             }
-            Action::FindMember => {
-                self.mode = Mode::MemberPrompt;
-                self.member_input.clear();
-            }
+            Action::FindMember => self.start_prompt(Prompt::Member, String::new()),
+            Action::NoteItem
+            | Action::LabelFactor
+            | Action::FlagPair
+            | Action::WritePlain
+            | Action::WhatIf
+            | Action::AddToProfile
+            | Action::RaiseRating
+            | Action::LowerRating
+            | Action::RemoveRating => self.workbench(action),
             Action::ToggleResidualOrder => {
                 if let Some(m) = &mut self.member {
                     m.by_residual = !m.by_residual;
@@ -415,24 +440,43 @@ impl App {
         }
     }
 
-    /// A typed character or editing key while typing a member id.
-    pub fn member_prompt_input(&mut self, edit: SearchEdit) {
+    /// Starts typing a line of text for `prompt`, starting from `text`.
+    pub fn start_prompt(&mut self, prompt: Prompt, text: String) {
+        self.mode = Mode::Prompt;
+        self.prompt = prompt;
+        self.prompt_input = text;
+    }
+
+    /// A typed character or editing key while a prompt is open.
+    pub fn prompt_edit(&mut self, edit: SearchEdit) {
         match edit {
-            SearchEdit::Insert(c) => self.member_input.push(c),
+            SearchEdit::Insert(c) => {
+                if self.prompt_input.chars().count() < sextant::model::notes::MAX_NOTE_CHARS {
+                    self.prompt_input.push(c);
+                }
+            }
             SearchEdit::Delete => {
-                self.member_input.pop();
+                self.prompt_input.pop();
             }
             SearchEdit::Cancel => self.mode = Mode::Normal,
             SearchEdit::Accept => {
                 self.mode = Mode::Normal;
-                let id = self.member_input.trim().to_owned();
-                if let Some(user) = self.model.ratings.users.get(&id) {
-                    self.open_member(user);
-                } else {
-                    let close = self.model.ratings.users.closest(&id, 3).join(", ");
-                    self.status = format!("no member '{id}'; closest: {close}");
+                let text = std::mem::take(&mut self.prompt_input);
+                match self.prompt {
+                    Prompt::Member => self.open_member_by_id(text.trim()),
+                    Prompt::ItemNote(j) => self.set_item_note(j, &text),
+                    Prompt::FactorLabel(f) => self.set_factor_label(f, &text),
                 }
             }
+        }
+    }
+
+    fn open_member_by_id(&mut self, id: &str) {
+        if let Some(user) = self.model.ratings.users.get(id) {
+            self.open_member(user);
+        } else {
+            let close = self.model.ratings.users.closest(id, 3).join(", ");
+            self.status = format!("no member '{id}'; closest: {close}");
         }
     }
 
@@ -462,7 +506,8 @@ impl App {
             .get_or_insert_with(|| InnerProductIndex::build(&f.items, f.rank, Path::Auto));
         let suggestions = suggest(model, index, user, 10, false);
         self.member = Some(MemberView {
-            user,
+            user: Some(user),
+            what_if: None,
             rated,
             suggestions,
             selected: 0,
@@ -474,7 +519,7 @@ impl App {
         self.screen = Screen::Member;
     }
 
-    fn sort_member_ratings(&mut self) {
+    pub(crate) fn sort_member_ratings(&mut self) {
         let Some(mut m) = self.member.take() else {
             return;
         };
@@ -529,14 +574,30 @@ impl App {
         }
     }
 
-    fn explain_selected(&mut self) {
+    pub(crate) fn explain_selected(&mut self) {
         let Some(item) = self.member_item() else {
+            if let Some(m) = &mut self.member {
+                m.explanation = None;
+            }
             return;
         };
-        let Some(user) = self.member.as_ref().map(|m| m.user) else {
+        let Some(m) = self.member.as_ref() else {
             return;
         };
-        let explanation = explain(&self.model, user, item, 3, &self.item_counts);
+        let explanation = match (&m.what_if, m.user) {
+            (Some(w), _) => sextant::analysis::explain::explain_profile(
+                &self.model,
+                &sextant::analysis::explain::Profile {
+                    vector: &w.vector,
+                    rated: &w.ratings,
+                },
+                item,
+                3,
+                &self.item_counts,
+            ),
+            (None, Some(user)) => explain(&self.model, user, item, 3, &self.item_counts),
+            (None, None) => return,
+        };
         if let Some(m) = &mut self.member {
             m.explanation = Some(explanation);
         }

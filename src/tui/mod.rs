@@ -8,6 +8,7 @@ pub mod app;
 pub mod keymap;
 pub mod panes;
 pub mod theme;
+pub mod workbench;
 
 use std::io;
 
@@ -78,9 +79,9 @@ pub fn handle_key(app: &mut App, key: KeyEvent) {
                 app.search_input(edit);
             }
         }
-        Mode::MemberPrompt => {
+        Mode::Prompt => {
             if let Some(edit) = text_edit(key) {
-                app.member_prompt_input(edit);
+                app.prompt_edit(edit);
             }
         }
         Mode::Help => {
@@ -329,13 +330,13 @@ mod tests {
     fn member_map_and_fit_screens_show_their_numbers() {
         let mut app = demo_app();
         press(&mut app, KeyCode::Char('u'));
-        assert_eq!(app.mode, Mode::MemberPrompt);
+        assert_eq!(app.mode, Mode::Prompt);
         for c in "m0001".chars() {
             press(&mut app, KeyCode::Char(c));
         }
         press(&mut app, KeyCode::Enter);
         let m = app.member.as_ref().expect("member open");
-        assert_eq!(app.model.ratings.users.name(m.user), "m0001");
+        assert_eq!(app.model.ratings.users.name(m.user.unwrap()), "m0001");
         assert!(
             m.rated
                 .windows(2)
@@ -392,6 +393,146 @@ mod tests {
         assert!(app.map_zoom > 1.0);
         press(&mut app, KeyCode::Char('1'));
         assert!(screen(&mut app, 110, 32).contains("Catalogue"));
+    }
+
+    fn type_text(app: &mut App, text: &str) {
+        for c in text.chars() {
+            press(app, KeyCode::Char(c));
+        }
+        press(app, KeyCode::Enter);
+    }
+
+    #[test]
+    fn curator_notes_are_shown_and_saved_with_the_model() {
+        use sextant::model::notes::{Notes, read_notes};
+        let dir = tempfile::tempdir().expect("temp dir");
+        let mut app = demo_app();
+        app.notes = Notes::open(dir.path()).expect("no notes yet");
+        let item = app.current.expect("an item is shown");
+        let id = app.model.ratings.items.name(item).to_owned();
+        press(&mut app, KeyCode::Char('n'));
+        assert_eq!(app.mode, Mode::Prompt);
+        type_text(&mut app, "title says soup, tastes like a stew");
+        assert!(app.status.ends_with("— saved"), "{}", app.status);
+        assert_eq!(
+            read_notes(dir.path()).expect("saved").item_note(&id),
+            Some("title says soup, tastes like a stew")
+        );
+        let text = screen(&mut app, 110, 32);
+        assert!(text.contains(&format!("{id}✎")), "{text}");
+        assert!(text.contains("note: title says soup"), "{text}");
+        // Flag the first neighbour as wrong, then label factor 2.
+        press(&mut app, KeyCode::Tab);
+        let other = app.neighbours[0].item;
+        press(&mut app, KeyCode::Char('f'));
+        assert!(app.is_flagged(item, other));
+        assert!(screen(&mut app, 110, 32).contains('✗'));
+        press(&mut app, KeyCode::Tab);
+        press(&mut app, KeyCode::Down);
+        press(&mut app, KeyCode::Char('L'));
+        type_text(&mut app, "sweet vs savoury");
+        let text = screen(&mut app, 140, 32);
+        assert!(text.contains("factor 2 (sweet vs savoury)"), "{text}");
+        let saved = read_notes(dir.path()).expect("saved");
+        assert_eq!(saved.factor_label(2), Some("sweet vs savoury"));
+        assert_eq!(saved.len(), 3);
+        // Unflag; an empty note removes the note.
+        press(&mut app, KeyCode::BackTab);
+        press(&mut app, KeyCode::Char('f'));
+        press(&mut app, KeyCode::Char('n'));
+        for _ in 0..60 {
+            press(&mut app, KeyCode::Backspace);
+        }
+        press(&mut app, KeyCode::Enter);
+        assert_eq!(read_notes(dir.path()).expect("saved").len(), 1);
+        // Without a directory (the bundled demo) notes stay in memory, and it says so.
+        let mut demo = demo_app();
+        press(&mut demo, KeyCode::Char('n'));
+        type_text(&mut demo, "x");
+        assert!(
+            demo.status.contains("kept in memory only"),
+            "{}",
+            demo.status
+        );
+        assert!(demo.has_note(demo.current.expect("item")));
+    }
+
+    #[test]
+    fn a_what_if_profile_follows_every_edit() {
+        let mut app = demo_app();
+        press(&mut app, KeyCode::Char('u'));
+        type_text(&mut app, "m0001");
+        press(&mut app, KeyCode::Char('w'));
+        let m = app.member.clone().expect("what-if open");
+        let w = m.what_if.clone().expect("a what-if");
+        let user = app.model.ratings.users.get("m0001").expect("member");
+        let own = sextant::analysis::explain::training_ratings(&app.model, user);
+        assert_eq!(w.ratings, own);
+        let folded = sextant::analysis::foldin::fold_in(&app.model, &own).expect("fold in");
+        assert_eq!(w.vector, folded);
+        assert_eq!(m.rated.len(), own.len());
+        let text = screen(&mut app, 110, 40);
+        assert!(text.contains("What-if from member m0001"), "{text}");
+        assert!(text.contains("profile vector"), "{text}");
+        // Raise the highlighted rating: the vector and the explanation move at once.
+        let item = m.rated[0].item;
+        let before = m.rated[0].actual;
+        press(&mut app, KeyCode::Char('>'));
+        let m2 = app.member.clone().expect("still open");
+        let w2 = m2.what_if.clone().expect("what-if");
+        let after = w2.ratings.iter().find(|r| r.0 == item).expect("kept").1;
+        assert_eq!(after, (before + 1.0).min(5.0));
+        if after != before {
+            assert_ne!(w2.vector, w.vector);
+        }
+        assert_eq!(m2.explanation.as_ref().map(|e| e.item), Some(item));
+        // Add the top suggestion: it leaves the suggestions and joins the ratings.
+        press(&mut app, KeyCode::Tab);
+        let top = app.member.as_ref().expect("open").suggestions[0].item;
+        press(&mut app, KeyCode::Char('a'));
+        let m3 = app.member.clone().expect("open");
+        assert_eq!(m3.rated.len(), own.len() + 1);
+        assert!(m3.suggestions.iter().all(|s| s.item != top));
+        // Remove it again; then leave the what-if, back to the member as fitted.
+        press(&mut app, KeyCode::Char('d'));
+        assert_eq!(app.member.as_ref().expect("open").rated.len(), own.len());
+        assert!(
+            app.plain_text()
+                .expect("explained")
+                .0
+                .starts_with("explanation-what-if-")
+        );
+        press(&mut app, KeyCode::Char('w'));
+        let m4 = app.member.as_ref().expect("member again");
+        assert!(m4.what_if.is_none());
+        assert_eq!(m4.user, Some(user));
+        // From nobody: add the current item on the items screen.
+        let mut fresh = demo_app();
+        let current = fresh.current.expect("item");
+        press(&mut fresh, KeyCode::Char('a'));
+        let m5 = fresh.member.as_ref().expect("what-if from nobody");
+        assert_eq!(m5.user, None);
+        assert_eq!(m5.what_if.as_ref().expect("what-if").ratings.len(), 1);
+        assert_eq!(m5.rated[0].item, current);
+        assert_eq!(m5.suggestions.len(), 10);
+        assert!(screen(&mut fresh, 110, 40).contains("What-if · new profile"));
+    }
+
+    #[test]
+    fn the_plain_explanation_names_the_member_and_item() {
+        let mut app = demo_app();
+        press(&mut app, KeyCode::Char('u'));
+        type_text(&mut app, "m0001");
+        let (name, text) = app.plain_text().expect("an explanation is shown");
+        let item = app.member_item().expect("highlighted");
+        assert_eq!(
+            name,
+            format!(
+                "explanation-m0001-{}.txt",
+                app.model.ratings.items.name(item)
+            )
+        );
+        assert!(text.contains(app.title(item)), "{text}");
     }
 
     #[test]
@@ -507,6 +648,20 @@ mod tests {
             KeyCode::Char('s'),
             KeyCode::Char('é'),
             KeyCode::F(5),
+            // Screens and the working tools ('p' is left out: it writes a file).
+            KeyCode::Char('1'),
+            KeyCode::Char('2'),
+            KeyCode::Char('3'),
+            KeyCode::Char('4'),
+            KeyCode::Char('n'),
+            KeyCode::Char('f'),
+            KeyCode::Char('L'),
+            KeyCode::Char('w'),
+            KeyCode::Char('a'),
+            KeyCode::Char('>'),
+            KeyCode::Char('<'),
+            KeyCode::Char('d'),
+            KeyCode::Delete,
         ];
         for step in 0..4000 {
             let code = keys[rng.below(keys.len() as u64) as usize];

@@ -42,8 +42,10 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             let id = app.model.ratings.items.name(j);
             // id, space, title, " " + 12-wide category, 5-wide count.
             let title_width = width.saturating_sub(id.len() + 1 + 13 + count.len());
+            let mark = if app.has_note(j) { "✎" } else { " " };
+            let title_width = title_width.saturating_sub(1);
             let mut spans = vec![
-                Span::styled(format!("{id} "), theme.muted()),
+                Span::styled(format!("{id}{mark}"), theme.muted()),
                 Span::raw(format!("{:<title_width$}", fit(app.title(j), title_width))),
                 Span::styled(format!(" {:<12}", fit(category, 12)), theme.category()),
                 Span::styled(count, theme.muted()),

@@ -27,7 +27,16 @@ pub fn signed_bar(value: f64, scale: f64, half: usize) -> (String, String) {
 
 /// Draws the loadings pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let title = " Loadings · factor values of the current item ".to_owned();
+    let note = app
+        .current
+        .and_then(|j| app.notes.current.item_note(app.model.ratings.items.name(j)));
+    let title = match note {
+        Some(n) => format!(
+            " Loadings · note: {} ",
+            super::fit(n, area.width.saturating_sub(20) as usize)
+        ),
+        None => " Loadings · factor values of the current item ".to_owned(),
+    };
     frame.render_widget(framed(title, app.focus == Pane::Loadings, theme), area);
     let mut body = inner(area);
     let Some(j) = app.current else { return };
@@ -43,7 +52,15 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     }
     let values = app.model.factors.item(j);
     let scale = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-    let half = (body.width as usize).saturating_sub(14) / 2;
+    // Curators' factor labels get a column of their own when there are any.
+    let labels = &app.notes.current.factors;
+    let label_width = labels
+        .iter()
+        .filter(|(f, _)| **f <= values.len())
+        .map(|(_, l)| l.chars().count())
+        .max()
+        .map_or(0, |w| w.min(14) + 1);
+    let half = (body.width as usize).saturating_sub(14 + label_width) / 2;
     let height = body.height as usize;
     let start = app.factor_selected.saturating_sub(height.saturating_sub(1));
     let lines: Vec<Line<'_>> = values
@@ -53,7 +70,13 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         .take(height)
         .map(|(d, &v)| {
             let (left, right) = signed_bar(v, scale, half);
-            let label = format!("f{:<3}{:>+7.3} ", d + 1, v);
+            let name = app.notes.current.factor_label(d + 1).unwrap_or("");
+            let name = if label_width > 0 {
+                format!("{:<w$}", super::fit(name, label_width - 1), w = label_width)
+            } else {
+                String::new()
+            };
+            let label = format!("f{:<3}{name}{:>+7.3} ", d + 1, v);
             let label = if d == app.factor_selected && app.focus == Pane::Loadings {
                 Span::styled(label, theme.selected())
             } else {
@@ -80,10 +103,12 @@ fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             super::fit(app.title(j), width.saturating_sub(8))
         ))
     };
-    let mut lines = vec![Line::styled(
-        format!("factor {} — most positive:", app.factor_selected + 1),
-        theme.positive(),
-    )];
+    let number = app.factor_selected + 1;
+    let heading = match app.notes.current.factor_label(number) {
+        Some(label) => format!("factor {number} ({label}) — most positive:"),
+        None => format!("factor {number} — most positive:"),
+    };
+    let mut lines = vec![Line::styled(heading, theme.positive())];
     lines.extend(top.iter().map(row));
     lines.push(Line::styled("most negative:", theme.negative()));
     lines.extend(bottom.iter().map(row));

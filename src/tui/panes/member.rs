@@ -33,19 +33,62 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(area);
     let [upper, lower] =
         Layout::vertical([Constraint::Percentage(45), Constraint::Percentage(55)]).areas(right);
-    let id = app.model.ratings.users.name(m.user);
     let train = m.rated.iter().filter(|r| !r.holdout).count();
     let order = if m.by_residual {
         "largest misses first"
     } else {
         "by title"
     };
-    let title = format!(
-        " Member {id} · {train} training + {} held-out ratings · {order} ",
-        m.rated.len() - train
-    );
+    let title = match (&m.what_if, m.user) {
+        (Some(_), Some(u)) => format!(
+            " What-if from member {} · {} ratings · < > d edit, a add, w leave ",
+            app.model.ratings.users.name(u),
+            m.rated.len()
+        ),
+        (Some(_), None) => format!(
+            " What-if · new profile · {} ratings · < > d edit, a add, w leave ",
+            m.rated.len()
+        ),
+        (None, Some(u)) => format!(
+            " Member {} · {train} training + {} held-out ratings · {order} ",
+            app.model.ratings.users.name(u),
+            m.rated.len() - train
+        ),
+        (None, None) => " Member ".to_owned(),
+    };
     frame.render_widget(framed(title, !m.in_suggestions, theme), left);
-    let body = inner(left);
+    let mut body = inner(left);
+    if let Some(w) = &m.what_if {
+        // The folded-in vector, one small signed bar per factor, above the ratings.
+        let rows = (w.vector.len() as u16 + 1).min(body.height / 2);
+        let [vector_area, rest] =
+            Layout::vertical([Constraint::Length(rows), Constraint::Min(0)]).areas(body);
+        body = rest;
+        let scale = w.vector.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        let half = (vector_area.width as usize).saturating_sub(14) / 2;
+        let mut lines = vec![match &w.problem {
+            Some(p) => Line::styled(fit(p, vector_area.width as usize), theme.warning()),
+            None => Line::styled(
+                "profile vector (one member step, items fixed):",
+                theme.muted(),
+            ),
+        }];
+        for (d, &v) in w
+            .vector
+            .iter()
+            .enumerate()
+            .take(rows.saturating_sub(1) as usize)
+        {
+            let (l, r) = super::loadings::signed_bar(v, scale, half);
+            lines.push(Line::from(vec![
+                Span::raw(format!("f{:<3}{v:>+7.3} ", d + 1)),
+                Span::styled(l, theme.negative()),
+                Span::styled("│", theme.muted()),
+                Span::styled(r, theme.positive()),
+            ]));
+        }
+        frame.render_widget(Paragraph::new(lines), vector_area);
+    }
     let width = body.width as usize;
     let height = body.height as usize;
     let mut lines = vec![Line::styled(
@@ -68,7 +111,13 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         .skip(start)
         .take(height.saturating_sub(1))
     {
-        let mark = if r.holdout { "*" } else { " " };
+        let mark = if r.holdout {
+            "*"
+        } else if app.has_note(r.item) {
+            "✎"
+        } else {
+            " "
+        };
         let text = format!(
             "{:>6} {:>6.2} {:>4} {:>+7.2}{mark} {}",
             r.actual,

@@ -52,9 +52,17 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             .map_or_else(|| "–".to_owned(), |c| format!("{c:.3}"));
         let category = app.category(row.item).unwrap_or("");
         let title_width = width.saturating_sub(24 + category.len().min(12));
+        let flagged = app.current.is_some_and(|j| app.is_flagged(j, row.item));
+        let mark = if flagged {
+            "✗"
+        } else if app.has_note(row.item) {
+            "✎"
+        } else {
+            " "
+        };
         let mut spans = vec![
             Span::raw(format!(
-                "{:>3} {:>8.4} {cos:>7}  ",
+                "{:>3} {:>8.4} {cos:>7} {mark}",
                 offset + 1,
                 row.distance
             )),

@@ -6,7 +6,7 @@ use ratatui::layout::Rect;
 use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
 
-use crate::tui::app::{App, Mode};
+use crate::tui::app::{App, Mode, Prompt};
 use crate::tui::keymap::BINDINGS;
 use crate::tui::theme::Theme;
 
@@ -19,12 +19,25 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             Span::styled("▏", theme.key()),
             Span::styled("   Enter keep · Esc drop", theme.muted()),
         ]),
-        Mode::MemberPrompt => Line::from(vec![
-            Span::styled("member id: ", theme.key()),
-            Span::raw(app.member_input.clone()),
-            Span::styled("▏", theme.key()),
-            Span::styled("   Enter open · Esc cancel", theme.muted()),
-        ]),
+        Mode::Prompt => {
+            let (label, done) = match app.prompt {
+                Prompt::Member => ("member id: ".to_owned(), "Enter open"),
+                Prompt::ItemNote(j) => (
+                    format!("note on {}: ", super::fit(app.title(j), 30)),
+                    "Enter save (empty removes)",
+                ),
+                Prompt::FactorLabel(f) => (
+                    format!("label of factor {}: ", f + 1),
+                    "Enter save (empty removes)",
+                ),
+            };
+            Line::from(vec![
+                Span::styled(label, theme.key()),
+                Span::raw(app.prompt_input.clone()),
+                Span::styled("▏", theme.key()),
+                Span::styled(format!("   {done} · Esc cancel"), theme.muted()),
+            ])
+        }
         _ if !app.status.is_empty() => Line::styled(app.status.clone(), theme.warning()),
         _ => {
             let mut spans = Vec::new();
