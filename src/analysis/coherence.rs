@@ -138,6 +138,18 @@ pub fn coherence(
     k: usize,
     metric: Metric,
 ) -> Option<Coherence> {
+    coherence_sample(factors, categories, k, metric, usize::MAX)
+}
+
+/// [`coherence`] over at most `limit` of the examinable items, taken at an even stride
+/// through the catalogue (deterministic); neighbours are still searched among all items.
+pub fn coherence_sample(
+    factors: &FactorModel,
+    categories: &Categories,
+    k: usize,
+    metric: Metric,
+    limit: usize,
+) -> Option<Coherence> {
     if !categories.usable() || k == 0 {
         return None;
     }
@@ -159,9 +171,13 @@ pub fn coherence(
     }
     let index = NeighbourIndex::build(&factors.items, d, metric, Path::Auto);
     let table = LnFactorial::new(population);
-    let examined: Vec<usize> = (0..count)
+    let mut examined: Vec<usize> = (0..count)
         .filter(|&j| searchable(j) && categories.of_item[j].is_some())
         .collect();
+    if examined.len() > limit.max(1) {
+        let stride = examined.len().div_ceil(limit.max(1));
+        examined = examined.into_iter().step_by(stride).collect();
+    }
     let items: Vec<ItemCoherence> = examined
         .par_iter()
         .map(|&j| {

@@ -19,7 +19,7 @@ impl LnFactorial {
         Self(table)
     }
 
-    /// `ln C(n, k)`; `-inf` when `k > n`.
+    /// `ln C(n, k)`; `-inf` when `k > n`. Beyond the table it is summed term by term.
     pub fn ln_choose(&self, n: usize, k: usize) -> f64 {
         if k > n {
             return f64::NEG_INFINITY;
@@ -27,7 +27,7 @@ impl LnFactorial {
         // Differences of large table entries lose digits (ln 1,000,000! ≈ 1.3e7), so short
         // products are summed term by term: ln C(n, k) = Σ ln((n − i)/(k − i)).
         let short = k.min(n - k);
-        if short <= 64 {
+        if short <= 64 || n >= self.0.len() {
             return (0..short)
                 .map(|i| ((n - i) as f64 / (short - i) as f64).ln())
                 .sum();

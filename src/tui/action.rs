@@ -50,6 +50,8 @@ pub enum Action {
     ShowMap,
     /// Show the fit's health.
     ShowFit,
+    /// Show the audit screen.
+    ShowAudit,
     /// Type a member id to open.
     FindMember,
     /// Order the member's ratings by size of residual, or by item.

@@ -46,7 +46,36 @@ pub enum Screen {
     Map,
     /// The fit's health.
     Fit,
+    /// Audit: neighbour coherence, worst fits, odd vector lengths.
+    Audit,
 }
+
+/// The audit screen's figures, computed the first time it is shown.
+#[derive(Debug, Clone)]
+pub struct AuditView {
+    /// The items' categories.
+    pub categories: sextant::analysis::coherence::Categories,
+    /// Neighbour coherence (cosine, 10 neighbours), over a sample in large catalogues.
+    pub coherence: Option<sextant::analysis::coherence::Coherence>,
+    /// True when coherence covers a sample of the items.
+    pub sampled: bool,
+    /// Least coherent items, the selectable list.
+    pub least: Vec<sextant::analysis::coherence::ItemCoherence>,
+    /// Largest misses on held-out ratings (training ones when nothing is held out).
+    pub worst: Vec<sextant::analysis::diagnostics::Miss>,
+    /// True when `worst` lists held-out ratings.
+    pub worst_held_out: bool,
+    /// Vector-length summaries of members and items.
+    pub norms: Vec<sextant::analysis::diagnostics::NormReport>,
+    /// Prior-dominated members and items.
+    pub thin: (usize, usize),
+    /// Highlighted row of `least`.
+    pub selected: usize,
+}
+
+/// Most items the explorer's coherence check examines (a larger catalogue is sampled;
+/// `sextant audit` examines every item).
+pub const AUDIT_SAMPLE: usize = 20_000;
 
 /// One of the member's ratings, ready to draw.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -147,6 +176,10 @@ pub struct App {
     pub factor_selected: usize,
     /// Items loading most positively and most negatively on the highlighted factor.
     pub factor_extremes: sextant::analysis::loadings::Extremes,
+    /// Categories over-represented among the highlighted factor's 8 most positive and 8
+    /// most negative items, e.g. "cakes 5/8".
+    pub factor_favours: (Vec<String>, Vec<String>),
+    category_sizes: Option<(sextant::analysis::coherence::Categories, Vec<usize>)>,
     /// Ranking metric of the neighbours pane.
     pub metric: Metric,
     /// How many neighbours to show.
@@ -197,6 +230,8 @@ pub struct App {
     /// Training residuals in bins (centre, count).
     pub histogram: Vec<(f64, u64)>,
     pub(crate) suggestions_index: Option<InnerProductIndex>,
+    /// The audit screen, once shown.
+    pub audit: Option<AuditView>,
 }
 
 impl App {
@@ -217,6 +252,8 @@ impl App {
             neighbour_selected: 0,
             factor_selected: 0,
             factor_extremes: (Vec::new(), Vec::new()),
+            factor_favours: (Vec::new(), Vec::new()),
+            category_sizes: None,
             metric: Metric::Euclidean,
             k: 10,
             focus: Pane::Catalogue,
@@ -243,6 +280,7 @@ impl App {
             map_centre: [0.0, 0.0],
             histogram: Vec::new(),
             suggestions_index: None,
+            audit: None,
         };
 
         let mut categories: Vec<String> = app
@@ -313,6 +351,23 @@ impl App {
             }
             Action::FewerNeighbours if self.screen == Screen::Map => {
                 self.map_zoom = (self.map_zoom / 1.5).max(1.0);
+            }
+            Action::SelectNext
+            | Action::SelectPrevious
+            | Action::PageDown
+            | Action::PageUp
+            | Action::SelectFirst
+            | Action::SelectLast
+                if self.screen == Screen::Audit =>
+            {
+                self.move_in_audit(action);
+            }
+            Action::Open if self.screen == Screen::Audit => self.open_audited(),
+            Action::ShowAudit => {
+                if self.audit.is_none() {
+                    self.audit = Some(self.compute_audit());
+                }
+                self.screen = Screen::Audit;
             }
             Action::SelectNext
             | Action::SelectPrevious
@@ -603,6 +658,77 @@ impl App {
         }
     }
 
+    fn compute_audit(&self) -> AuditView {
+        use sextant::analysis::coherence::{Categories, coherence_sample};
+        use sextant::analysis::diagnostics::{Side, low_support, norm_report, worst_fits};
+        let f = &self.model.factors;
+        let categories = Categories::from_meta(self.model.meta.as_ref(), f.item_count());
+        let coherence = coherence_sample(f, &categories, 10, Metric::Cosine, AUDIT_SAMPLE);
+        let sampled = coherence
+            .as_ref()
+            .is_some_and(|c| c.items.len() < categories.of_item.iter().flatten().count());
+        let least = coherence
+            .as_ref()
+            .map(|c| c.least_coherent(50).into_iter().cloned().collect())
+            .unwrap_or_default();
+        let held = self.model.ratings.holdout_count() > 0;
+        let thin = low_support(&self.model);
+        let users = thin.iter().filter(|t| t.side == Side::User).count();
+        AuditView {
+            categories,
+            coherence,
+            sampled,
+            least,
+            worst: worst_fits(&self.model, held, 50),
+            worst_held_out: held,
+            norms: [Side::User, Side::Item]
+                .into_iter()
+                .filter_map(|s| norm_report(&self.model, s))
+                .collect(),
+            thin: (users, thin.len() - users),
+            selected: 0,
+        }
+    }
+
+    fn move_in_audit(&mut self, action: Action) {
+        let page = self.page as isize;
+        let Some(a) = &mut self.audit else { return };
+        if a.least.is_empty() {
+            return;
+        }
+        let delta = match action {
+            Action::SelectNext => 1,
+            Action::SelectPrevious => -1,
+            Action::PageDown => page,
+            Action::PageUp => -page,
+            Action::SelectFirst => isize::MIN / 2,
+            _ => isize::MAX / 2,
+        };
+        a.selected = (a.selected as isize)
+            .saturating_add(delta)
+            .clamp(0, a.least.len() as isize - 1) as usize;
+    }
+
+    /// Opens the audit screen's highlighted item on the item screen.
+    fn open_audited(&mut self) {
+        let Some(j) = self
+            .audit
+            .as_ref()
+            .and_then(|a| a.least.get(a.selected))
+            .map(|i| i.item)
+        else {
+            return;
+        };
+        if let Some(previous) = self.current {
+            self.history.push(previous);
+        }
+        self.future.clear();
+        self.screen = Screen::Items;
+        self.focus = Pane::Neighbours;
+        self.show(j);
+        self.reveal(j);
+    }
+
     fn pan(&mut self, action: Action) {
         let Some(p) = &self.projection else { return };
         let spread = |k: usize| {
@@ -771,9 +897,40 @@ impl App {
     }
 
     fn compute_factor_extremes(&mut self) {
+        use sextant::analysis::coherence::Categories;
+        use sextant::analysis::loadings::{enrichment, factor_extremes};
+        use sextant::analysis::stats::LnFactorial;
+        const SHOWN: usize = 4;
+        const TESTED: usize = 8;
         let f = &self.model.factors;
-        self.factor_extremes =
-            sextant::analysis::loadings::factor_extremes(&f.items, f.rank, self.factor_selected, 4);
+        let (mut top, mut bottom) = factor_extremes(&f.items, f.rank, self.factor_selected, TESTED);
+        let count = f.item_count();
+        let (categories, sizes) = self.category_sizes.get_or_insert_with(|| {
+            let c = Categories::from_meta(self.model.meta.as_ref(), count);
+            let mut sizes = vec![0usize; c.names.len()];
+            for k in c.of_item.iter().flatten() {
+                sizes[*k as usize] += 1;
+            }
+            (c, sizes)
+        });
+        let table = LnFactorial::new(0);
+        let names = |end: &[(u32, f64)]| -> Vec<String> {
+            enrichment(end, categories, sizes, count, &table)
+                .iter()
+                .map(|e| {
+                    format!(
+                        "{} {}/{}",
+                        categories.names[e.category as usize],
+                        e.count,
+                        end.len()
+                    )
+                })
+                .collect()
+        };
+        self.factor_favours = (names(&top), names(&bottom));
+        top.truncate(SHOWN);
+        bottom.truncate(SHOWN);
+        self.factor_extremes = (top, bottom);
     }
 
     /// Brings deferred work up to date (called by the event loop when no input is waiting).

@@ -246,6 +246,14 @@ pub const BINDINGS: &[Binding] = &[
         context: Context::Browse,
     },
     Binding {
+        keys: &[(KeyCode::Char('5'), NONE)],
+        key_label: "5",
+        action: Action::ShowAudit,
+        hint: "audit",
+        description: "audit: neighbour coherence, least coherent items (Enter opens), worst fits, odd vectors",
+        context: Context::Browse,
+    },
+    Binding {
         keys: &[(KeyCode::Char('u'), NONE)],
         key_label: "u",
         action: Action::FindMember,

@@ -155,6 +155,7 @@ pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
         app::Screen::Member => panes::member::render(app, frame, body, theme),
         app::Screen::Map => panes::map::render(app, frame, body, theme),
         app::Screen::Fit => panes::fit::render(app, frame, body, theme),
+        app::Screen::Audit => panes::audit::render(app, frame, body, theme),
     }
     if app.mode == Mode::Help {
         panes::help::render(frame, area, theme);
@@ -188,11 +189,12 @@ fn render_header(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         }
     };
     let tabs = format!(
-        "{}{}{}{}",
+        "{}{}{}{}{}",
         tab(app::Screen::Items, "1 items"),
         tab(app::Screen::Member, "2 member"),
         tab(app::Screen::Map, "3 map"),
-        tab(app::Screen::Fit, "4 fit")
+        tab(app::Screen::Fit, "4 fit"),
+        tab(app::Screen::Audit, "5 audit")
     );
     let text = format!(
         " sextant {tabs} · {} · {} items · {} members · rank {} · held-out RMSE {}",
@@ -252,7 +254,9 @@ mod tests {
         let text = screen(&mut app, 80, 24);
         let lines: Vec<&str> = text.lines().collect();
         assert!(
-            lines[0].starts_with(" sextant [1 items] 2 member  3 map  4 fit  · demo · 400 items"),
+            lines[0].starts_with(
+                " sextant [1 items] 2 member  3 map  4 fit  5 audit  · demo · 400 items"
+            ),
             "{}",
             lines[0]
         );
@@ -433,6 +437,8 @@ mod tests {
         type_text(&mut app, "sweet vs savoury");
         let text = screen(&mut app, 140, 32);
         assert!(text.contains("factor 2 (sweet vs savoury)"), "{text}");
+        // Demo factor 2 gathers preserves at one end and salads at the other.
+        assert!(text.contains("over-represented: preserves"), "{text}");
         let saved = read_notes(dir.path()).expect("saved");
         assert_eq!(saved.factor_label(2), Some("sweet vs savoury"));
         assert_eq!(saved.len(), 3);
@@ -533,6 +539,29 @@ mod tests {
             )
         );
         assert!(text.contains(app.title(item)), "{text}");
+    }
+
+    #[test]
+    fn the_audit_screen_lists_the_least_coherent_items_and_opens_them() {
+        let mut app = demo_app();
+        press(&mut app, KeyCode::Char('5'));
+        let a = app.audit.clone().expect("computed on first view");
+        let c = a.coherence.as_ref().expect("the demo has categories");
+        assert!(!a.sampled);
+        let text = screen(&mut app, 120, 36);
+        assert!(
+            text.contains(&format!("same-category share {:.3}", c.mean)),
+            "{text}"
+        );
+        assert!(text.contains("Largest misses · held-out ratings"), "{text}");
+        assert!(text.contains(app.title(a.least[0].item)), "{text}");
+        press(&mut app, KeyCode::Down);
+        let second = app.audit.as_ref().expect("audit").least[1].item;
+        press(&mut app, KeyCode::Enter);
+        assert_eq!(app.screen, super::app::Screen::Items);
+        assert_eq!(app.current, Some(second));
+        press(&mut app, KeyCode::Char('['));
+        assert_ne!(app.current, Some(second));
     }
 
     #[test]
@@ -653,6 +682,7 @@ mod tests {
             KeyCode::Char('2'),
             KeyCode::Char('3'),
             KeyCode::Char('4'),
+            KeyCode::Char('5'),
             KeyCode::Char('n'),
             KeyCode::Char('f'),
             KeyCode::Char('L'),

@@ -108,9 +108,21 @@ fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         Some(label) => format!("factor {number} ({label}) — most positive:"),
         None => format!("factor {number} — most positive:"),
     };
+    let favours = |list: &[String]| {
+        if list.is_empty() {
+            None
+        } else {
+            Some(Line::styled(
+                super::fit(&format!("  over-represented: {}", list.join(", ")), width),
+                theme.category(),
+            ))
+        }
+    };
     let mut lines = vec![Line::styled(heading, theme.positive())];
+    lines.extend(favours(&app.factor_favours.0));
     lines.extend(top.iter().map(row));
     lines.push(Line::styled("most negative:", theme.negative()));
+    lines.extend(favours(&app.factor_favours.1));
     lines.extend(bottom.iter().map(row));
     frame.render_widget(Paragraph::new(lines), area);
 }

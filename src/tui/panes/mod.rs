@@ -1,5 +1,6 @@
 //! One file per pane; each draws ready-made rows from the `App` and changes nothing.
 
+pub mod audit;
 pub mod catalogue;
 pub mod fit;
 pub mod help;
