@@ -292,3 +292,32 @@ fn copy_dir(from: &std::path::Path, to: &std::path::Path) {
         std::fs::copy(entry.path(), to.join(entry.file_name())).unwrap();
     }
 }
+
+#[test]
+fn notes_saved_by_an_open_session_survive_a_refit_into_the_same_directory() {
+    use sextant::model::notes::{Notes, read_notes};
+    let dir = tempfile::tempdir().unwrap();
+    let ratings = small_ratings(dir.path());
+    let model = dir.path().join("m");
+    fit_small(&ratings, &model);
+    // Two sessions have the model open; one saves a note before the refit.
+    let mut early = Notes::open(&model).unwrap();
+    let mut late = Notes::open(&model).unwrap();
+    early.current.set_item_note("i1", "before the refit");
+    early.save().unwrap();
+    fit_small(&ratings, &model);
+    // The other saves after it: its note lands in the new model, beside the carried one.
+    late.current.set_factor_label(1, "after the refit");
+    let merge = late.save().unwrap();
+    assert_eq!(merge.taken, 1);
+    let on_disk = read_notes(&model).unwrap();
+    assert_eq!(on_disk.item_note("i1"), Some("before the refit"));
+    assert_eq!(on_disk.factor_label(1), Some("after the refit"));
+    // The refitted directory still loads, with no leftover files.
+    assert!(load_model(&model).is_ok());
+    let names: Vec<String> = std::fs::read_dir(&model)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert!(names.iter().all(|n| !n.starts_with('.')), "{names:?}");
+}
