@@ -69,6 +69,22 @@ fn demo_neighbours_are_far_more_coherent_than_random() {
     let r = found.ranking.expect("the demo holds ratings out");
     assert!(r.precision > 3.0 * r.random.0 && r.ndcg > 3.0 * r.random.2);
     assert!((0.0..=1.0).contains(&r.recall));
+    // Prior-dominated members and items: the same counts the fit recorded.
+    let m = &model.manifest.metrics;
+    assert_eq!(
+        found.low_support.len(),
+        m.low_support_users + m.low_support_items
+    );
+    assert!(
+        found
+            .low_support
+            .windows(2)
+            .all(|w| w[0].ratings <= w[1].ratings)
+    );
+    // Vector-length outliers really are beyond 3.5 modified z-scores.
+    for n in &found.norms {
+        assert!(n.outliers.iter().all(|o| o.score.abs() > 3.5));
+    }
     // Worst fits are sorted and really the largest.
     let worst = &found.worst_holdout;
     assert!(

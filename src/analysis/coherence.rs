@@ -1,7 +1,7 @@
 //! Neighbour coherence: how often an item's nearest neighbours in the latent space share its
 //! category, against what neighbours drawn at random would give.
 //!
-//! Nearby items in a fitted space should be items people rate alike [practice], and where
+//! Nearby items in a fitted space should be items people rate alike (common practice), and where
 //! the catalogue's categories reflect taste, alike-rated items tend to share a category. For
 //! an item of category c among N searchable items of which n_c are in c, k neighbours drawn
 //! at random from the other N − 1 contain a hypergeometric number of same-category items

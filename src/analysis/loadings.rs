@@ -65,7 +65,7 @@ pub struct FactorMeaning {
 
 /// A category is reported as over-represented at an end when at least two of the end's
 /// items belong to it and a random draw would give that many or more with probability
-/// below this (a conventional significance level [practice]).
+/// below this (a conventional significance level (common practice)).
 pub const ENRICHMENT_P: f64 = 0.05;
 
 /// Categories over-represented among `end` (a set of items drawn from `population` items

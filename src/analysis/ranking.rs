@@ -73,7 +73,7 @@ pub struct RankingQuality {
 }
 
 /// The default relevance threshold: three quarters of the way up the rating scale (4 on a
-/// 1–5 scale) [practice].
+/// 1–5 scale) (common practice).
 pub fn default_threshold(model: &Model) -> f64 {
     let s = &model.manifest.scale;
     s.min() + 0.75 * (s.max() - s.min())

@@ -117,7 +117,7 @@ pub fn median(values: &[f64]) -> Option<f64> {
 }
 
 /// Modified z-scores `0.6745 (x − median) / MAD` (Iglewicz & Hoaglin, "How to Detect and
-/// Handle Outliers", ASQC 1993 [memory for the citation]); values with `|M| > 3.5` are the
+/// Handle Outliers", ASQC 1993 (citation from memory)); values with `|M| > 3.5` are the
 /// ones they recommend treating as outliers. `None` when the MAD is 0 (more than half the
 /// values are equal), where the score is undefined.
 pub fn modified_z_scores(values: &[f64]) -> Option<Vec<f64>> {

@@ -156,8 +156,9 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         let sd = s
             .predictive_sd
             .map_or_else(|| "–".to_owned(), |v| format!("{v:.2}"));
+        let mark = if app.has_note(s.item) { "✎" } else { " " };
         let text = format!(
-            "{:>3} {:>6.2} {sd:>5}  {}",
+            "{:>3} {:>6.2} {sd:>5} {mark}{}",
             s.rank,
             s.predicted,
             fit(app.title(s.item), (body.width as usize).saturating_sub(19))
