@@ -123,3 +123,61 @@ fn explore_the_demo_and_leave_the_terminal_as_it_was() {
         "terminal modes restored: {after}"
     );
 }
+
+/// The explorer's process id inside a session (the child of the pane's shell).
+fn explorer_pid(session: &Session) -> String {
+    let pane = Command::new("tmux")
+        .args(["list-panes", "-t", &session.0, "-F", "#{pane_pid}"])
+        .output()
+        .unwrap();
+    let shell = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+    let child = Command::new("pgrep")
+        .args(["-P", &shell, "-x", "sextant"])
+        .output()
+        .unwrap();
+    let pid = String::from_utf8_lossy(&child.stdout).trim().to_owned();
+    assert!(
+        !pid.is_empty(),
+        "no sextant process under the shell {shell}"
+    );
+    pid
+}
+
+#[test]
+fn sigterm_and_sighup_restore_the_terminal_like_quit() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    for (signal, code) in [("TERM", 143), ("HUP", 129)] {
+        let script = format!(
+            "'{binary}'; echo EXITED \\$?; stty -a | tr ' ' '\\n' | grep -x -e echo -e icanon | tr '\\n' ' '; echo; sleep 30"
+        );
+        let session = Session::start(
+            &format!("sextant-signal-{signal}"),
+            &format!("sh -c \"{}\"", script.replace('"', "\\\"")),
+        );
+        session.wait_for("Catalogue · 400 items");
+        session.keys(&["u", "m", "0"]);
+        let pid = explorer_pid(&session);
+        let status = Command::new("kill")
+            .args([&format!("-{signal}"), &pid])
+            .status()
+            .unwrap();
+        assert!(status.success());
+        let after = session.wait_for("EXITED");
+        assert!(
+            after.contains(&format!("EXITED {code}")),
+            "{signal}: {after}"
+        );
+        assert!(
+            !after.contains("Catalogue ·"),
+            "{signal}: still on the explorer's screen: {after}"
+        );
+        let modes = after
+            .lines()
+            .find(|l| l.contains("icanon"))
+            .unwrap_or_default();
+        assert!(
+            modes.split_whitespace().any(|w| w == "echo") && modes.contains("icanon"),
+            "{signal}: terminal modes restored: {after}"
+        );
+    }
+}

@@ -54,7 +54,11 @@ pub fn open(
 ) -> anyhow::Result<()> {
     let mut app = tui::app::App::new(model, label);
     app.notes = notes;
-    tui::run(app)?;
+    if let Some(signal) = tui::run(app)? {
+        // The terminal is restored; leave the way the signal would have, by its number.
+        eprintln!("sextant: stopped by signal {signal}; the terminal is restored");
+        std::process::exit(128 + signal);
+    }
     Ok(())
 }
 

@@ -11,6 +11,8 @@ pub mod theme;
 pub mod workbench;
 
 use std::io;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 use ratatui::crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
 use ratatui::layout::{Constraint, Layout, Rect};
@@ -26,9 +28,11 @@ pub const MIN_WIDTH: u16 = 60;
 /// Smallest window height.
 pub const MIN_HEIGHT: u16 = 12;
 
-/// Runs the explorer until the person quits. The app (and its indexes) must be built
-/// before this is called, so that load errors print on the normal screen.
-pub fn run(mut app: App) -> io::Result<()> {
+/// Runs the explorer until the person quits, or until SIGTERM or SIGHUP arrives; either
+/// way the terminal is restored (raw mode off, main screen, mouse capture off) before this
+/// returns. Returns the signal that ended it, if one did. The app (and its indexes) must
+/// be built before this is called, so that load errors print on the normal screen.
+pub fn run(mut app: App) -> io::Result<Option<i32>> {
     // Mouse capture is ours to undo: on the way out, and in a panic before ratatui's own
     // hook restores the rest of the terminal.
     let previous = std::panic::take_hook();
@@ -39,32 +43,55 @@ pub fn run(mut app: App) -> io::Result<()> {
         );
         previous(info);
     }));
+    // A termination request or a closed terminal ends the loop like `q` does; the caught
+    // signal's number is kept so the process can exit with 128 + it.
+    let caught = Arc::new(AtomicUsize::new(0));
+    for signal in [signal_hook::consts::SIGTERM, signal_hook::consts::SIGHUP] {
+        signal_hook::flag::register_usize(signal, Arc::clone(&caught), signal as usize)?;
+    }
     let mut terminal = ratatui::init();
     let mouse =
         ratatui::crossterm::execute!(io::stdout(), ratatui::crossterm::event::EnableMouseCapture);
-    let result = mouse.and_then(|()| event_loop(&mut terminal, &mut app));
+    let result = mouse.and_then(|()| event_loop(&mut terminal, &mut app, &caught));
     let _ =
         ratatui::crossterm::execute!(io::stdout(), ratatui::crossterm::event::DisableMouseCapture);
     ratatui::restore();
     result
 }
 
-fn event_loop(terminal: &mut DefaultTerminal, app: &mut App) -> io::Result<()> {
+fn event_loop(
+    terminal: &mut DefaultTerminal,
+    app: &mut App,
+    caught: &AtomicUsize,
+) -> io::Result<Option<i32>> {
     let theme = Theme::from_env();
     app.deferred.enabled = true;
+    let signal = || match caught.load(Ordering::Relaxed) {
+        0 => None,
+        s => Some(s as i32),
+    };
     while !app.quit {
         // Catch up on deferred work only when no input is waiting.
         if !event::poll(std::time::Duration::ZERO)? {
             app.settle();
         }
         terminal.draw(|frame| render(app, frame, theme))?;
+        // Wait for input, looking for signals a few times a second.
+        loop {
+            if let Some(s) = signal() {
+                return Ok(Some(s));
+            }
+            if event::poll(std::time::Duration::from_millis(100))? {
+                break;
+            }
+        }
         match event::read()? {
             Event::Key(key) if key.kind == KeyEventKind::Press => handle_key(app, key),
             Event::Mouse(mouse) => handle_mouse(app, mouse),
             _ => {}
         }
     }
-    Ok(())
+    Ok(signal())
 }
 
 /// Turns one key press into state changes (global keys first, then the mode's keys).
