@@ -281,7 +281,7 @@ impl<'a> Fitter<'a> {
 
     fn not_positive_definite(&self, kind: &'static str, id: &str) -> FitError {
         let hint = if self.options.lambda > 0.0 {
-            "; check the input for extreme values"
+            "; the ridge term λσ² is too small to make it solvable in floating point, or the input holds extreme values: raise --lambda or --sigma2"
         } else {
             "; its rated vectors are linearly dependent: use --lambda > 0"
         };
