@@ -217,11 +217,17 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
     match &audit.coherence {
         Some(c) => {
             let names = &audit.categories.names;
+            let categorised = audit.categories.of_item.iter().flatten().count();
+            let sampled = if c.items.len() < categorised {
+                format!(" (an even sample of the {categorised} with one)")
+            } else {
+                String::new()
+            };
             let _ = writeln!(
                 out,
-                "For each of {} items with a category, the share of its {} nearest neighbours \
-                 ({} distance) in the same category. Mean share **{:.3}**; random neighbours \
-                 would give {:.3} ({:.1}× that).\n",
+                "For each of {} items with a category{sampled}, the share of its {} nearest \
+                 neighbours ({} distance) in the same category. Mean share **{:.3}**; random \
+                 neighbours would give {:.3} ({:.1}× that).\n",
                 c.items.len(),
                 c.k,
                 metric_name(c.metric),

@@ -1,7 +1,7 @@
 //! Everything an audit looks at, computed in one place so the report, the CSV files and
 //! the explorer agree.
 
-use super::coherence::{Categories, Coherence, coherence};
+use super::coherence::{Categories, Coherence, coherence_sample};
 use super::diagnostics::{Miss, NormReport, Side, Thin, low_support, norm_report, worst_fits};
 use super::loadings::{FactorMeaning, factor_meanings};
 use super::ranking::{RankingQuality, default_threshold, ranking_quality};
@@ -23,6 +23,8 @@ pub struct AuditOptions {
     pub k: usize,
     /// Relevance threshold of the ranking metrics (`None`: [`default_threshold`]).
     pub threshold: Option<f64>,
+    /// Most items examined for coherence (an even sample of a larger catalogue).
+    pub sample: usize,
 }
 
 impl Default for AuditOptions {
@@ -34,6 +36,7 @@ impl Default for AuditOptions {
             ends: 8,
             k: 10,
             threshold: None,
+            sample: usize::MAX,
         }
     }
 }
@@ -70,11 +73,12 @@ pub fn audit(model: &Model, options: AuditOptions) -> Audit {
         .threshold
         .unwrap_or_else(|| default_threshold(model));
     Audit {
-        coherence: coherence(
+        coherence: coherence_sample(
             &model.factors,
             &categories,
             options.neighbours,
             options.metric,
+            options.sample,
         ),
         worst_train: worst_fits(model, false, options.top),
         worst_holdout: worst_fits(model, true, options.top),

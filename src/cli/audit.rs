@@ -44,6 +44,11 @@ pub struct AuditArgs {
     /// Cut-off k of precision@k, recall@k and NDCG@k.
     #[arg(short, long, default_value_t = 10)]
     k: usize,
+    /// Examine at most N items for coherence, an even sample through the catalogue
+    /// (default: every item; each needs a neighbour search, so a million-item catalogue
+    /// takes a while).
+    #[arg(long, value_name = "N")]
+    sample: Option<usize>,
     /// Held-out ratings at or above this count as relevant (default: three quarters of the
     /// way up the rating scale, 4 on 1–5).
     #[arg(long, value_name = "RATING")]
@@ -51,8 +56,10 @@ pub struct AuditArgs {
 }
 
 pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
-    if args.neighbours == 0 || args.k == 0 {
-        return Err(super::UsageError("--neighbours and -k must be at least 1".into()).into());
+    if args.neighbours == 0 || args.k == 0 || args.sample == Some(0) {
+        return Err(
+            super::UsageError("--neighbours, -k and --sample must be at least 1".into()).into(),
+        );
     }
     if args.relevant.is_some_and(|r| !r.is_finite()) {
         return Err(super::UsageError("--relevant must be a finite number".into()).into());
@@ -66,6 +73,7 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
         ends: args.ends,
         k: args.k,
         threshold: args.relevant,
+        sample: args.sample.unwrap_or(usize::MAX),
     };
     let found = audit(&model, options);
     let name = args.model.display().to_string();
