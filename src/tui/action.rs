@@ -74,4 +74,6 @@ pub enum Action {
     LowerRating,
     /// Remove the highlighted what-if rating.
     RemoveRating,
+    /// Save the curator notes to another directory.
+    SaveNotesElsewhere,
 }

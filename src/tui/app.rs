@@ -103,6 +103,8 @@ pub enum Prompt {
     ItemNote(u32),
     /// A curator's label for a factor (0-based).
     FactorLabel(usize),
+    /// A directory to save the notes to when the model's own cannot take them.
+    NotesDir,
 }
 
 /// The member screen's state.
@@ -232,6 +234,8 @@ pub struct App {
     pub(crate) suggestions_index: Option<InnerProductIndex>,
     /// The audit screen, once shown.
     pub audit: Option<AuditView>,
+    /// Set when quit was pressed once with unsaved notes (a second press quits).
+    pub quit_armed: bool,
 }
 
 impl App {
@@ -281,6 +285,7 @@ impl App {
             histogram: Vec::new(),
             suggestions_index: None,
             audit: None,
+            quit_armed: false,
         };
 
         let mut categories: Vec<String> = app
@@ -319,10 +324,20 @@ impl App {
     /// Applies one action.
     pub fn update(&mut self, action: Action) {
         self.status.clear();
+        if action != Action::Quit {
+            self.quit_armed = false;
+        }
         match action {
             Action::Quit => {
                 if self.mode == Mode::Help {
                     self.mode = Mode::Normal;
+                } else if self.notes.unsaved() && !self.quit_armed {
+                    // Notes that could not be saved are not dropped without a word.
+                    self.quit_armed = true;
+                    self.status =
+                        "curator notes are not saved: S saves them elsewhere; q again quits without them"
+                            .into();
+                    return;
                 } else {
                     self.quit = true;
                 }
@@ -418,7 +433,8 @@ impl App {
             | Action::AddToProfile
             | Action::RaiseRating
             | Action::LowerRating
-            | Action::RemoveRating => self.workbench(action),
+            | Action::RemoveRating
+            | Action::SaveNotesElsewhere => self.workbench(action),
             Action::ToggleResidualOrder => {
                 if let Some(m) = &mut self.member {
                     m.by_residual = !m.by_residual;
@@ -521,6 +537,7 @@ impl App {
                     Prompt::Member => self.open_member_by_id(text.trim()),
                     Prompt::ItemNote(j) => self.set_item_note(j, &text),
                     Prompt::FactorLabel(f) => self.set_factor_label(f, &text),
+                    Prompt::NotesDir => self.save_notes_to(text.trim()),
                 }
             }
         }

@@ -294,6 +294,14 @@ pub const BINDINGS: &[Binding] = &[
         context: Context::Browse,
     },
     Binding {
+        keys: &[(KeyCode::Char('S'), SHIFT), (KeyCode::Char('S'), NONE)],
+        key_label: "S",
+        action: Action::SaveNotesElsewhere,
+        hint: "",
+        description: "save the curator notes to another directory (when the model's own cannot take them)",
+        context: Context::Browse,
+    },
+    Binding {
         keys: &[(KeyCode::Char('p'), NONE)],
         key_label: "p",
         action: Action::WritePlain,

@@ -75,6 +75,12 @@ impl App {
             Action::RaiseRating => self.step_rating(true),
             Action::LowerRating => self.step_rating(false),
             Action::RemoveRating => self.remove_rating(),
+            Action::SaveNotesElsewhere => {
+                let suggestion = std::env::current_dir()
+                    .map(|d| d.join("sextant-notes").display().to_string())
+                    .unwrap_or_default();
+                self.start_prompt(Prompt::NotesDir, suggestion);
+            }
             _ => {}
         }
     }
@@ -154,7 +160,7 @@ impl App {
     fn save_notes(&mut self, what: &str) {
         if self.notes.dir().is_none() {
             self.status = format!(
-                "{what} — kept in memory only: the bundled demo has no directory (write it out with `sextant fit` to keep notes)"
+                "{what} — kept in memory only: the bundled demo has no directory; S saves the notes elsewhere"
             );
             return;
         }
@@ -175,9 +181,31 @@ impl App {
                 );
             }
             Err(e) => {
-                self.status = format!("{what} — NOT saved, kept in memory: {e}");
+                self.status = format!(
+                    "{what} — NOT saved, kept in memory ({e}); S saves the notes elsewhere"
+                );
             }
         }
+    }
+
+    /// Saves the notes into directory `dir` (created when missing), which then becomes
+    /// where this session's notes are saved.
+    pub fn save_notes_to(&mut self, dir: &str) {
+        if dir.is_empty() {
+            self.status = "no directory given; the notes stay in memory".into();
+            return;
+        }
+        let path = std::path::Path::new(dir);
+        let result = std::fs::create_dir_all(path)
+            .map_err(|e| e.to_string())
+            .and_then(|()| self.notes.save_to(path).map_err(|e| e.to_string()));
+        self.status = match result {
+            Ok(_) => format!(
+                "notes saved to {} (copy annotations.ron into the model directory to keep them with it)",
+                path.join(sextant::model::store::ANNOTATIONS).display()
+            ),
+            Err(e) => format!("notes NOT saved to {dir}: {e}; they stay in memory"),
+        };
     }
 
     /// Whether item `j` has a curator's note.

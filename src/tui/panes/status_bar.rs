@@ -30,6 +30,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
                     format!("label of factor {}: ", f + 1),
                     "Enter save (empty removes)",
                 ),
+                Prompt::NotesDir => ("save the notes in directory: ".to_owned(), "Enter save"),
             };
             Line::from(vec![
                 Span::styled(label, theme.key()),
