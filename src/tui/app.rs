@@ -337,7 +337,6 @@ impl App {
                     self.status =
                         "curator notes are not saved: S saves them elsewhere; q again quits without them"
                             .into();
-                    return;
                 } else {
                     self.quit = true;
                 }
