@@ -72,6 +72,7 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
         if id.is_empty() {
             return Err(DataError::at_line(path, line, "the id is empty"));
         }
+        super::ratings::check_id_length(id, "id", path, line)?;
         if table.ids.push_new(id).is_none() {
             return Err(DataError::at_line(
                 path,
@@ -82,7 +83,19 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
         for (d, raw) in record.iter().skip(1).enumerate() {
             let text = std::str::from_utf8(raw).unwrap_or("");
             match text.parse::<f64>() {
-                Ok(v) if v.is_finite() => table.values.push(v),
+                Ok(v) if v.is_finite() && v.abs() <= super::ratings::MAX_MAGNITUDE => {
+                    table.values.push(v + 0.0);
+                }
+                Ok(v) if v.is_finite() => {
+                    return Err(DataError::at_line(
+                        path,
+                        line,
+                        format!(
+                            "factor f{} of '{id}' is {text}: factor values must lie within ±1e12",
+                            d + 1
+                        ),
+                    ));
+                }
                 _ => {
                     return Err(DataError::at_line(
                         path,

@@ -7,7 +7,8 @@ use std::path::Path;
 
 use super::ids::IdMap;
 use super::ratings::{
-    csv_error, csv_reader, field, find_column, optional_column, read_header, record_line,
+    check_width, csv_error, csv_reader, find_column, id_field, optional_column, read_header,
+    record_line,
 };
 use crate::error::DataError;
 
@@ -79,7 +80,8 @@ pub fn read_items_meta(
         .map_err(|e| csv_error(path, &e))?
     {
         let line = record_line(&record);
-        let id = field(&record, id_col, "item id", path, line)?;
+        check_width(&record, header.len(), path, line)?;
+        let id = id_field(&record, id_col, "item id", path, line)?;
         let text = |col: Option<usize>| -> Result<Option<String>, DataError> {
             let Some(col) = col else { return Ok(None) };
             let Some(raw) = record.get(col) else {

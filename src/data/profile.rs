@@ -6,7 +6,8 @@ use std::path::Path;
 
 use super::ids::IdMap;
 use super::ratings::{
-    csv_error, csv_reader, field, find_column, parse_rating, read_header, record_line,
+    check_width, csv_error, csv_reader, field, find_column, id_field, parse_rating, read_header,
+    record_line,
 };
 use super::scale::RatingScale;
 use crate::error::DataError;
@@ -54,7 +55,8 @@ pub fn read_profile(
         if record.iter().all(<[u8]>::is_empty) {
             continue;
         }
-        let id = field(&record, item_col, "item id", path, line)?;
+        check_width(&record, header.len(), path, line)?;
+        let id = id_field(&record, item_col, "item id", path, line)?;
         let value = parse_rating(
             field(&record, rating_col, "rating", path, line)?,
             path,

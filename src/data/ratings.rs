@@ -159,8 +159,9 @@ pub fn read_ratings_with_ids(
             Err(e) => return Err(csv_error(path, &e)),
         }
         let line = record_line(&record);
-        let user = field(&record, user_col, "user id", path, line)?;
-        let item = field(&record, item_col, "item id", path, line)?;
+        check_width(&record, header.len(), path, line)?;
+        let user = id_field(&record, user_col, "user id", path, line)?;
+        let item = id_field(&record, item_col, "item id", path, line)?;
         let value = parse_rating(
             field(&record, rating_col, "rating", path, line)?,
             path,
@@ -345,7 +346,7 @@ pub(crate) fn find_column(
             1,
             format!(
                 "missing column '{name}' in the header (found: {}); name the right column with {option}",
-                header.join(", ")
+                abbreviate_header(header)
             ),
         )),
         _ => Err(DataError::at_line(
@@ -356,9 +357,53 @@ pub(crate) fn find_column(
     }
 }
 
+/// The header's names for a message: at most ten, each cut to 40 characters.
+fn abbreviate_header(header: &[String]) -> String {
+    let mut names: Vec<String> = header
+        .iter()
+        .take(10)
+        .map(|h| {
+            if h.chars().count() > 40 {
+                format!(
+                    "{}… ({} characters)",
+                    h.chars().take(40).collect::<String>(),
+                    h.chars().count()
+                )
+            } else {
+                h.clone()
+            }
+        })
+        .collect();
+    if header.len() > 10 {
+        names.push(format!("… {} more", header.len() - 10));
+    }
+    names.join(", ")
+}
+
 /// Optional column: `Some(index)` when present exactly once.
 pub(crate) fn optional_column(header: &[String], name: &str) -> Option<usize> {
     header.iter().position(|h| h.eq_ignore_ascii_case(name))
+}
+
+/// Refuses a row with more fields than the header names columns (usually an unquoted
+/// delimiter inside a value, such as a decimal comma).
+pub(crate) fn check_width(
+    record: &csv::ByteRecord,
+    columns: usize,
+    path: &Path,
+    line: u64,
+) -> Result<(), DataError> {
+    if record.len() > columns {
+        return Err(DataError::at_line(
+            path,
+            line,
+            format!(
+                "the row has {} fields but the header names {columns} columns (is a value with a comma, such as a decimal comma, not quoted?)",
+                record.len()
+            ),
+        ));
+    }
+    Ok(())
 }
 
 /// The 1-based line on which a record starts.
@@ -391,13 +436,19 @@ pub(crate) fn field<'r>(
     line: u64,
 ) -> Result<&'r str, DataError> {
     let Some(raw) = record.get(col) else {
+        let open_quote = record.iter().any(|f| f.contains(&b'\n'));
         return Err(DataError::at_line(
             path,
             line,
             format!(
-                "the row has {} field(s) but the {what} is in column {}",
+                "the row has {} field(s) but the {what} is in column {}{}",
                 record.len(),
-                col + 1
+                col + 1,
+                if open_quote {
+                    " (a quote opened on this line is never closed)"
+                } else {
+                    ""
+                }
             ),
         ));
     };
@@ -414,10 +465,57 @@ pub(crate) fn field<'r>(
     Ok(text)
 }
 
-/// Parses a rating value; it must be a finite number.
+/// Longest id accepted, in bytes: longer ones are almost always a broken export (a whole
+/// row or file in one field), and refusing them keeps messages and memory sane.
+pub const MAX_ID_BYTES: usize = 1024;
+
+/// Largest rating or factor magnitude accepted: beyond it sums of squares overflow.
+pub const MAX_MAGNITUDE: f64 = 1e12;
+
+/// An id field: like [`field`], and at most [`MAX_ID_BYTES`] long.
+pub(crate) fn id_field<'r>(
+    record: &'r csv::ByteRecord,
+    col: usize,
+    what: &str,
+    path: &Path,
+    line: u64,
+) -> Result<&'r str, DataError> {
+    let id = field(record, col, what, path, line)?;
+    check_id_length(id, what, path, line)?;
+    Ok(id)
+}
+
+/// Refuses ids longer than [`MAX_ID_BYTES`].
+pub(crate) fn check_id_length(
+    id: &str,
+    what: &str,
+    path: &Path,
+    line: u64,
+) -> Result<(), DataError> {
+    if id.len() > MAX_ID_BYTES {
+        let start: String = id.chars().take(20).collect();
+        return Err(DataError::at_line(
+            path,
+            line,
+            format!(
+                "the {what} '{start}…' is {} bytes long; ids may have at most {MAX_ID_BYTES} (is a quote or delimiter wrong?)",
+                id.len()
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// Parses a rating value; it must be a finite number within ±[`MAX_MAGNITUDE`]. Negative
+/// zero is read as zero.
 pub(crate) fn parse_rating(text: &str, path: &Path, line: u64) -> Result<f64, DataError> {
     match text.parse::<f64>() {
-        Ok(v) if v.is_finite() => Ok(v),
+        Ok(v) if v.is_finite() && v.abs() > MAX_MAGNITUDE => Err(DataError::at_line(
+            path,
+            line,
+            format!("rating '{text}' is too large: ratings must lie within ±1e12"),
+        )),
+        Ok(v) if v.is_finite() => Ok(v + 0.0),
         Ok(_) => Err(DataError::at_line(
             path,
             line,

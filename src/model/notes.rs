@@ -29,6 +29,8 @@ pub const NOTES_TAG: &str = "sextant-notes";
 pub const NOTES_VERSION: u32 = 1;
 /// Longest note or label accepted, in characters.
 pub const MAX_NOTE_CHARS: usize = 4000;
+/// Largest notes file read (checked before reading it).
+pub const MAX_NOTES_BYTES: u64 = 64 << 20;
 /// Separator placed between two versions of a note edited in two places at once.
 pub const JOIN: &str = " ‖ ";
 
@@ -428,6 +430,17 @@ pub fn lock_dir(dir: &Path) -> std::io::Result<DirLock> {
 /// Reads the notes of a model directory; empty when there is no notes file.
 pub fn read_notes(dir: &Path) -> Result<Annotations, DataError> {
     let path = dir.join(ANNOTATIONS);
+    if let Ok(meta) = fs::metadata(&path)
+        && meta.len() > MAX_NOTES_BYTES
+    {
+        return Err(DataError::in_file(
+            &path,
+            format!(
+                "is {} bytes; a notes file is at most {MAX_NOTES_BYTES} bytes, so this is not one",
+                meta.len()
+            ),
+        ));
+    }
     match fs::read(&path) {
         Ok(bytes) => Annotations::parse(&bytes, &path),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(Annotations::default()),

@@ -484,9 +484,23 @@ pub fn load_model(dir: &Path) -> Result<Model, DataError> {
     load_model_from(&DirSource::new(dir))
 }
 
+/// Largest manifest read (checked before reading it).
+pub const MAX_MANIFEST_BYTES: u64 = 64 << 20;
+
 /// Loads and validates a model from any source.
 pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     let manifest_path = source.path(MANIFEST);
+    // A manifest holds options, a trace and fingerprints: a few hundred kilobytes at most.
+    if let Some(size) = source.size(MANIFEST)
+        && size > MAX_MANIFEST_BYTES
+    {
+        return Err(DataError::in_file(
+            &manifest_path,
+            format!(
+                "is {size} bytes; a manifest is at most {MAX_MANIFEST_BYTES} bytes, so this is not one"
+            ),
+        ));
+    }
     let manifest = parse_manifest(&source.read(MANIFEST)?, &manifest_path)?;
     let files = &manifest.files;
     for name in [
