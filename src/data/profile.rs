@@ -42,8 +42,9 @@ pub fn read_profile(
 ) -> Result<ProfileRatings, DataError> {
     let mut csv = csv_reader(reader);
     let header = read_header(&mut csv, path, "item, rating")?;
-    let item_col = find_column(&header, "item", "an 'item' column", path)?;
-    let rating_col = find_column(&header, "rating", "a 'rating' column", path)?;
+    let expected = "a profile's header row is item,rating";
+    let item_col = find_column(&header, "item", expected, path)?;
+    let rating_col = find_column(&header, "rating", expected, path)?;
     let mut out = ProfileRatings::default();
     let mut lines: std::collections::HashMap<u32, u64> = std::collections::HashMap::new();
     let mut record = csv::ByteRecord::new();

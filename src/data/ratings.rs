@@ -345,8 +345,13 @@ pub(crate) fn find_column(
             path,
             1,
             format!(
-                "missing column '{name}' in the header (found: {}); name the right column with {option}",
-                abbreviate_header(header)
+                "missing column '{name}' in the header (found: {}); {}",
+                abbreviate_header(header),
+                if option.starts_with("--") {
+                    format!("name the right column with {option}")
+                } else {
+                    option.to_owned()
+                }
             ),
         )),
         _ => Err(DataError::at_line(
