@@ -286,7 +286,18 @@ fn a_refit_keeps_the_notes_and_reports_those_about_missing_items() {
     let notes = "(format: \"sextant-notes\", version: 1, factors: {1: \"mild\", 7: \"gone\"}, \
                  items: {\"i3\": \"keep\", \"i99\": \"orphan\"})\n";
     std::fs::write(model.join("annotations.ron"), notes).unwrap();
-    let out = fit_small(&ratings, &model);
+    // Not quiet: the carried-over notes are reported on stderr.
+    let out = sextant(&[
+        "fit",
+        ratings.to_str().unwrap(),
+        "--out",
+        model.to_str().unwrap(),
+        "--rank",
+        "2",
+        "--holdout",
+        "0",
+    ]);
+    assert!(out.status.success());
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(stderr.contains("kept 4 curator note(s)"), "{stderr}");
     assert!(stderr.contains("1 item note refers"), "{stderr}");

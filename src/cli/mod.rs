@@ -13,6 +13,7 @@ mod info;
 mod inputs;
 mod lookup;
 mod neighbours;
+mod notes;
 mod output;
 mod suggest;
 mod summary;
@@ -71,6 +72,8 @@ enum Command {
     FoldIn(foldin::FoldInArgs),
     /// Fit a grid of ranks × λ on one held-out split and compare held-out RMSE.
     Tune(tune::TuneArgs),
+    /// List a model's curator notes, or set an item note, a factor label or a pair flag.
+    Notes(notes::NotesArgs),
 }
 
 /// Runs the parsed command line.
@@ -86,6 +89,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Audit(args)) => audit::run(&args),
         Some(Command::FoldIn(args)) => foldin::run(&args),
         Some(Command::Tune(args)) => tune::run(&args),
+        Some(Command::Notes(args)) => notes::run(&args),
         None => demo::run(),
     }
 }
@@ -105,6 +109,12 @@ pub fn exit_code(err: &anyhow::Error) -> u8 {
             return match fit {
                 FitError::NotPositiveDefinite { .. } => 1,
                 FitError::Option(_) | FitError::Underdetermined { .. } | FitError::Init(_) => 2,
+            };
+        }
+        if let Some(notes) = cause.downcast_ref::<sextant::model::notes::NotesError>() {
+            return match notes {
+                sextant::model::notes::NotesError::Data(_) => 2,
+                sextant::model::notes::NotesError::Io { .. } => 1,
             };
         }
         if let Some(save) = cause.downcast_ref::<SaveError>() {

@@ -266,6 +266,7 @@ pub fn save_and_print(
     }
     // Curator notes carried over from the model this one replaced.
     match sextant::model::notes::read_notes(out) {
+        Ok(_) if quiet => {}
         Ok(notes) if !notes.is_empty() => {
             let orphans = notes.orphans(&model.ratings.items, model.factors.rank);
             eprintln!(

@@ -91,6 +91,7 @@ pub fn save_model(dir: &Path, model: &Model) -> Result<(), SaveError> {
     let name = dir
         .file_name()
         .map_or_else(|| "model".into(), |n| n.to_string_lossy().into_owned());
+    remove_stale_staging(&parent, &name);
     let staging = Staging::create(&parent, &name)?;
     write_files(&staging.path, model)?;
     // Curator notes are copied and the directories swapped under the notes lock, so a note
@@ -175,6 +176,37 @@ fn inspect_target(dir: &Path) -> Result<Target, SaveError> {
         )));
     }
     Ok(Target::Model)
+}
+
+/// Removes staging directories that a killed save of the same model left behind (their
+/// process is gone). They are never read, so this only frees the space.
+fn remove_stale_staging(parent: &Path, name: &str) {
+    let prefix = format!(".{name}.sextant-new-");
+    let Ok(entries) = fs::read_dir(parent) else {
+        return;
+    };
+    for entry in entries.flatten() {
+        let file = entry.file_name().to_string_lossy().into_owned();
+        let Some(rest) = file.strip_prefix(&prefix) else {
+            continue;
+        };
+        let Some(pid) = rest.split('-').next().and_then(|p| p.parse::<u32>().ok()) else {
+            continue;
+        };
+        if pid != std::process::id() && !process_alive(pid) {
+            let _ = fs::remove_dir_all(entry.path());
+        }
+    }
+}
+
+/// Whether a process with this id exists (Linux: /proc; elsewhere assume it does, so
+/// nothing is removed).
+fn process_alive(pid: u32) -> bool {
+    if cfg!(target_os = "linux") {
+        Path::new("/proc").join(pid.to_string()).exists()
+    } else {
+        true
+    }
 }
 
 /// A sibling directory being filled; removed on drop unless it was renamed away.

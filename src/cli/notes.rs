@@ -1,0 +1,160 @@
+//! `sextant notes`: list or edit a model's curator notes from the command line (the same
+//! notes the explorer keeps, saved the same way: locked, merged, atomic).
+
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+use clap::Args;
+use serde::Serialize;
+use sextant::model::load_model;
+use sextant::model::notes::Notes;
+
+use super::UsageError;
+use super::output::{self, Format};
+
+/// List a model's curator notes, or change one: an item note, a factor label, a flag on a
+/// pair of items that should not be neighbours. Empty text removes a note or label.
+#[derive(Debug, Args)]
+pub struct NotesArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// Set the note on an item: --item ID TEXT.
+    #[arg(long, num_args = 2, value_names = ["ID", "TEXT"])]
+    item: Option<Vec<String>>,
+    /// Set the label of a factor (numbered from 1): --factor N TEXT.
+    #[arg(long, num_args = 2, value_names = ["N", "TEXT"])]
+    factor: Option<Vec<String>>,
+    /// Flag two items as wrong neighbours: --flag ID ID (with --text for a note).
+    #[arg(long, num_args = 2, value_names = ["ID", "ID"])]
+    flag: Option<Vec<String>>,
+    /// Remove the flag on two items: --unflag ID ID.
+    #[arg(long, num_args = 2, value_names = ["ID", "ID"])]
+    unflag: Option<Vec<String>>,
+    /// The note that goes with --flag.
+    #[arg(long, default_value = "")]
+    text: String,
+    /// Output format of the listing.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+}
+
+#[derive(Serialize)]
+struct Row<'a> {
+    kind: &'static str,
+    subject: String,
+    other: Option<&'a str>,
+    note: &'a str,
+}
+
+pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
+    let model = load_model(&args.model)?;
+    sextant::model::notes::clean_leftovers(&args.model);
+    let mut notes = Notes::open(&args.model)?;
+    let items = &model.ratings.items;
+    let known = |id: &str| -> Result<(), UsageError> {
+        super::lookup::resolve(items, id, "item").map(|_| ())
+    };
+    let mut changed = false;
+    if let Some(v) = &args.item {
+        known(&v[0])?;
+        notes.current.set_item_note(&v[0], &v[1]);
+        changed = true;
+    }
+    if let Some(v) = &args.factor {
+        let f: usize = v[0]
+            .parse()
+            .ok()
+            .filter(|f| (1..=model.factors.rank).contains(f))
+            .ok_or_else(|| {
+                UsageError(format!(
+                    "--factor: '{}' is not a factor number from 1 to {}",
+                    v[0], model.factors.rank
+                ))
+            })?;
+        notes.current.set_factor_label(f, &v[1]);
+        changed = true;
+    }
+    for (pair, flag) in [(&args.flag, true), (&args.unflag, false)] {
+        if let Some(v) = pair {
+            known(&v[0])?;
+            known(&v[1])?;
+            if v[0] == v[1] {
+                return Err(UsageError("a pair needs two different items".into()).into());
+            }
+            if flag {
+                notes.current.flag_pair(&v[0], &v[1], &args.text);
+            } else {
+                notes.current.unflag_pair(&v[0], &v[1]);
+            }
+            changed = true;
+        }
+    }
+    if changed {
+        let merge = notes.save()?;
+        if merge.taken > 0 {
+            eprintln!("merged {} note(s) saved elsewhere meanwhile", merge.taken);
+        }
+        for what in &merge.joined {
+            eprintln!("{what} was edited elsewhere too: both texts are kept, joined by ‖");
+        }
+    }
+    let a = &notes.current;
+    let mut rows: Vec<Row<'_>> = Vec::new();
+    for (f, label) in &a.factors {
+        rows.push(Row {
+            kind: "factor",
+            subject: f.to_string(),
+            other: None,
+            note: label,
+        });
+    }
+    for (id, note) in &a.items {
+        rows.push(Row {
+            kind: "item",
+            subject: id.clone(),
+            other: None,
+            note,
+        });
+    }
+    for ((x, y), note) in &a.pairs {
+        rows.push(Row {
+            kind: "pair",
+            subject: x.clone(),
+            other: Some(y),
+            note,
+        });
+    }
+    let text = match args.format {
+        Format::Json => serde_json::to_string_pretty(&serde_json::json!({ "notes": rows }))? + "\n",
+        Format::Csv => {
+            let mut out = String::from("kind,subject,other,note\n");
+            for r in &rows {
+                output::csv_row(
+                    &mut out,
+                    &[r.kind, &r.subject, r.other.unwrap_or(""), r.note],
+                );
+            }
+            out
+        }
+        Format::Table => {
+            let mut out = String::new();
+            if rows.is_empty() {
+                out.push_str("no curator notes yet\n");
+            }
+            for r in &rows {
+                let subject = match r.other {
+                    Some(o) => format!("{} – {}", r.subject, o),
+                    None => r.subject.clone(),
+                };
+                let _ = writeln!(out, "{:<7} {subject:<24} {}", r.kind, r.note);
+            }
+            let orphans = a.orphans(items, model.factors.rank);
+            if !orphans.is_empty() {
+                let _ = writeln!(out, "note: {}", orphans.describe());
+            }
+            out
+        }
+    };
+    output::print(&text)
+}
