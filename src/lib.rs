@@ -17,5 +17,7 @@ pub mod index;
 pub mod model;
 pub mod report;
 pub mod rng;
+#[doc(hidden)]
+pub mod robustness;
 
 pub use error::{DataError, FitError};

@@ -1,0 +1,8 @@
+//! Fuzz target: arbitrary bytes into the factor_table reader (see sextant::robustness).
+#![no_main]
+
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|data: &[u8]| {
+    sextant::robustness::factor_table(data);
+});
