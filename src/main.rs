@@ -16,7 +16,17 @@ fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(err) if cli::is_broken_pipe(&err) => ExitCode::SUCCESS,
         Err(err) => {
-            eprintln!("error: {err:#}");
+            // The message and each cause not already part of it (our errors name their
+            // operating-system reason themselves).
+            let mut text = err.to_string();
+            for cause in err.chain().skip(1) {
+                let cause = cause.to_string();
+                if !text.contains(&cause) {
+                    text.push_str(": ");
+                    text.push_str(&cause);
+                }
+            }
+            eprintln!("error: {text}");
             ExitCode::from(cli::exit_code(&err))
         }
     }

@@ -100,7 +100,7 @@ fn a_fit_killed_at_random_moments_leaves_the_old_model_or_the_new_one() {
     );
     run_to_end(&fit_args(&a, 1));
     run_to_end(&fit_args(&b, 2));
-    let full = run_to_end(&fit_args(&target, 1));
+    let mut full = run_to_end(&fit_args(&target, 1));
     // Curator notes in the target must come through every kill untouched.
     let notes = "(format: \"sextant-notes\", version: 1, items: {\"r001\": \"kept\"})\n";
     std::fs::write(target.join("annotations.ron"), notes).unwrap();
@@ -116,14 +116,17 @@ fn a_fit_killed_at_random_moments_leaves_the_old_model_or_the_new_one() {
     let mut k = 0;
     while killed < KILLS {
         k += 1;
-        assert!(k <= 3 * KILLS, "only {killed} of {k} runs could be killed");
+        assert!(k <= 5 * KILLS, "only {killed} of {k} runs could be killed");
         // Fit towards whichever model the directory does not hold now.
         let holds_old = snapshot(&target) == old;
         let seed = if holds_old { 2 } else { 1 };
-        killed += usize::from(kill_after(
-            &fit_args(&target, seed),
-            delay(&mut rng, k, full),
-        ));
+        let was_killed = kill_after(&fit_args(&target, seed), delay(&mut rng, k, full));
+        killed += usize::from(was_killed);
+        if !was_killed {
+            // It ended before the kill: runs are faster now than when timed (the machine
+            // is shared), so aim earlier.
+            full = full.mul_f64(0.8);
+        }
         let now = snapshot(&target);
         if now == old {
             as_old += 1;
@@ -186,16 +189,20 @@ fn a_notes_save_killed_at_random_moments_leaves_the_old_notes_or_the_new_ones() 
         .status()
         .unwrap();
     assert!(status.success());
-    let full = start.elapsed();
+    let mut full = start.elapsed();
     let mut before = read_notes(&target).unwrap();
     let mut rng = Rng::new(7);
     let (mut killed, mut kept, mut saved) = (0, 0, 0);
     let mut k = 0;
     while killed < KILLS {
         k += 1;
-        assert!(k <= 3 * KILLS, "only {killed} of {k} saves could be killed");
+        assert!(k <= 5 * KILLS, "only {killed} of {k} saves could be killed");
         let id = format!("r{:03}", 1 + k % 400);
-        killed += usize::from(kill_after(&set(k), delay(&mut rng, k, full)));
+        let was_killed = kill_after(&set(k), delay(&mut rng, k, full));
+        killed += usize::from(was_killed);
+        if !was_killed {
+            full = full.mul_f64(0.8);
+        }
         let now = read_notes(&target).unwrap_or_else(|e| panic!("kill {k}: notes unreadable: {e}"));
         let mut after = before.clone();
         after.set_item_note(&id, &format!("edit {k}"));
@@ -209,7 +216,7 @@ fn a_notes_save_killed_at_random_moments_leaves_the_old_notes_or_the_new_ones() 
         before = now;
     }
     eprintln!("{killed} of {k} notes saves killed; {kept} left the old notes, {saved} the new");
-    // Temporary files of killed saves are removed the next time notes are opened.
+    // Temporary files of killed saves are removed by the next save (under its lock).
     let status = Command::new(env!("CARGO_BIN_EXE_sextant"))
         .args(set(0))
         .stdout(Stdio::null())
@@ -222,4 +229,43 @@ fn a_notes_save_killed_at_random_moments_leaves_the_old_notes_or_the_new_ones() 
         .filter(|n| n.starts_with('.'))
         .collect();
     assert!(stray.is_empty(), "{stray:?}");
+}
+
+#[test]
+fn two_writers_saving_notes_at_once_lose_none() {
+    let tmp = tempfile::tempdir().unwrap();
+    let target = tmp.path().join("model");
+    std::fs::create_dir(&target).unwrap();
+    for entry in std::fs::read_dir(repo("demo-data/model")).unwrap() {
+        let entry = entry.unwrap();
+        std::fs::copy(entry.path(), target.join(entry.file_name())).unwrap();
+    }
+    let writer = |offset: usize| {
+        let target = target.clone();
+        std::thread::spawn(move || {
+            for k in 0..15 {
+                let id = format!("r{:03}", 1 + offset + k);
+                let status = Command::new(env!("CARGO_BIN_EXE_sextant"))
+                    .args([
+                        "notes",
+                        target.to_str().unwrap(),
+                        "--item",
+                        &id,
+                        &format!("writer {offset}"),
+                    ])
+                    .stdout(Stdio::null())
+                    .stderr(Stdio::null())
+                    .status()
+                    .unwrap();
+                assert!(status.success());
+            }
+        })
+    };
+    let (one, two) = (writer(0), writer(100));
+    one.join().unwrap();
+    two.join().unwrap();
+    let notes = read_notes(&target).unwrap();
+    assert_eq!(notes.items.len(), 30, "every note of both writers is kept");
+    assert_eq!(notes.item_note("r001"), Some("writer 0"));
+    assert_eq!(notes.item_note("r115"), Some("writer 100"));
 }

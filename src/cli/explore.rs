@@ -28,7 +28,6 @@ pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
     }
     ensure_terminal()?;
     let model = load_model(&args.model)?;
-    sextant::model::notes::clean_leftovers(&args.model);
     let notes = sextant::model::notes::Notes::open(&args.model)?;
     open(model, args.model.display().to_string(), notes)
 }

@@ -49,7 +49,6 @@ struct Row<'a> {
 
 pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model)?;
-    sextant::model::notes::clean_leftovers(&args.model);
     let mut notes = Notes::open(&args.model)?;
     let items = &model.ratings.items;
     let known = |id: &str| -> Result<(), UsageError> {
@@ -94,6 +93,9 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
         let merge = notes.save()?;
         if merge.taken > 0 {
             eprintln!("merged {} note(s) saved elsewhere meanwhile", merge.taken);
+        }
+        if merge.model_replaced {
+            eprintln!("the model was refitted while this ran; the notes went into the new model");
         }
         for what in &merge.joined {
             eprintln!("{what} was edited elsewhere too: both texts are kept, joined by ‖");

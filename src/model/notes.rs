@@ -299,6 +299,9 @@ pub struct Merge {
     pub taken: usize,
     /// Notes edited on both sides and kept as both texts: a short description of each.
     pub joined: Vec<String>,
+    /// The model in the directory was replaced (refitted) since these notes were opened:
+    /// the notes went into the new model, and what is on screen is the old one.
+    pub model_replaced: bool,
 }
 
 /// Three-way merge of one map.
@@ -453,6 +456,8 @@ pub fn read_notes(dir: &Path) -> Result<Annotations, DataError> {
 pub struct Notes {
     /// The model directory (None for the embedded demo, whose notes cannot be saved).
     dir: Option<PathBuf>,
+    /// Fingerprint of the directory's manifest when the notes were opened.
+    manifest: Option<String>,
     base: Annotations,
     /// The notes as they are now.
     pub current: Annotations,
@@ -464,6 +469,7 @@ impl Notes {
         let base = read_notes(dir)?;
         Ok(Self {
             dir: Some(dir.to_path_buf()),
+            manifest: manifest_print(dir),
             current: base.clone(),
             base,
         })
@@ -504,6 +510,8 @@ impl Notes {
     /// then becomes this session's notes directory.
     pub fn save_to(&mut self, dir: &Path) -> Result<Merge, NotesError> {
         let _lock = lock_dir(dir).map_err(io_error(dir))?;
+        // Under the lock no other save is writing, so any temporary file is a leftover.
+        clean_leftovers(dir);
         let same_dir = self.dir.as_deref() == Some(dir);
         let theirs = read_notes(dir)?;
         let base = if same_dir {
@@ -511,7 +519,9 @@ impl Notes {
         } else {
             &Annotations::default()
         };
-        let (merged, report) = merge(base, &self.current, &theirs);
+        let (merged, mut report) = merge(base, &self.current, &theirs);
+        report.model_replaced =
+            same_dir && self.manifest.is_some() && manifest_print(dir) != self.manifest;
         if merged != theirs {
             write_atomically(dir, &merged.to_text())?;
         }
@@ -520,6 +530,14 @@ impl Notes {
         self.dir = Some(dir.to_path_buf());
         Ok(report)
     }
+}
+
+/// Fingerprint of a directory's manifest, if it has one.
+fn manifest_print(dir: &Path) -> Option<String> {
+    let bytes = fs::read(dir.join(super::store::MANIFEST)).ok()?;
+    let mut hash = crate::data::fingerprint::Fnv1a64::default();
+    hash.update(&bytes);
+    Some(hash.hex())
 }
 
 /// Replaces `dir/annotations.ron` atomically.
@@ -542,8 +560,10 @@ fn write_atomically(dir: &Path, text: &str) -> Result<(), NotesError> {
     result
 }
 
-/// Removes temporary notes files left by a session that was killed while saving.
-pub fn clean_leftovers(dir: &Path) {
+/// Removes temporary notes files left by a session that was killed while saving. Call it
+/// only while holding the directory's lock ([`lock_dir`]): another live save's temporary
+/// file would otherwise go too.
+fn clean_leftovers(dir: &Path) {
     let Ok(entries) = fs::read_dir(dir) else {
         return;
     };

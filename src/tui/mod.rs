@@ -491,6 +491,34 @@ mod tests {
     }
 
     #[test]
+    fn an_explorer_saving_after_a_refit_says_so_and_loses_nothing() {
+        use sextant::model::notes::{Notes, read_notes};
+        let dir = tempfile::tempdir().expect("temp dir");
+        let model_dir = dir.path().join("m");
+        let mut app = demo_app();
+        sextant::model::save_model(&model_dir, &app.model).expect("saved");
+        app.notes = Notes::open(&model_dir).expect("opened");
+        // Another explorer notes something; then the model is refitted (saved again with a
+        // changed manifest) while this one is open.
+        let mut other = Notes::open(&model_dir).expect("opened");
+        other.current.set_factor_label(1, "from the other window");
+        other.save().expect("saved");
+        let mut refit = app.model.clone();
+        refit.manifest.seed = 99;
+        sextant::model::save_model(&model_dir, &refit).expect("refitted");
+        press(&mut app, KeyCode::Char('n'));
+        type_text(&mut app, "after the refit");
+        assert!(
+            app.status.contains("refitted since this window opened it"),
+            "{}",
+            app.status
+        );
+        let saved = read_notes(&model_dir).expect("readable");
+        assert_eq!(saved.factor_label(1), Some("from the other window"));
+        assert_eq!(saved.len(), 2);
+    }
+
+    #[test]
     fn a_what_if_profile_follows_every_edit() {
         let mut app = demo_app();
         press(&mut app, KeyCode::Char('u'));

@@ -165,6 +165,16 @@ impl App {
             return;
         }
         match self.notes.save() {
+            Ok(merge) if merge.model_replaced => {
+                self.status = format!(
+                    "{what} — saved, into the model refitted since this window opened it; reopen to see the new model{}",
+                    if merge.joined.is_empty() {
+                        String::new()
+                    } else {
+                        format!("; both texts kept (‖): {}", merge.joined.join(", "))
+                    }
+                );
+            }
             Ok(merge) if merge.joined.is_empty() && merge.taken == 0 => {
                 self.status = format!("{what} — saved");
             }
