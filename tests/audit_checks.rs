@@ -8,7 +8,7 @@ mod common;
 use std::collections::HashMap;
 use std::fmt::Write as _;
 
-use common::{fixture, floats, repo, sextant};
+use common::{copy_dir, fixture, floats, repo, sextant};
 use sextant::analysis::audit::{AuditOptions, audit};
 use sextant::analysis::ranking::ndcg_at;
 use sextant::analysis::stats::{Hypergeometric, LnFactorial};
@@ -310,14 +310,6 @@ fn a_refit_keeps_the_notes_and_reports_those_about_missing_items() {
         std::fs::read_to_string(model.join("annotations.ron")).unwrap(),
         notes
     );
-}
-
-fn copy_dir(from: &std::path::Path, to: &std::path::Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for entry in std::fs::read_dir(from).unwrap() {
-        let entry = entry.unwrap();
-        std::fs::copy(entry.path(), to.join(entry.file_name())).unwrap();
-    }
 }
 
 #[test]

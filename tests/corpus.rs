@@ -6,10 +6,9 @@
 
 mod common;
 
-use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
-use common::{repo, sextant};
+use common::{copy_dir, repo, sextant, snapshot};
 
 /// How a corpus file is fed to sextant.
 #[derive(Debug, Clone, Copy)]
@@ -125,26 +124,8 @@ fn corpus(name: &str) -> PathBuf {
     repo(&format!("tests/bad-inputs/{name}"))
 }
 
-/// Every file under `dir` with its bytes (to prove nothing changed).
-fn snapshot(dir: &Path) -> BTreeMap<String, Vec<u8>> {
-    std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| {
-            let e = e.unwrap();
-            (
-                e.file_name().to_string_lossy().into_owned(),
-                std::fs::read(e.path()).unwrap(),
-            )
-        })
-        .collect()
-}
-
 fn copy_model(to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for entry in std::fs::read_dir(corpus("tiny-model")).unwrap() {
-        let entry = entry.unwrap();
-        std::fs::copy(entry.path(), to.join(entry.file_name())).unwrap();
-    }
+    copy_dir(&corpus("tiny-model"), to);
 }
 
 /// Runs one case; returns (exit code, stderr, the file name the message must name).

@@ -6,31 +6,16 @@
 
 mod common;
 
-use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
-use common::repo;
+use common::{copy_dir, repo, snapshot};
 use sextant::model::notes::read_notes;
 use sextant::rng::Rng;
 
 const KILLS: usize = 100;
-
-/// Every file of a directory with its bytes.
-fn snapshot(dir: &Path) -> BTreeMap<String, Vec<u8>> {
-    std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| {
-            let e = e.unwrap();
-            (
-                e.file_name().to_string_lossy().into_owned(),
-                std::fs::read(e.path()).unwrap(),
-            )
-        })
-        .collect()
-}
 
 fn fit_args(out: &Path, seed: u64) -> Vec<String> {
     [
@@ -161,11 +146,7 @@ fn a_fit_killed_at_random_moments_leaves_the_old_model_or_the_new_one() {
 fn a_notes_save_killed_at_random_moments_leaves_the_old_notes_or_the_new_ones() {
     let tmp = tempfile::tempdir().unwrap();
     let target = tmp.path().join("model");
-    std::fs::create_dir(&target).unwrap();
-    for entry in std::fs::read_dir(repo("demo-data/model")).unwrap() {
-        let entry = entry.unwrap();
-        std::fs::copy(entry.path(), target.join(entry.file_name())).unwrap();
-    }
+    copy_dir(&repo("demo-data/model"), &target);
     // A large notes file, so that writing it takes a measurable moment.
     let mut text = String::from("(format: \"sextant-notes\", version: 1, items: {\n");
     for j in 1..=400 {
@@ -235,11 +216,7 @@ fn a_notes_save_killed_at_random_moments_leaves_the_old_notes_or_the_new_ones() 
 fn two_writers_saving_notes_at_once_lose_none() {
     let tmp = tempfile::tempdir().unwrap();
     let target = tmp.path().join("model");
-    std::fs::create_dir(&target).unwrap();
-    for entry in std::fs::read_dir(repo("demo-data/model")).unwrap() {
-        let entry = entry.unwrap();
-        std::fs::copy(entry.path(), target.join(entry.file_name())).unwrap();
-    }
+    copy_dir(&repo("demo-data/model"), &target);
     let writer = |offset: usize| {
         let target = target.clone();
         std::thread::spawn(move || {

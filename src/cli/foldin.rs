@@ -12,7 +12,6 @@ use sextant::data::profile::load_profile;
 use sextant::index::{InnerProductIndex, Path};
 use sextant::model::load_model;
 
-use super::lookup::{csv_number, item_label, item_title};
 use super::output::{self, Format};
 
 /// Fold a profile (an `item,rating` CSV) into a model: one member step against the fixed
@@ -36,22 +35,11 @@ pub struct FoldInArgs {
 }
 
 #[derive(Serialize)]
-struct Row<'a> {
-    rank: usize,
-    item: &'a str,
-    predicted: f64,
-    rounded: f64,
-    predictive_sd: Option<f64>,
-    #[serde(skip_serializing_if = "Option::is_none")]
-    title: Option<&'a str>,
-}
-
-#[derive(Serialize)]
 struct Report<'a> {
     vector: &'a [f64],
     ratings_used: usize,
     skipped: Vec<&'a str>,
-    suggestions: Vec<Row<'a>>,
+    suggestions: Vec<super::suggest::Row<'a>>,
 }
 
 pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
@@ -91,34 +79,11 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
         vector: &vector,
         ratings_used: profile.ratings.len(),
         skipped: profile.unknown.iter().map(|(id, _)| id.as_str()).collect(),
-        suggestions: found
-            .iter()
-            .map(|s| Row {
-                rank: s.rank,
-                item: model.ratings.items.name(s.item),
-                predicted: s.predicted,
-                rounded: s.rounded,
-                predictive_sd: s.predictive_sd,
-                title: item_title(&model, s.item).0,
-            })
-            .collect(),
+        suggestions: super::suggest::rows(&model, &found),
     };
     let text = match args.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
-        Format::Csv => {
-            let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
-            for r in &report.suggestions {
-                let fields = [
-                    r.rank.to_string(),
-                    r.item.to_owned(),
-                    csv_number(Some(r.predicted)),
-                    csv_number(Some(r.rounded)),
-                    csv_number(r.predictive_sd),
-                ];
-                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
-            }
-            out
-        }
+        Format::Csv => super::suggest::csv(&report.suggestions),
         Format::Table => {
             let mut out = String::new();
             let _ = writeln!(
@@ -140,22 +105,8 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
                 };
                 let _ = writeln!(out, "  f{:<3} {v:>+8.3} {left}│{right}", d + 1);
             }
-            let _ = writeln!(
-                out,
-                "\n{:>4}  {:>9}  {:>7}  {:>6}  item",
-                "rank", "predicted", "rounded", "± sd"
-            );
-            for (r, s) in report.suggestions.iter().zip(&found) {
-                let _ = writeln!(
-                    out,
-                    "{:>4}  {:>9.3}  {:>7}  {:>6}  {}",
-                    r.rank,
-                    r.predicted,
-                    r.rounded,
-                    output::fixed(r.predictive_sd, 2),
-                    item_label(&model, s.item)
-                );
-            }
+            out.push('\n');
+            out.push_str(&super::suggest::table(&model, &found));
             out
         }
     };

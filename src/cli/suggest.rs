@@ -5,9 +5,9 @@ use std::path::PathBuf;
 
 use clap::Args;
 use serde::Serialize;
-use sextant::analysis::suggest;
+use sextant::analysis::{Suggestion, suggest};
 use sextant::index::{InnerProductIndex, Path};
-use sextant::model::load_model;
+use sextant::model::{Model, load_model};
 
 use super::lookup::{csv_number, item_label, item_title, resolve};
 use super::output::{self, Format};
@@ -33,8 +33,9 @@ pub struct SuggestArgs {
     format: Format,
 }
 
+/// One suggestion as printed (JSON fields fixed by DESIGN.md, plus title and category).
 #[derive(Serialize)]
-struct Row<'a> {
+pub struct Row<'a> {
     rank: usize,
     item: &'a str,
     predicted: f64,
@@ -58,10 +59,40 @@ pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
     let user = resolve(&model.ratings.users, &args.user, "member")?;
     let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
     let found = suggest(&model, &index, user, args.n, args.include_rated);
-    let rows: Vec<Row<'_>> = found
+    let rows = rows(&model, &found);
+    let report = Report {
+        user: &args.user,
+        n: args.n,
+        suggestions: rows,
+    };
+    let text = match args.format {
+        Format::Json => serde_json::to_string_pretty(&report)? + "\n",
+        Format::Csv => csv(&report.suggestions),
+        Format::Table => {
+            let mut out = String::new();
+            let _ = writeln!(
+                out,
+                "top {} suggestions for member {} (items they have not rated)",
+                report.suggestions.len(),
+                args.user
+            );
+            out.push_str(&table(&model, &found));
+            let _ = writeln!(
+                out,
+                "± sd: predictive standard deviation of the rating given the item vectors (their own uncertainty is not included)"
+            );
+            out
+        }
+    };
+    output::print(&text)
+}
+
+/// The printed rows of a list of suggestions.
+pub fn rows<'a>(model: &'a Model, found: &[Suggestion]) -> Vec<Row<'a>> {
+    found
         .iter()
         .map(|s| {
-            let (title, category) = item_title(&model, s.item);
+            let (title, category) = item_title(model, s.item);
             Row {
                 rank: s.rank,
                 item: model.ratings.items.name(s.item),
@@ -72,60 +103,43 @@ pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
                 category,
             }
         })
-        .collect();
-    let report = Report {
-        user: &args.user,
-        n: args.n,
-        suggestions: rows,
-    };
-    let text = match args.format {
-        Format::Json => serde_json::to_string_pretty(&report)? + "\n",
-        Format::Csv => {
-            let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
-            for r in &report.suggestions {
-                let fields = [
-                    r.rank.to_string(),
-                    r.item.to_owned(),
-                    csv_number(Some(r.predicted)),
-                    csv_number(Some(r.rounded)),
-                    csv_number(r.predictive_sd),
-                ];
-                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
-            }
-            out
-        }
-        Format::Table => {
-            let mut out = String::new();
-            let _ = writeln!(
-                out,
-                "top {} suggestions for member {} (items they have not rated)",
-                report.suggestions.len(),
-                args.user
-            );
-            let _ = writeln!(
-                out,
-                "{:>4}  {:>9}  {:>7}  {:>6}  item",
-                "rank", "predicted", "rounded", "± sd"
-            );
-            for (r, s) in report.suggestions.iter().zip(&found) {
-                let sd = r
-                    .predictive_sd
-                    .map_or_else(|| "–".to_owned(), |v| format!("{v:.2}"));
-                let _ = writeln!(
-                    out,
-                    "{:>4}  {:>9.3}  {:>7}  {sd:>6}  {}",
-                    r.rank,
-                    r.predicted,
-                    r.rounded,
-                    item_label(&model, s.item)
-                );
-            }
-            let _ = writeln!(
-                out,
-                "± sd: predictive standard deviation of the rating given the item vectors (their own uncertainty is not included)"
-            );
-            out
-        }
-    };
-    output::print(&text)
+        .collect()
+}
+
+/// Suggestions as CSV (`rank,item,predicted,rounded,predictive_sd`).
+pub fn csv(rows: &[Row<'_>]) -> String {
+    let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
+    for r in rows {
+        let fields = [
+            r.rank.to_string(),
+            r.item.to_owned(),
+            csv_number(Some(r.predicted)),
+            csv_number(Some(r.rounded)),
+            csv_number(r.predictive_sd),
+        ];
+        output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+    }
+    out
+}
+
+/// Suggestions as a readable table with a header line.
+pub fn table(model: &Model, found: &[Suggestion]) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "{:>4}  {:>9}  {:>7}  {:>6}  item",
+        "rank", "predicted", "rounded", "± sd"
+    );
+    for s in found {
+        let _ = writeln!(
+            out,
+            "{:>4}  {:>9.3}  {:>7}  {:>6}  {}",
+            s.rank,
+            s.predicted,
+            s.rounded,
+            output::fixed(s.predictive_sd, 2),
+            item_label(model, s.item)
+        );
+    }
+    out
 }

@@ -611,27 +611,14 @@ impl App {
     }
 
     fn move_in_member(&mut self, action: Action) {
-        let page = self.page as isize;
+        let page = self.page;
         let Some(m) = &mut self.member else { return };
         let len = if m.in_suggestions {
             m.suggestions.len()
         } else {
             m.rated.len()
         };
-        if len == 0 {
-            return;
-        }
-        let delta = match action {
-            Action::SelectNext => 1,
-            Action::SelectPrevious => -1,
-            Action::PageDown => page,
-            Action::PageUp => -page,
-            Action::SelectFirst => isize::MIN / 2,
-            _ => isize::MAX / 2,
-        };
-        m.selected = (m.selected as isize)
-            .saturating_add(delta)
-            .clamp(0, len as isize - 1) as usize;
+        m.selected = stepped(m.selected, len, action, page);
         self.explain_selected();
     }
 
@@ -707,22 +694,10 @@ impl App {
     }
 
     fn move_in_audit(&mut self, action: Action) {
-        let page = self.page as isize;
-        let Some(a) = &mut self.audit else { return };
-        if a.least.is_empty() {
-            return;
+        let page = self.page;
+        if let Some(a) = &mut self.audit {
+            a.selected = stepped(a.selected, a.least.len(), action, page);
         }
-        let delta = match action {
-            Action::SelectNext => 1,
-            Action::SelectPrevious => -1,
-            Action::PageDown => page,
-            Action::PageUp => -page,
-            Action::SelectFirst => isize::MIN / 2,
-            _ => isize::MAX / 2,
-        };
-        a.selected = (a.selected as isize)
-            .saturating_add(delta)
-            .clamp(0, a.least.len() as isize - 1) as usize;
     }
 
     /// Opens the audit screen's highlighted item on the item screen.
@@ -1067,6 +1042,25 @@ impl App {
             .catalogue_selected
             .min(self.visible.len().saturating_sub(1));
     }
+}
+
+/// The row a movement action lands on in a list of `len` rows (0 for an empty list).
+fn stepped(selected: usize, len: usize, action: Action, page: usize) -> usize {
+    if len == 0 {
+        return 0;
+    }
+    let page = page as isize;
+    let delta = match action {
+        Action::SelectNext => 1,
+        Action::SelectPrevious => -1,
+        Action::PageDown => page,
+        Action::PageUp => -page,
+        Action::SelectFirst => isize::MIN / 2,
+        _ => isize::MAX / 2,
+    };
+    (selected as isize)
+        .saturating_add(delta)
+        .clamp(0, len as isize - 1) as usize
 }
 
 /// Work that waits until input pauses ([`App::settle`]), so that holding a key over a

@@ -109,3 +109,26 @@ pub fn sextant(args: &[&str]) -> std::process::Output {
         .output()
         .expect("the binary runs")
 }
+
+/// Every file directly in `dir`, by name, with its bytes (to prove nothing changed).
+pub fn snapshot(dir: &Path) -> std::collections::BTreeMap<String, Vec<u8>> {
+    std::fs::read_dir(dir)
+        .expect("a directory")
+        .map(|e| {
+            let e = e.expect("an entry");
+            (
+                e.file_name().to_string_lossy().into_owned(),
+                std::fs::read(e.path()).expect("readable"),
+            )
+        })
+        .collect()
+}
+
+/// Copies the files directly in `from` into `to` (created).
+pub fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).expect("created");
+    for entry in std::fs::read_dir(from).expect("a directory") {
+        let entry = entry.expect("an entry");
+        std::fs::copy(entry.path(), to.join(entry.file_name())).expect("copied");
+    }
+}
