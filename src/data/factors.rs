@@ -5,7 +5,7 @@ use std::io::{Read, Write};
 use std::path::Path;
 
 use super::ids::IdMap;
-use super::ratings::{csv_error, csv_reader, read_header, record_line};
+use super::ratings::{csv_error, csv_reader, read_header, record_line, trimmed};
 use crate::error::DataError;
 
 /// Vectors keyed by id, stored row-major (`values[i * rank + d]`).
@@ -67,7 +67,7 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
                 ),
             ));
         }
-        let id = std::str::from_utf8(&record[0])
+        let id = std::str::from_utf8(trimmed(&record[0]))
             .map_err(|_| DataError::at_line(path, line, "the id is not valid UTF-8 text"))?;
         if id.is_empty() {
             return Err(DataError::at_line(path, line, "the id is empty"));
@@ -81,7 +81,7 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
             ));
         }
         for (d, raw) in record.iter().skip(1).enumerate() {
-            let text = std::str::from_utf8(raw).unwrap_or("");
+            let text = std::str::from_utf8(trimmed(raw)).unwrap_or("");
             match text.parse::<f64>() {
                 Ok(v) if v.is_finite() && v.abs() <= super::ratings::MAX_MAGNITUDE => {
                     table.values.push(v + 0.0);

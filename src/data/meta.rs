@@ -8,7 +8,7 @@ use std::path::Path;
 use super::ids::IdMap;
 use super::ratings::{
     check_width, csv_error, csv_reader, find_column, id_field, optional_column, read_header,
-    record_line,
+    record_line, trimmed,
 };
 use crate::error::DataError;
 
@@ -87,7 +87,7 @@ pub fn read_items_meta(
             let Some(raw) = record.get(col) else {
                 return Ok(None);
             };
-            let value = std::str::from_utf8(raw).map_err(|_| {
+            let value = std::str::from_utf8(trimmed(raw)).map_err(|_| {
                 DataError::at_line(
                     path,
                     line,

@@ -7,7 +7,7 @@ use std::path::Path;
 use super::ids::IdMap;
 use super::ratings::{
     check_width, csv_error, csv_reader, field, find_column, id_field, parse_rating, read_header,
-    record_line,
+    record_line, trimmed,
 };
 use super::scale::RatingScale;
 use crate::error::DataError;
@@ -53,7 +53,7 @@ pub fn read_profile(
         .map_err(|e| csv_error(path, &e))?
     {
         let line = record_line(&record);
-        if record.iter().all(<[u8]>::is_empty) {
+        if record.iter().all(|f| trimmed(f).is_empty()) {
             continue;
         }
         check_width(&record, header.len(), path, line)?;
