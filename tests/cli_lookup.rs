@@ -208,3 +208,43 @@ fn unknown_ids_suggest_the_closest_and_exit_2() {
         assert!(stderr.contains(expected), "{expected:?} in {stderr:?}");
     }
 }
+
+#[test]
+fn neighbours_of_every_item_equal_the_single_lists() {
+    let model = common::repo("demo-data/model");
+    let m = model.to_str().unwrap();
+    for metric in ["euclidean", "cosine"] {
+        let all = common::sextant(&["neighbours", m, "--all", "-k", "5", "--metric", metric]);
+        assert!(all.status.success());
+        let text = String::from_utf8(all.stdout).unwrap();
+        let mut lines = text.lines();
+        assert_eq!(lines.next(), Some("query,rank,id,distance,cosine"));
+        let rows: Vec<&str> = lines.collect();
+        assert_eq!(rows.len(), 400 * 5);
+        for item in ["r001", "r250", "r400"] {
+            let single = common::sextant(&[
+                "neighbours",
+                m,
+                item,
+                "-k",
+                "5",
+                "--metric",
+                metric,
+                "--format",
+                "csv",
+            ]);
+            let single = String::from_utf8(single.stdout).unwrap();
+            let expected: Vec<String> = single
+                .lines()
+                .skip(1)
+                .map(|l| format!("{item},{l}"))
+                .collect();
+            let got: Vec<String> = rows
+                .iter()
+                .filter(|r| r.starts_with(&format!("{item},")))
+                .map(|r| (*r).to_owned())
+                .collect();
+            assert_eq!(got, expected, "{metric} {item}");
+        }
+    }
+}

@@ -42,10 +42,18 @@ pub struct NeighboursArgs {
     /// The item whose neighbours to list.
     #[arg(
         value_name = "ITEM",
-        required_unless_present = "user",
-        conflicts_with = "user"
+        required_unless_present_any = ["user", "all"],
+        conflicts_with_all = ["user", "all"]
     )]
     item: Option<String>,
+    /// Every item's neighbours at once, as CSV rows query,rank,id,distance,cosine (or one
+    /// JSON object with --format json): blocked matrix products, or at low ranks one k-d
+    /// tree query per item, whichever is faster; the lists equal the single-item ones.
+    #[arg(long, conflicts_with = "user")]
+    all: bool,
+    /// With --all: write to this file (atomically) instead of stdout.
+    #[arg(long, value_name = "FILE", requires = "all")]
+    out: Option<PathBuf>,
     /// List the members nearest to this member instead.
     #[arg(long, value_name = "USER")]
     user: Option<String>,
@@ -83,6 +91,9 @@ struct Report<'a> {
 
 pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model)?;
+    if args.all {
+        return run_all(args, &model);
+    }
     let (kind, ids, vectors, query) = match (&args.item, &args.user) {
         (Some(item), _) => (
             "item",
@@ -186,4 +197,90 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
         }
     };
     output::print(&text)
+}
+
+#[derive(Serialize)]
+struct List<'a> {
+    query: &'a str,
+    neighbours: Vec<Row<'a>>,
+}
+
+#[derive(Serialize)]
+struct AllReport<'a> {
+    kind: &'static str,
+    metric: &'static str,
+    k: usize,
+    lists: Vec<List<'a>>,
+}
+
+/// `--all`: every item's neighbour list, computed in bulk.
+fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Result<()> {
+    let metric: Metric = args.metric.into();
+    let d = model.factors.rank;
+    let vectors = &model.factors.items;
+    let ids = &model.ratings.items;
+    let lists = sextant::index::bulk::all_neighbours_auto(vectors, d, metric, args.k);
+    let vector = |r: usize| &vectors[r * d..(r + 1) * d];
+    let row_of = |query: usize, k: usize, n: &sextant::index::Neighbour| Row {
+        rank: k + 1,
+        id: ids.name(n.row),
+        distance: sextant::index::squared_distance(vector(query), vector(n.row as usize)).sqrt(),
+        cosine: cosine(vector(query), vector(n.row as usize)),
+        title: None,
+        category: None,
+    };
+    let text = match args.format {
+        Format::Json => {
+            let report = AllReport {
+                kind: "item",
+                metric: match metric {
+                    Metric::Euclidean => "euclidean",
+                    Metric::Cosine => "cosine",
+                },
+                k: args.k,
+                lists: lists
+                    .iter()
+                    .enumerate()
+                    .map(|(q, list)| List {
+                        query: ids.name(q as u32),
+                        neighbours: list
+                            .iter()
+                            .enumerate()
+                            .map(|(k, n)| row_of(q, k, n))
+                            .collect(),
+                    })
+                    .collect(),
+            };
+            serde_json::to_string(&report)? + "\n"
+        }
+        Format::Csv | Format::Table => {
+            let mut out = String::from("query,rank,id,distance,cosine\n");
+            for (q, list) in lists.iter().enumerate() {
+                for (k, n) in list.iter().enumerate() {
+                    let r = row_of(q, k, n);
+                    let fields = [
+                        ids.name(q as u32).to_owned(),
+                        r.rank.to_string(),
+                        r.id.to_owned(),
+                        csv_number(Some(r.distance)),
+                        csv_number(r.cosine),
+                    ];
+                    output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+                }
+            }
+            out
+        }
+    };
+    match &args.out {
+        Some(path) => {
+            output::write_atomic(path, text.as_bytes())?;
+            eprintln!(
+                "wrote {} neighbour lists to {}",
+                lists.len(),
+                path.display()
+            );
+            Ok(())
+        }
+        None => output::print(&text),
+    }
 }

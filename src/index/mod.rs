@@ -13,6 +13,7 @@
 //! unit-normalised copies) and [`InnerProductIndex`] exact top-N by inner product through
 //! the Euclidean transform of Bachrach et al. (RecSys 2014).
 
+pub mod bulk;
 pub mod rotation;
 pub mod tree;
 
