@@ -19,5 +19,6 @@ pub mod report;
 pub mod rng;
 #[doc(hidden)]
 pub mod robustness;
+pub mod synthetic;
 
 pub use error::{DataError, FitError};
