@@ -16,8 +16,12 @@ fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let path = std::path::PathBuf::from(args.first().expect("a ratings CSV"));
     let rank: usize = args.get(1).map_or(32, |a| a.parse().expect("a rank"));
-    let max_iters: usize = args.get(2).map_or(100, |a| a.parse().expect("an iteration limit"));
-    let tol: f64 = args.get(3).map_or(1e-6, |a| a.parse().expect("a tolerance"));
+    let max_iters: usize = args
+        .get(2)
+        .map_or(100, |a| a.parse().expect("an iteration limit"));
+    let tol: f64 = args
+        .get(3)
+        .map_or(1e-6, |a| a.parse().expect("a tolerance"));
     let start = Instant::now();
     let mut ratings = load_ratings(&path, &RatingsOptions::default()).expect("loads");
     let load = start.elapsed().as_secs_f64();
@@ -43,13 +47,21 @@ fn main() {
     let total = start.elapsed().as_secs_f64();
     times.sort_by(f64::total_cmp);
     let median = times[times.len() / 2];
-    let held = result.trace.last().and_then(|r| r.holdout_rmse).unwrap_or(f64::NAN);
+    let held = result
+        .trace
+        .last()
+        .and_then(|r| r.holdout_rmse)
+        .unwrap_or(f64::NAN);
     println!(
         "{} ratings ({} members × {} items), rank {rank}, tol {tol:e}: load {load:.2} s; set-up {setup:.2} s; {} iterations ({}), median {median:.3} s per iteration, fit {total:.1} s; held-out RMSE {held:.4}",
         ratings.entries.len(),
         ratings.users.len(),
         ratings.items.len(),
         result.trace.len(),
-        if result.converged { "converged" } else { "iteration limit" },
+        if result.converged {
+            "converged"
+        } else {
+            "iteration limit"
+        },
     );
 }
