@@ -710,12 +710,17 @@ impl App {
         else {
             return;
         };
+        self.screen = Screen::Items;
+        self.focus = Pane::Neighbours;
+        self.visit(j);
+    }
+
+    /// Makes `j` the current item, remembering the one it replaces for going back.
+    fn visit(&mut self, j: u32) {
         if let Some(previous) = self.current {
             self.history.push(previous);
         }
         self.future.clear();
-        self.screen = Screen::Items;
-        self.focus = Pane::Neighbours;
         self.show(j);
         self.reveal(j);
     }
@@ -821,12 +826,7 @@ impl App {
                     return;
                 };
                 let j = row.item;
-                if let Some(previous) = self.current {
-                    self.history.push(previous);
-                }
-                self.future.clear();
-                self.show(j);
-                self.reveal(j);
+                self.visit(j);
             }
             Pane::Catalogue | Pane::Loadings => {
                 self.focus = Pane::Neighbours;
