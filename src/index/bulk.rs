@@ -8,7 +8,7 @@
 //! from a direct sum; so they only *propose* candidates — everything within the k-th
 //! proposed distance plus a bound on that rounding — and the candidates are then scored by
 //! the same exact function the single queries use and ranked by (distance, row). The lists
-//! are therefore identical to [`NeighbourIndex::nearest_to_row`] for every row.
+//! are therefore identical to [`super::NeighbourIndex::nearest_to_row`] for every row.
 
 use rayon::prelude::*;
 
@@ -92,7 +92,7 @@ pub fn all_neighbours(
 }
 
 /// Every row's `k` nearest neighbours by the fastest exact path: where a k-d tree beats a
-/// scan for single queries (low ranks, see [`NeighbourIndex`]) one tree query per row, in
+/// scan for single queries (low ranks, see [`super::NeighbourIndex`]) one tree query per row, in
 /// parallel, since a tree visits a few hundred rows per query and a product visits all;
 /// otherwise the blocked products of [`all_neighbours`]. The lists are the same either way.
 pub fn all_neighbours_auto(
