@@ -2,7 +2,7 @@
 //!
 //! One query at a time reads the whole catalogue per query; here a block of 64 queries
 //! meets each cache-sized tile of the catalogue in a blocked matrix product (`X Qᵀ`, a
-//! register-tiled kernel: 4 catalogue rows × 8 queries per step), so every vector read from
+//! register-tiled kernel: 8 catalogue rows × 16 queries per step), so every vector read from
 //! memory serves the whole block. The products give
 //! distances by the expansion `‖q − x‖² = ‖q‖² + ‖x‖² − 2 q·x`, which rounds differently
 //! from a direct sum; so they only *propose* candidates — everything within the k-th
@@ -16,9 +16,9 @@ use super::{Metric, Neighbour, squared_distance};
 use crate::model::dot;
 
 /// Queries handled side by side by the kernel (one SIMD-friendly lane each).
-const LANES: usize = 8;
+const LANES: usize = 16;
 /// Lane groups per query block: a block of 64 queries shares every catalogue tile.
-const GROUPS: usize = 8;
+const GROUPS: usize = 4;
 /// Catalogue rows per tile (kept in cache while every lane group of the block meets it).
 const TILE: usize = 256;
 /// Catalogue rows per kernel call.
