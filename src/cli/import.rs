@@ -22,12 +22,19 @@ pub struct ImportArgs {
     /// Ratings CSV; every user and item in it must have a vector.
     #[arg(long, value_name = "FILE")]
     ratings: PathBuf,
-    /// User factor table: id,f1,…,fD.
+    /// User factor table: CSV id,f1,…,fD, or Parquet (a file ending in .parquet).
     #[arg(long, value_name = "FILE")]
     users: PathBuf,
-    /// Item factor table: id,f1,…,fD.
+    /// Item factor table: CSV id,f1,…,fD, or Parquet (a file ending in .parquet).
     #[arg(long, value_name = "FILE")]
     items: PathBuf,
+    /// Parquet tables: the id column (default: id, else the first text column).
+    #[arg(long, value_name = "NAME")]
+    id_col: Option<String>,
+    /// Parquet tables: the list-of-floats vector column (default: the only list column,
+    /// else every float column in order).
+    #[arg(long, value_name = "NAME")]
+    vector_col: Option<String>,
     /// Items metadata CSV: item plus optional title, category and other columns.
     #[arg(long, value_name = "FILE")]
     items_meta: Option<PathBuf>,
@@ -65,8 +72,12 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         return Err(UsageError("--mu must be a finite number".into()).into());
     }
     let scale = args.input.scale()?;
-    let (users, users_input) = read_table(&args.users, "users")?;
-    let (items, items_input) = read_table(&args.items, "items")?;
+    let columns = sextant::data::parquet::ParquetColumns {
+        id: args.id_col.clone(),
+        vector: args.vector_col.clone(),
+    };
+    let (users, users_input) = read_table(&args.users, "users", &columns)?;
+    let (items, items_input) = read_table(&args.items, "items", &columns)?;
     if users.rank != items.rank {
         return Err(DataError::at_line(
             &args.items,
@@ -152,8 +163,18 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
 fn read_table(
     path: &std::path::Path,
     role: &str,
+    columns: &sextant::data::parquet::ParquetColumns,
 ) -> Result<(sextant::data::FactorTable, sextant::model::manifest::Input), DataError> {
     let mut reader = inputs::open(path)?;
-    let table = read_factor_table(&mut reader, path)?;
+    let parquet = path
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("parquet"));
+    let table = if parquet {
+        // Fingerprint the bytes, then read the columns.
+        std::io::copy(&mut reader, &mut std::io::sink()).map_err(|e| DataError::read(path, e))?;
+        sextant::data::parquet::read_factor_parquet(path, columns)?
+    } else {
+        read_factor_table(&mut reader, path)?
+    };
     Ok((table, inputs::input(role, path, &reader)))
 }

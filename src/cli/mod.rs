@@ -6,6 +6,7 @@ mod audit;
 mod demo;
 mod explain;
 mod explore;
+mod export;
 mod fit;
 mod foldin;
 mod import;
@@ -74,6 +75,8 @@ enum Command {
     Tune(tune::TuneArgs),
     /// List a model's curator notes, or set an item note, a factor label or a pair flag.
     Notes(notes::NotesArgs),
+    /// Write a model's factor tables, held-out predictions and neighbour lists as Parquet or CSV.
+    Export(export::ExportArgs),
 }
 
 /// Runs the parsed command line.
@@ -90,6 +93,7 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::FoldIn(args)) => foldin::run(&args),
         Some(Command::Tune(args)) => tune::run(&args),
         Some(Command::Notes(args)) => notes::run(&args),
+        Some(Command::Export(args)) => export::run(&args),
         None => demo::run(),
     }
 }

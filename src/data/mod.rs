@@ -6,6 +6,7 @@ pub mod factors;
 pub mod fingerprint;
 pub mod ids;
 pub mod meta;
+pub mod parquet;
 pub mod profile;
 pub mod ratings;
 pub mod scale;

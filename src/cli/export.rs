@@ -1,0 +1,188 @@
+//! `sextant export`: a model's factor tables, its predictions for the held-out ratings and
+//! every item's neighbour list, as Parquet or CSV files, for a data lake or a notebook.
+
+use std::fmt::Write as _;
+use std::path::PathBuf;
+use std::sync::Arc;
+
+use anyhow::Context as _;
+use clap::{Args, ValueEnum};
+use sextant::model::load_model;
+
+use super::output;
+
+/// File format of an export.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ExportFormat {
+    /// Apache Parquet.
+    Parquet,
+    /// CSV.
+    Csv,
+}
+
+/// Write a model's factor tables (users, items), its predictions for held-out ratings and
+/// every item's nearest neighbours into a directory, as Parquet or CSV.
+#[derive(Debug, Args)]
+pub struct ExportArgs {
+    /// The model directory.
+    #[arg(value_name = "MODEL")]
+    model: PathBuf,
+    /// File format.
+    #[arg(long, value_enum, default_value_t = ExportFormat::Parquet)]
+    format: ExportFormat,
+    /// Directory to write into (created if missing).
+    #[arg(long, value_name = "DIR")]
+    out: PathBuf,
+    /// Neighbours per item.
+    #[arg(short, long, default_value_t = 10)]
+    k: usize,
+}
+
+pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
+    let model = load_model(&args.model)?;
+    std::fs::create_dir_all(&args.out)
+        .with_context(|| format!("{}: cannot create", args.out.display()))?;
+    let f = &model.factors;
+    let r = &model.ratings;
+    let held: Vec<_> = r.entries.iter().filter(|e| e.holdout).collect();
+    let lists = sextant::index::bulk::all_neighbours_auto(
+        &f.items,
+        f.rank,
+        sextant::index::Metric::Euclidean,
+        args.k,
+    );
+    match args.format {
+        ExportFormat::Parquet => {
+            use arrow_array::{ArrayRef, Float64Array, RecordBatch, StringArray, UInt32Array};
+            use arrow_schema::{DataType, Field, Schema};
+            let dir = &args.out;
+            let write = |name: &str, batch: RecordBatch| -> anyhow::Result<()> {
+                let path = dir.join(name);
+                let file = std::fs::File::create(&path)
+                    .with_context(|| format!("{}: cannot write", path.display()))?;
+                let mut w = parquet::arrow::ArrowWriter::try_new(file, batch.schema(), None)?;
+                w.write(&batch)?;
+                w.close()?;
+                Ok(())
+            };
+            sextant::data::parquet::write_factor_parquet(
+                &dir.join("users.parquet"),
+                &r.users,
+                &f.users,
+                f.rank,
+            )?;
+            sextant::data::parquet::write_factor_parquet(
+                &dir.join("items.parquet"),
+                &r.items,
+                &f.items,
+                f.rank,
+            )?;
+            let schema = Arc::new(Schema::new(vec![
+                Field::new("user", DataType::Utf8, false),
+                Field::new("item", DataType::Utf8, false),
+                Field::new("rating", DataType::Float64, false),
+                Field::new("predicted", DataType::Float64, false),
+            ]));
+            let cols: Vec<ArrayRef> = vec![
+                Arc::new(StringArray::from_iter_values(
+                    held.iter().map(|e| r.users.name(e.user)),
+                )),
+                Arc::new(StringArray::from_iter_values(
+                    held.iter().map(|e| r.items.name(e.item)),
+                )),
+                Arc::new(Float64Array::from_iter_values(held.iter().map(|e| e.value))),
+                Arc::new(Float64Array::from_iter_values(
+                    held.iter().map(|e| f.predict(e.user, e.item)),
+                )),
+            ];
+            write(
+                "holdout-predictions.parquet",
+                RecordBatch::try_new(schema, cols)?,
+            )?;
+            let rows: Vec<(u32, usize, &sextant::index::Neighbour)> = lists
+                .iter()
+                .enumerate()
+                .flat_map(|(q, l)| l.iter().enumerate().map(move |(k, n)| (q as u32, k + 1, n)))
+                .collect();
+            let schema = Arc::new(Schema::new(vec![
+                Field::new("query", DataType::Utf8, false),
+                Field::new("rank", DataType::UInt32, false),
+                Field::new("id", DataType::Utf8, false),
+                Field::new("distance", DataType::Float64, false),
+            ]));
+            let cols: Vec<ArrayRef> = vec![
+                Arc::new(StringArray::from_iter_values(
+                    rows.iter().map(|(q, _, _)| r.items.name(*q)),
+                )),
+                Arc::new(UInt32Array::from_iter_values(
+                    rows.iter().map(|(_, k, _)| *k as u32),
+                )),
+                Arc::new(StringArray::from_iter_values(
+                    rows.iter().map(|(_, _, n)| r.items.name(n.row)),
+                )),
+                Arc::new(Float64Array::from_iter_values(
+                    rows.iter().map(|(_, _, n)| n.distance),
+                )),
+            ];
+            write("neighbours.parquet", RecordBatch::try_new(schema, cols)?)?;
+        }
+        ExportFormat::Csv => {
+            let num = sextant::data::factors::format_float;
+            let table = |ids: &sextant::data::IdMap, values: &[f64]| {
+                let mut out = String::from("id");
+                for d in 1..=f.rank {
+                    let _ = write!(out, ",f{d}");
+                }
+                out.push('\n');
+                for (i, v) in values.chunks_exact(f.rank).enumerate() {
+                    let mut fields = vec![ids.name(i as u32).to_owned()];
+                    fields.extend(v.iter().map(|x| num(*x)));
+                    output::csv_row(
+                        &mut out,
+                        &fields.iter().map(String::as_str).collect::<Vec<_>>(),
+                    );
+                }
+                out
+            };
+            output::write_atomic(
+                &args.out.join("users.csv"),
+                table(&r.users, &f.users).as_bytes(),
+            )?;
+            output::write_atomic(
+                &args.out.join("items.csv"),
+                table(&r.items, &f.items).as_bytes(),
+            )?;
+            let mut out = String::from("user,item,rating,predicted\n");
+            for e in &held {
+                let fields = [
+                    r.users.name(e.user).to_owned(),
+                    r.items.name(e.item).to_owned(),
+                    num(e.value),
+                    num(f.predict(e.user, e.item)),
+                ];
+                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+            }
+            output::write_atomic(&args.out.join("holdout-predictions.csv"), out.as_bytes())?;
+            let mut out = String::from("query,rank,id,distance\n");
+            for (q, l) in lists.iter().enumerate() {
+                for (k, n) in l.iter().enumerate() {
+                    let fields = [
+                        r.items.name(q as u32).to_owned(),
+                        (k + 1).to_string(),
+                        r.items.name(n.row).to_owned(),
+                        num(n.distance),
+                    ];
+                    output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+                }
+            }
+            output::write_atomic(&args.out.join("neighbours.csv"), out.as_bytes())?;
+        }
+    }
+    eprintln!(
+        "wrote the factor tables, {} held-out predictions and {} neighbour lists to {}",
+        held.len(),
+        lists.len(),
+        args.out.display()
+    );
+    Ok(())
+}
