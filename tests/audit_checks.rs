@@ -243,7 +243,15 @@ fn small_ratings(dir: &std::path::Path) -> std::path::PathBuf {
 }
 
 fn fit_small(ratings: &std::path::Path, model: &std::path::Path) -> std::process::Output {
-    let out = sextant(&[
+    fit_small_with(ratings, model, &["-q"])
+}
+
+fn fit_small_with(
+    ratings: &std::path::Path,
+    model: &std::path::Path,
+    extra: &[&str],
+) -> std::process::Output {
+    let mut args = vec![
         "fit",
         ratings.to_str().unwrap(),
         "--out",
@@ -252,8 +260,9 @@ fn fit_small(ratings: &std::path::Path, model: &std::path::Path) -> std::process
         "2",
         "--holdout",
         "0",
-        "-q",
-    ]);
+    ];
+    args.extend_from_slice(extra);
+    let out = sextant(&args);
     assert!(
         out.status.success(),
         "{}",
@@ -287,17 +296,7 @@ fn a_refit_keeps_the_notes_and_reports_those_about_missing_items() {
                  items: {\"i3\": \"keep\", \"i99\": \"orphan\"})\n";
     std::fs::write(model.join("annotations.ron"), notes).unwrap();
     // Not quiet: the carried-over notes are reported on stderr.
-    let out = sextant(&[
-        "fit",
-        ratings.to_str().unwrap(),
-        "--out",
-        model.to_str().unwrap(),
-        "--rank",
-        "2",
-        "--holdout",
-        "0",
-    ]);
-    assert!(out.status.success());
+    let out = fit_small_with(&ratings, &model, &[]);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(stderr.contains("kept 4 curator note(s)"), "{stderr}");
     assert!(stderr.contains("1 item note refers"), "{stderr}");

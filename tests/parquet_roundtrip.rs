@@ -39,21 +39,29 @@ pq.write_table(table, "{d}/items.parquet")
 "#
     ));
     let out = dir.path().join("imported");
-    let result = sextant(&[
-        "import",
-        "--ratings",
-        &format!("{m}/ratings.csv"),
-        "--users",
-        &format!("{d}/users.parquet"),
-        "--items",
-        &format!("{d}/items.parquet"),
-        "--id-col",
-        "recipe",
-        "--out",
-        out.to_str().unwrap(),
-        "--center",
-        "global",
-    ]);
+    let (ratings, users, items) = (
+        format!("{m}/ratings.csv"),
+        format!("{d}/users.parquet"),
+        format!("{d}/items.parquet"),
+    );
+    let import = |extra: &[&str]| {
+        let mut args = vec![
+            "import",
+            "--ratings",
+            &ratings,
+            "--users",
+            &users,
+            "--items",
+            &items,
+            "--out",
+            out.to_str().unwrap(),
+            "--center",
+            "global",
+        ];
+        args.extend_from_slice(extra);
+        sextant(&args)
+    };
+    let result = import(&["--id-col", "recipe"]);
     // --id-col names the column in both tables; the users table has none called 'recipe'.
     assert_eq!(result.status.code(), Some(2));
     let stderr = String::from_utf8_lossy(&result.stderr);
@@ -65,19 +73,7 @@ pq.write_table(table, "{d}/items.parquet")
     // Naming nothing: the users' 'id' column, the items' only text column, and the items'
     // only list column are found on their own.
     {
-        let result = sextant(&[
-            "import",
-            "--ratings",
-            &format!("{m}/ratings.csv"),
-            "--users",
-            &format!("{d}/users.parquet"),
-            "--items",
-            &format!("{d}/items.parquet"),
-            "--out",
-            out.to_str().unwrap(),
-            "--center",
-            "global",
-        ]);
+        let result = import(&[]);
         assert!(
             result.status.success(),
             "{}",
