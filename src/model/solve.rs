@@ -7,7 +7,7 @@
 //! Buffers are reused across solves; one workspace per thread.
 
 use super::kernels::{
-    BATCH, COLUMN_BLOCK, Lanes, TILE, cholesky_solve_batch, gram_and_rhs, gram_and_rhs_direct,
+    BATCH, COLUMN_BLOCK, LaneVector, Scratch, TILE, cholesky_solve, interleave, normal_equations,
     round_up,
 };
 
@@ -15,15 +15,15 @@ use super::kernels::{
 #[derive(Debug, Clone)]
 pub struct RidgeWorkspace {
     rank: usize,
-    /// Row stride of the gathered vectors and of the Gram matrix (rank rounded up to a tile).
+    /// Row stride of the Gram matrix (rank rounded up to a tile).
     stride: usize,
-    gathered: Vec<f64>,
+    scratch: Scratch,
     /// One Gram matrix (stride `stride`) and right-hand side per lane.
     gram: [Vec<f64>; BATCH],
     rhs: [Vec<f64>; BATCH],
-    lanes: Vec<Lanes>,
-    lane_rhs: Vec<Lanes>,
-    diagonal: Vec<Lanes>,
+    lanes: Vec<LaneVector>,
+    lane_rhs: Vec<LaneVector>,
+    diagonal: Vec<LaneVector>,
 }
 
 /// The normal equations were not positive definite (only possible with no ridge term or
@@ -41,12 +41,12 @@ impl RidgeWorkspace {
         Self {
             rank,
             stride,
-            gathered: Vec::new(),
+            scratch: Scratch::default(),
             gram: std::array::from_fn(|_| vec![0.0; stride * stride]),
             rhs: std::array::from_fn(|_| vec![0.0; stride]),
-            lanes: vec![[0.0; BATCH]; rank * round_up(rank, COLUMN_BLOCK)],
-            lane_rhs: vec![[0.0; BATCH]; rank],
-            diagonal: vec![[0.0; BATCH]; rank],
+            lanes: vec![LaneVector::ZERO; rank * round_up(rank, COLUMN_BLOCK)],
+            lane_rhs: vec![LaneVector::ZERO; rank],
+            diagonal: vec![LaneVector::ZERO; rank],
         }
     }
 
@@ -92,25 +92,24 @@ impl RidgeWorkspace {
             }
         }
         // Interleave the systems, one per lane.
-        let ls = round_up(d, COLUMN_BLOCK);
-        let gram = &self.gram;
-        for i in 0..d {
-            for j in i..d {
-                let at = i * s + j;
-                self.lanes[i * ls + j] = std::array::from_fn(|l| gram[l][at]);
-            }
-            self.lane_rhs[i] = std::array::from_fn(|l| self.rhs[l][i]);
-        }
+        interleave(
+            &self.gram,
+            &self.rhs,
+            d,
+            s,
+            &mut self.lanes,
+            &mut self.lane_rhs,
+        );
         let diagonal = (ridge == 0.0).then(|| {
             self.diagonal.clear();
             let ls = round_up(d, COLUMN_BLOCK);
             self.diagonal.extend((0..d).map(|k| self.lanes[k * ls + k]));
             self.diagonal.as_slice()
         });
-        let mut ok = cholesky_solve_batch(&mut self.lanes, &mut self.lane_rhs, d, diagonal);
+        let mut ok = cholesky_solve(&mut self.lanes, &mut self.lane_rhs, d, diagonal);
         for (lane, solution) in out.chunks_exact_mut(d).enumerate().take(problems.len()) {
             for (k, value) in solution.iter_mut().enumerate() {
-                *value = self.lane_rhs[k][lane];
+                *value = self.lane_rhs[k].as_array()[lane];
             }
             if solution.iter().any(|v| !v.is_finite()) {
                 ok[lane] = false;
@@ -124,41 +123,9 @@ impl RidgeWorkspace {
         let (d, s) = (self.rank, self.stride);
         debug_assert_eq!(rows.len(), targets.len());
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
-        if !gram_and_rhs_direct(table, d, rows, targets, gram, rhs) {
-            self.gather(table, rows);
-            let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
-            gram_and_rhs(&self.gathered[..rows.len() * s], s, targets, gram, rhs);
-        }
+        normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
         for k in 0..d {
             self.gram[lane][k * s + k] += ridge;
-        }
-    }
-
-    /// Copies the vectors of `rows` into zero-padded rows of a tile-multiple width: one pass
-    /// over scattered memory, then every pass of the Gram kernel reads from cache. Every
-    /// value is written, so the buffer only grows and is never cleared.
-    fn gather(&mut self, table: &[f64], rows: &[u32]) {
-        let (d, s) = (self.rank, self.stride);
-        if self.gathered.len() < rows.len() * s {
-            self.gathered.resize(rows.len() * s, 0.0);
-        }
-        let gathered = &mut self.gathered[..rows.len() * s];
-        let whole = d - d % TILE;
-        for (slot, &r) in gathered.chunks_exact_mut(s).zip(rows) {
-            let source = &table[r as usize * d..(r as usize + 1) * d];
-            // Fixed-size chunks compile to plain vector moves (no library call per row).
-            for (to, from) in slot[..whole]
-                .chunks_exact_mut(TILE)
-                .zip(source.chunks_exact(TILE))
-            {
-                let from: &[f64; TILE] = from.try_into().expect("exact chunk");
-                let to: &mut [f64; TILE] = to.try_into().expect("exact chunk");
-                *to = *from;
-            }
-            for (to, from) in slot[whole..d].iter_mut().zip(&source[whole..]) {
-                *to = *from;
-            }
-            slot[d..].fill(0.0);
         }
     }
 

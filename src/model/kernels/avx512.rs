@@ -1,0 +1,387 @@
+//! The Gram kernels written with explicit 512-bit vectors (eight `f64` per register), for
+//! CPUs with AVX-512 and fused multiply-add. The compiler's own vectoriser keeps to 256-bit
+//! registers on these CPUs, which halves the arithmetic per instruction and runs short of
+//! registers for the accumulators of a whole Gram matrix.
+//!
+//! Every entry is the same chain of fused multiply-adds, in the same order, as in the
+//! portable kernels of the parent module, so both give the same bits (tested below).
+
+// Inlining is what lets each constant size unroll into straight register code.
+#![allow(clippy::inline_always)]
+
+use wide::f64x8;
+
+use super::prefetch;
+
+/// Values per vector register.
+const LANES: usize = 8;
+
+/// How many rows ahead the kernels ask for the next vectors.
+const LOOKAHEAD: usize = 16;
+
+/// First column of vector `t` of a row of width `D`: vectors hold columns `8t..8t + 8`,
+/// except that the last one of a width that is not a multiple of 8 ends at the last column
+/// (`D - 8..D`) instead of running past it. Columns in two vectors are computed twice, as
+/// the same chain of operations, so both copies agree to the bit.
+#[inline(always)]
+const fn first_column<const D: usize>(t: usize) -> usize {
+    if D < LANES {
+        0
+    } else if t * LANES + LANES > D {
+        D - LANES
+    } else {
+        t * LANES
+    }
+}
+
+/// Row `at..at + D` of `table` as `T` vectors (see [`first_column`]); never reads outside
+/// the row. A row narrower than a vector is padded with zeros.
+#[inline(always)]
+fn load_row<const D: usize, const T: usize>(table: &[f64], at: usize) -> [f64x8; T] {
+    let row: &[f64; D] = table[at..at + D].try_into().expect("row inside the table");
+    std::array::from_fn(|t| {
+        if D < LANES {
+            let mut padded = [0.0; LANES];
+            padded[..D].copy_from_slice(row);
+            f64x8::new(padded)
+        } else {
+            let start = first_column::<D>(t);
+            let values: &[f64; LANES] = row[start..start + LANES]
+                .try_into()
+                .expect("one register's worth");
+            f64x8::new(*values)
+        }
+    })
+}
+
+/// [`super::gram_and_rhs_direct`] for ranks up to 16: one pass over the rows, reading them
+/// straight from the row-major `table` (width `D`); the upper triangle in `T` vectors per
+/// row (from the vector holding the diagonal on) and the right-hand side stay in registers
+/// (at most 26 of the 32). `gram` has row stride `s`; `rhs` holds `s` values.
+pub(super) fn direct<const D: usize, const T: usize>(
+    table: &[f64],
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    s: usize,
+    rhs: &mut [f64],
+) {
+    let mut acc = [[f64x8::ZERO; T]; D];
+    let mut right = [f64x8::ZERO; T];
+    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
+        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+            let at = ahead as usize * D;
+            if let Some(row) = table.get(at..at + D) {
+                prefetch(row);
+            }
+        }
+        let at = r as usize * D;
+        let x = load_row::<D, T>(table, at);
+        let values: &[f64; D] = table[at..at + D].try_into().expect("row inside the table");
+        for a in 0..D {
+            let left = f64x8::splat(values[a]);
+            for t in a / LANES..T {
+                acc[a][t] = left.mul_add(x[t], acc[a][t]);
+            }
+        }
+        let target = f64x8::splat(target);
+        for t in 0..T {
+            right[t] = target.mul_add(x[t], right[t]);
+        }
+    }
+    for a in 0..D {
+        for t in a / LANES..T {
+            store(acc[a][t], &mut gram[a * s..a * s + D], first_column::<D>(t));
+        }
+    }
+    for t in 0..T {
+        store(right[t], &mut rhs[..D], first_column::<D>(t));
+    }
+}
+
+/// Writes the lanes of `v` to `out[from..]`, as many as fit.
+#[inline(always)]
+fn store(v: f64x8, out: &mut [f64], from: usize) {
+    let values = v.to_array();
+    if let Some(whole) = out.get_mut(from..from + LANES) {
+        // A fixed-size copy: one vector store, no library call.
+        let whole: &mut [f64; LANES] = whole.try_into().expect("eight values");
+        *whole = values;
+    } else {
+        for (slot, value) in out.iter_mut().skip(from).zip(values) {
+            *slot = value;
+        }
+    }
+}
+
+/// Accumulator registers one pass of [`gram_and_rhs`] may use.
+const PASS_REGISTERS: usize = 24;
+
+/// [`super::gram_and_rhs`] for ranks above 16, reading the rows of `table` (width `d`)
+/// through `rows`. The rows are first copied into `panel` (zero-padded to whole vectors;
+/// the first pass also forms the right-hand side), then the upper triangle is built in
+/// passes over the panel, each holding up to 24 vectors of the Gram matrix in registers: a
+/// block of 8 rows against up to 3 vectors of columns. `gram` has row stride `s`; `rhs`
+/// holds `s` values; both get columns `0..d` of every row (and nothing past `d`).
+pub(super) fn gram_and_rhs(
+    table: &[f64],
+    rows: &[u32],
+    y: &[f64],
+    panel: &mut Vec<f64x8>,
+    out: Out<'_>,
+    rhs: &mut [f64],
+) {
+    let Out { gram, s, d } = out;
+    let t = d.div_ceil(LANES);
+    let n = rows.len();
+    gather(table, d, t, rows, y, panel, &mut rhs[..d]);
+    let panel = &panel[..n * t];
+    for block in 0..t {
+        let mut first = block;
+        while first < t {
+            let count = (t - first).min(PASS_REGISTERS / LANES);
+            let out = Out { gram, s, d };
+            match count {
+                1 => pass::<1>(panel, t, block * LANES, first, out),
+                2 => pass::<2>(panel, t, block * LANES, first, out),
+                _ => pass::<3>(panel, t, block * LANES, first, out),
+            }
+            first += count;
+        }
+    }
+}
+
+/// Where the Gram kernels write: the matrix, its row stride and the rank.
+pub(super) struct Out<'a> {
+    pub gram: &'a mut [f64],
+    pub s: usize,
+    pub d: usize,
+}
+
+/// Copies the rows into `panel` (`t` vectors each, zero-padded) and sums `Σ_k y_k x_k`
+/// into `rhs`, one sequential chain per entry.
+fn gather(
+    table: &[f64],
+    d: usize,
+    t: usize,
+    rows: &[u32],
+    y: &[f64],
+    panel: &mut Vec<f64x8>,
+    rhs: &mut [f64],
+) {
+    // Right-hand side in blocks of up to 8 vectors held in registers.
+    const BLOCK: usize = 8;
+    let n = rows.len();
+    if panel.len() < n * t {
+        panel.resize(n * t, f64x8::ZERO);
+    }
+    let mut right = [f64x8::ZERO; BLOCK];
+    let whole = d / LANES;
+    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
+        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+            let at = ahead as usize * d;
+            if let Some(row) = table.get(at..at + d) {
+                prefetch(row);
+            }
+        }
+        let row = &table[r as usize * d..(r as usize + 1) * d];
+        let slots = &mut panel[k * t..(k + 1) * t];
+        for (slot, values) in slots.iter_mut().zip(row.chunks_exact(LANES)) {
+            let values: &[f64; LANES] = values.try_into().expect("one register's worth");
+            *slot = f64x8::new(*values);
+        }
+        if whole < t {
+            let mut tail = [0.0; LANES];
+            tail[..d - whole * LANES].copy_from_slice(&row[whole * LANES..]);
+            slots[whole] = f64x8::new(tail);
+        }
+        if t <= BLOCK {
+            let target = f64x8::splat(target);
+            for (acc, &x) in right.iter_mut().zip(slots.iter()) {
+                *acc = target.mul_add(x, *acc);
+            }
+        }
+    }
+    if t <= BLOCK {
+        for (v, acc) in right.iter().enumerate().take(t) {
+            store(*acc, rhs, v * LANES);
+        }
+    } else {
+        // Very wide rows: the same chains, a block of vectors at a time from the panel.
+        for first in (0..t).step_by(BLOCK) {
+            let count = (t - first).min(BLOCK);
+            let mut right = [f64x8::ZERO; BLOCK];
+            for (k, &target) in y.iter().enumerate() {
+                let target = f64x8::splat(target);
+                for v in 0..count {
+                    right[v] = target.mul_add(panel[k * t + first + v], right[v]);
+                }
+            }
+            for v in 0..count {
+                store(right[v], rhs, (first + v) * LANES);
+            }
+        }
+    }
+}
+
+/// Rows `r0..r0 + 8` of the Gram matrix, columns of vectors `first..first + N`, in one
+/// pass over the panel (`t` vectors per row). Rows past the rank are skipped.
+fn pass<const N: usize>(panel: &[f64x8], t: usize, r0: usize, first: usize, out: Out<'_>) {
+    let mut acc = [[f64x8::ZERO; N]; LANES];
+    for row in panel.chunks_exact(t) {
+        let x: [f64x8; N] = std::array::from_fn(|v| row[first + v]);
+        let left = row[r0 / LANES].as_array();
+        for a in 0..LANES {
+            let l = f64x8::splat(left[a]);
+            for v in 0..N {
+                acc[a][v] = l.mul_add(x[v], acc[a][v]);
+            }
+        }
+    }
+    let Out { gram, s, d } = out;
+    for a in 0..LANES.min(d - r0) {
+        let line = &mut gram[(r0 + a) * s..(r0 + a) * s + d];
+        for v in 0..N {
+            store(acc[a][v], line, (first + v) * LANES);
+        }
+    }
+}
+
+/// Most entries of a row one step of [`cholesky_solve_batch`] updates in registers.
+const ROW_CHUNK: usize = 16;
+
+/// [`super::cholesky_solve_batch`] on 512-bit lanes: the same operations in the same order,
+/// lane by lane, so the same bits. Row `k` of the factor is computed from column `k` on
+/// (the portable kernel also computes a few entries left of the diagonal, which nothing
+/// reads), in chunks of up to 16 entries whose sums run side by side.
+pub(super) fn cholesky_solve_batch(
+    a: &mut [f64x8],
+    b: &mut [f64x8],
+    d: usize,
+    ls: usize,
+    original_diagonal: Option<&[f64x8]>,
+) -> [bool; LANES] {
+    let (zero, one) = (f64x8::ZERO, f64x8::splat(1.0));
+    let noise_factor = f64x8::splat(64.0 * f64::EPSILON);
+    let mut failed = zero;
+    for k in 0..d {
+        let mut start = k;
+        while start < d {
+            let count = (d - start).min(ROW_CHUNK);
+            match count {
+                1 => update_row::<1>(a, ls, k, start),
+                2 => update_row::<2>(a, ls, k, start),
+                3 => update_row::<3>(a, ls, k, start),
+                4 => update_row::<4>(a, ls, k, start),
+                5 => update_row::<5>(a, ls, k, start),
+                6 => update_row::<6>(a, ls, k, start),
+                7 => update_row::<7>(a, ls, k, start),
+                8 => update_row::<8>(a, ls, k, start),
+                9 => update_row::<9>(a, ls, k, start),
+                10 => update_row::<10>(a, ls, k, start),
+                11 => update_row::<11>(a, ls, k, start),
+                12 => update_row::<12>(a, ls, k, start),
+                13 => update_row::<13>(a, ls, k, start),
+                14 => update_row::<14>(a, ls, k, start),
+                15 => update_row::<15>(a, ls, k, start),
+                _ => update_row::<ROW_CHUNK>(a, ls, k, start),
+            }
+            start += count;
+        }
+        let row = &mut a[k * ls..k * ls + d];
+        let pivot = row[k];
+        let mut bad = pivot.is_nan() | pivot.simd_le(zero);
+        if let Some(diagonal) = original_diagonal {
+            bad |= pivot.simd_le(noise_factor * diagonal[k]);
+        }
+        failed |= bad;
+        // Failed lanes carry on with a pivot of 1 to stay finite; their results are dropped.
+        let root = failed.select(one, pivot).sqrt();
+        row[k] = root;
+        let inverse = one / root;
+        for v in &mut row[k + 1..] {
+            *v *= inverse;
+        }
+    }
+    // Forward substitution Uᵀz = b, then back substitution Uw = z, as in the portable kernel.
+    for k in 0..d {
+        let row = &a[k * ls..k * ls + d];
+        let z = b[k] / row[k];
+        b[k] = z;
+        let minus_z = -z;
+        for (t, &u) in b[k + 1..d].iter_mut().zip(&row[k + 1..]) {
+            *t = minus_z.mul_add(u, *t);
+        }
+    }
+    for i in (0..d).rev() {
+        let w = b[i] / a[i * ls + i];
+        b[i] = w;
+        for r in 0..i {
+            b[r] = (-a[r * ls + i]).mul_add(w, b[r]);
+        }
+    }
+    let failed = failed.to_bitmask();
+    std::array::from_fn(|l| failed & (1 << l) == 0)
+}
+
+/// Entries `start..start + N` of row `k`: `A[k][c] − Σ_{i<k} U[i][k] U[i][c]`, summed in
+/// order `i = 0, 1, …`, each sum in its own register.
+#[inline(always)]
+fn update_row<const N: usize>(a: &mut [f64x8], ls: usize, k: usize, start: usize) {
+    let (above, here) = a.split_at_mut(k * ls);
+    let slots: &mut [f64x8; N] = (&mut here[start..start + N])
+        .try_into()
+        .expect("inside the row");
+    let mut acc = *slots;
+    for upper in above.chunks_exact(ls) {
+        let f = -upper[k];
+        let upper: &[f64x8; N] = upper[start..start + N].try_into().expect("inside the row");
+        for q in 0..N {
+            acc[q] = f.mul_add(upper[q], acc[q]);
+        }
+    }
+    *slots = acc;
+}
+
+/// Lays the Gram matrices and right-hand sides of a batch (row stride `s`, one per lane)
+/// side by side: `lanes[i * ls + j]` gets entry `(i, j)`, `j ≥ i`, of every system, and
+/// `lane_rhs[i]` entry `i` of every right-hand side. Eight columns at a time go through an
+/// 8 × 8 transpose in registers.
+pub(super) fn interleave(
+    gram: &[Vec<f64>; LANES],
+    rhs: &[Vec<f64>; LANES],
+    d: usize,
+    s: usize,
+    lanes: &mut [f64x8],
+    ls: usize,
+    lane_rhs: &mut [f64x8],
+) {
+    let block = |source: &[Vec<f64>; LANES], at: usize| -> [f64x8; LANES] {
+        let rows = std::array::from_fn(|l| {
+            let values: &[f64; LANES] =
+                source[l][at..at + LANES].try_into().expect("eight columns");
+            f64x8::new(*values)
+        });
+        f64x8::transpose(rows)
+    };
+    let column =
+        |source: &[Vec<f64>; LANES], at: usize| f64x8::new(std::array::from_fn(|l| source[l][at]));
+    for i in 0..d {
+        let mut j = i - i % LANES;
+        while j + LANES <= d {
+            lanes[i * ls + j..i * ls + j + LANES].copy_from_slice(&block(gram, i * s + j));
+            j += LANES;
+        }
+        for c in j.max(i)..d {
+            lanes[i * ls + c] = column(gram, i * s + c);
+        }
+    }
+    let mut i = 0;
+    while i + LANES <= d {
+        lane_rhs[i..i + LANES].copy_from_slice(&block(rhs, i));
+        i += LANES;
+    }
+    for c in i..d {
+        lane_rhs[c] = column(rhs, c);
+    }
+}

@@ -1,0 +1,813 @@
+//! Small dense kernels for the ridge solves: Gram matrix, right-hand side, Cholesky.
+//!
+//! Written as plain loops over small fixed-size arrays so the compiler turns them into SIMD
+//! code for the CPU it targets, while every sum keeps one fixed order: results are the same
+//! bit for bit whatever the vector width or thread count. `mul_add` is a fused multiply-add
+//! with a single rounding, exactly specified, so it too is identical everywhere.
+//!
+//! Matrices are row-major with a row stride `s` that is a multiple of [`TILE`]; only the
+//! upper triangle of a symmetric matrix is kept (row `i` holds entries `i..d`).
+
+// Index loops over small fixed arrays are the clearest way to write lane-wise kernels and
+// are what the vectoriser handles best.
+#![allow(clippy::needless_range_loop)]
+
+use wide::f64x8;
+
+#[cfg(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+))]
+mod avx512;
+
+/// Whether this build has the 512-bit kernels of the `avx512` module.
+pub const WIDE_KERNELS: bool = cfg!(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+));
+
+/// Tile edge of the Gram kernel: a 4 × 4 block of accumulators lives in registers.
+pub const TILE: usize = 4;
+
+/// Rounds `n` up to a multiple of `m`.
+pub fn round_up(n: usize, m: usize) -> usize {
+    n.div_ceil(m) * m
+}
+
+#[inline]
+fn tile(row: &[f64], at: usize) -> &[f64; TILE] {
+    row[at..at + TILE].try_into().expect("tile inside the row")
+}
+
+/// Tiles of the right-hand side one pass keeps in registers.
+const RHS_BLOCK: usize = 8;
+
+/// Most tiles one panel pass keeps in registers.
+const PANEL: usize = 6;
+
+/// Rows `rb..rb+4`, columns `cb..cb+4T` of `XᵀX` in one pass over the rows of `X`.
+fn panel<const T: usize>(x: &[f64], s: usize, rb: usize, cb: usize, gram: &mut [f64]) {
+    let mut acc = [[[0.0f64; TILE]; T]; TILE];
+    for row in x.chunks_exact(s) {
+        let left = tile(row, rb);
+        for (t, right) in (0..T).map(|t| (t, tile(row, cb + t * TILE))) {
+            for a in 0..TILE {
+                for c in 0..TILE {
+                    acc[a][t][c] = left[a].mul_add(right[c], acc[a][t][c]);
+                }
+            }
+        }
+    }
+    for a in 0..TILE {
+        for t in 0..T {
+            let at = (rb + a) * s + cb + t * TILE;
+            gram[at..at + TILE].copy_from_slice(&acc[a][t]);
+        }
+    }
+}
+
+/// Upper triangle of `XᵀX` and `Xᵀy` for `X` given as `n` rows of `s` values (`s` a
+/// multiple of [`TILE`], columns past the rank zero). Writes `gram[r * s + c]` for every
+/// tile on or above the diagonal, and `rhs[0..s]`; every entry is one chain of fused
+/// multiply-adds over the rows in order.
+pub fn gram_and_rhs(x: &[f64], s: usize, y: &[f64], gram: &mut [f64], rhs: &mut [f64]) {
+    debug_assert!(s.is_multiple_of(TILE) && x.len() == y.len() * s);
+    let n = y.len();
+    let row = |k: usize| &x[k * s..(k + 1) * s];
+    // Panels of 4 rows × up to 24 columns: up to 24 vector accumulators in registers.
+    for rb in (0..s).step_by(TILE) {
+        for cb in (rb..s).step_by(PANEL * TILE) {
+            match ((s - cb) / TILE).min(PANEL) {
+                1 => panel::<1>(x, s, rb, cb, gram),
+                2 => panel::<2>(x, s, rb, cb, gram),
+                3 => panel::<3>(x, s, rb, cb, gram),
+                4 => panel::<4>(x, s, rb, cb, gram),
+                5 => panel::<5>(x, s, rb, cb, gram),
+                _ => panel::<PANEL>(x, s, rb, cb, gram),
+            }
+        }
+    }
+    // Right-hand side in blocks of tiles held in registers (a running sum in memory would
+    // chain every row's update through a store and a reload); one chain per entry.
+    for cb in (0..s).step_by(RHS_BLOCK * TILE) {
+        let count = ((s - cb) / TILE).min(RHS_BLOCK);
+        let mut acc = [[0.0f64; TILE]; RHS_BLOCK];
+        for k in 0..n {
+            let x = row(k);
+            for v in 0..count {
+                let t = tile(x, cb + v * TILE);
+                for c in 0..TILE {
+                    acc[v][c] = y[k].mul_add(t[c], acc[v][c]);
+                }
+            }
+        }
+        for v in 0..count {
+            rhs[cb + v * TILE..cb + (v + 1) * TILE].copy_from_slice(&acc[v]);
+        }
+    }
+}
+
+/// Reusable buffers of [`normal_equations`]: the gathered rows of the wider ranks.
+#[derive(Debug, Clone, Default)]
+pub struct Scratch {
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    panel: Vec<f64x8>,
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    gathered: Vec<f64>,
+}
+
+/// Upper triangle of `XᵀX` and `Xᵀy`, where row `k` of `X` is row `rows[k]` of the
+/// row-major `table` (width `d`): the normal equations of one ridge problem, without the
+/// ridge term. `gram` has row stride `round_up(d, TILE)`, `rhs` at least that many values;
+/// entries `(i, j)`, `i ≤ j < d`, and `rhs[0..d]` are written. Every entry is one chain of
+/// fused multiply-adds over the rows in order, whichever kernel runs.
+pub fn normal_equations(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    y: &[f64],
+    scratch: &mut Scratch,
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) {
+    if gram_and_rhs_direct(table, d, rows, y, gram, rhs) {
+        return;
+    }
+    let s = round_up(d, TILE);
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    avx512::gram_and_rhs(
+        table,
+        rows,
+        y,
+        &mut scratch.panel,
+        avx512::Out { gram, s, d },
+        rhs,
+    );
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    {
+        gather(table, d, rows, &mut scratch.gathered);
+        gram_and_rhs(&scratch.gathered[..rows.len() * s], s, y, gram, rhs);
+    }
+}
+
+/// Copies the vectors of `rows` into zero-padded rows of a tile-multiple width `s`: one
+/// pass over scattered memory, then every pass of the Gram kernel reads from cache. Every
+/// value is written, so the buffer only grows and is never cleared.
+pub fn gather(table: &[f64], d: usize, rows: &[u32], gathered: &mut Vec<f64>) {
+    let s = round_up(d, TILE);
+    if gathered.len() < rows.len() * s {
+        gathered.resize(rows.len() * s, 0.0);
+    }
+    let gathered = &mut gathered[..rows.len() * s];
+    let whole = d - d % TILE;
+    for (k, (slot, &r)) in gathered.chunks_exact_mut(s).zip(rows).enumerate() {
+        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+            let at = ahead as usize * d;
+            if let Some(row) = table.get(at..at + d) {
+                prefetch(row);
+            }
+        }
+        let source = &table[r as usize * d..(r as usize + 1) * d];
+        // Fixed-size chunks compile to plain vector moves (no library call per row).
+        for (to, from) in slot[..whole]
+            .chunks_exact_mut(TILE)
+            .zip(source.chunks_exact(TILE))
+        {
+            let from: &[f64; TILE] = from.try_into().expect("exact chunk");
+            let to: &mut [f64; TILE] = to.try_into().expect("exact chunk");
+            *to = *from;
+        }
+        for (to, from) in slot[whole..d].iter_mut().zip(&source[whole..]) {
+            *to = *from;
+        }
+        slot[d..].fill(0.0);
+    }
+}
+
+/// Largest rank handled by [`gram_and_rhs_direct`]: 16 with the 512-bit kernels (two
+/// registers per row), 12 otherwise.
+pub const DIRECT_MAX_RANK: usize = if WIDE_KERNELS { 16 } else { 12 };
+
+/// [`gram_and_rhs`] for ranks up to [`DIRECT_MAX_RANK`], reading the rows straight from the
+/// row-major `table` (width `d`) through `rows`: no copy. Every accumulator of the upper
+/// triangle and of the right-hand side stays in a register through a single pass. `gram`
+/// and `rhs` have the stride `round_up(d, TILE)`. Returns false for larger ranks.
+pub fn gram_and_rhs_direct(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) -> bool {
+    let (t, r, g, h) = (table, rows, gram, rhs);
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    {
+        let s = round_up(d, TILE);
+        match d {
+            1 => avx512::direct::<1, 1>(t, r, y, g, s, h),
+            2 => avx512::direct::<2, 1>(t, r, y, g, s, h),
+            3 => avx512::direct::<3, 1>(t, r, y, g, s, h),
+            4 => avx512::direct::<4, 1>(t, r, y, g, s, h),
+            5 => avx512::direct::<5, 1>(t, r, y, g, s, h),
+            6 => avx512::direct::<6, 1>(t, r, y, g, s, h),
+            7 => avx512::direct::<7, 1>(t, r, y, g, s, h),
+            8 => avx512::direct::<8, 1>(t, r, y, g, s, h),
+            9 => avx512::direct::<9, 2>(t, r, y, g, s, h),
+            10 => avx512::direct::<10, 2>(t, r, y, g, s, h),
+            11 => avx512::direct::<11, 2>(t, r, y, g, s, h),
+            12 => avx512::direct::<12, 2>(t, r, y, g, s, h),
+            13 => avx512::direct::<13, 2>(t, r, y, g, s, h),
+            14 => avx512::direct::<14, 2>(t, r, y, g, s, h),
+            15 => avx512::direct::<15, 2>(t, r, y, g, s, h),
+            16 => avx512::direct::<16, 2>(t, r, y, g, s, h),
+            _ => return false,
+        }
+        true
+    }
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    {
+        portable_direct(t, d, r, y, g, h)
+    }
+}
+
+/// The portable form of [`gram_and_rhs_direct`] (ranks up to 12), also used by the tests
+/// to check the 512-bit kernels bit for bit.
+pub fn portable_direct(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) -> bool {
+    let (t, r, g, h) = (table, rows, gram, rhs);
+    match d {
+        1 => direct::<1, 4>(t, r, y, g, h),
+        2 => direct::<2, 4>(t, r, y, g, h),
+        3 => direct::<3, 4>(t, r, y, g, h),
+        4 => direct::<4, 4>(t, r, y, g, h),
+        5 => direct::<5, 8>(t, r, y, g, h),
+        6 => direct::<6, 8>(t, r, y, g, h),
+        7 => direct::<7, 8>(t, r, y, g, h),
+        8 => direct::<8, 8>(t, r, y, g, h),
+        9 => direct::<9, 12>(t, r, y, g, h),
+        10 => direct::<10, 12>(t, r, y, g, h),
+        11 => direct::<11, 12>(t, r, y, g, h),
+        12 => direct::<12, 12>(t, r, y, g, h),
+        _ => return false,
+    }
+    true
+}
+
+/// How many rows ahead [`direct`] asks for the next vectors.
+const LOOKAHEAD: usize = 16;
+
+/// Asks the CPU to start loading the cache lines of `row`, so a row read a few steps later
+/// is already on its way. Only a hint: it cannot change any result, and it retires at once
+/// (a plain read would hold up every instruction behind it until its cache miss is served).
+#[inline]
+pub(crate) fn prefetch(row: &[f64]) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        // One hint per 64-byte cache line (8 values), plus the last value: rows need not
+        // start on a line, so the last one may sit on a line of its own.
+        let mut at = 0;
+        while at < row.len() {
+            safe_arch::prefetch_t0(&row[at]);
+            at += 8;
+        }
+        if let Some(last) = row.last() {
+            safe_arch::prefetch_t0(last);
+        }
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    let _ = row;
+}
+
+/// One pass over rows of width `D`, padded in registers to the tile-multiple `S`.
+fn direct<const D: usize, const S: usize>(
+    table: &[f64],
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) {
+    let mut acc = [[0.0f64; S]; D];
+    let mut right = [0.0f64; S];
+    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
+        // Rows are scattered over a table larger than the caches: start the cache misses of
+        // a row a few iterations ahead.
+        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+            let at = ahead as usize * D;
+            if let Some(row) = table.get(at..at + D) {
+                prefetch(row);
+            }
+        }
+        let start = r as usize * D;
+        let vector: &[f64; D] = table[start..start + D]
+            .try_into()
+            .expect("row inside the table");
+        let mut row = [0.0f64; S];
+        row[..D].copy_from_slice(vector);
+        for a in 0..D {
+            // Only tiles on or above the diagonal: columns from the start of a's tile. Rows
+            // past D are padding and need no accumulators.
+            for c in (a - a % TILE)..S {
+                acc[a][c] = row[a].mul_add(row[c], acc[a][c]);
+            }
+        }
+        for c in 0..S {
+            right[c] = target.mul_add(row[c], right[c]);
+        }
+    }
+    for a in 0..D {
+        let start = a - a % TILE;
+        gram[a * S + start..(a + 1) * S].copy_from_slice(&acc[a][start..]);
+    }
+    rhs[..S].copy_from_slice(&right);
+}
+
+/// Number of independent systems factored side by side, one per SIMD lane.
+pub const BATCH: usize = 8;
+
+/// One value per system of a batch.
+pub type Lanes = [f64; BATCH];
+
+/// Width of the column blocks of [`cholesky_solve_batch`]; the lane matrices have a row
+/// stride rounded up to a multiple of it.
+pub const COLUMN_BLOCK: usize = 4;
+
+/// One value per system of a batch in a 64-byte aligned vector: the storage of the lane
+/// matrices ([`interleave`], [`cholesky_solve`]).
+pub type LaneVector = f64x8;
+
+/// Lays the Gram matrices and right-hand sides of a batch (row stride `s`, one per lane)
+/// side by side for [`cholesky_solve`]: `lanes[i * ls + j]` gets entry `(i, j)`, `j ≥ i`,
+/// of every system (`ls = round_up(d, COLUMN_BLOCK)`), `lane_rhs[i]` entry `i` of every
+/// right-hand side.
+pub fn interleave(
+    gram: &[Vec<f64>; BATCH],
+    rhs: &[Vec<f64>; BATCH],
+    d: usize,
+    s: usize,
+    lanes: &mut [LaneVector],
+    lane_rhs: &mut [LaneVector],
+) {
+    let ls = round_up(d, COLUMN_BLOCK);
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    avx512::interleave(gram, rhs, d, s, lanes, ls, lane_rhs);
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    {
+        for i in 0..d {
+            for j in i..d {
+                let at = i * s + j;
+                lanes[i * ls + j] = f64x8::new(std::array::from_fn(|l| gram[l][at]));
+            }
+            lane_rhs[i] = f64x8::new(std::array::from_fn(|l| rhs[l][i]));
+        }
+    }
+}
+
+/// [`cholesky_solve_batch`] on aligned lane vectors, by the 512-bit kernel where the build
+/// has it (the same bits either way).
+pub fn cholesky_solve(
+    a: &mut [LaneVector],
+    b: &mut [LaneVector],
+    d: usize,
+    original_diagonal: Option<&[LaneVector]>,
+) -> [bool; BATCH] {
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    {
+        avx512::cholesky_solve_batch(a, b, d, round_up(d, COLUMN_BLOCK), original_diagonal)
+    }
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    {
+        cholesky_solve_batch(
+            bytemuck::cast_slice_mut(a),
+            bytemuck::cast_slice_mut(b),
+            d,
+            original_diagonal.map(bytemuck::cast_slice),
+        )
+    }
+}
+
+/// Cholesky factorisation and solve of up to [`BATCH`] independent `d × d` systems at once.
+///
+/// `a[i * s + j]` holds entry (i, j), `j ≥ i`, of every system (lane `l` = system `l`), with
+/// row stride `s = round_up(d, COLUMN_BLOCK)` and zero padding columns; `b[i]` the
+/// right-hand sides. On return `b` holds the solutions of the lanes marked true. Every lane
+/// goes through exactly the same operations as it would alone, so a system's solution does
+/// not depend on which batch or lane it was solved in; the lanes only let the long chains of
+/// dependent square roots and divisions of one factorisation overlap with the others'.
+///
+/// The factorisation is left-looking by rows: row k of `U` is `A[k][c] − Σ_{i<k} U[i][k]
+/// U[i][c]`, summed in order i = 0, 1, …, in blocks of columns held in registers.
+///
+/// A lane fails (false) when a pivot is not positive, or, when `original_diagonal` is given
+/// (no ridge term), when a pivot is rounding noise: `U_kk² ≤ 64 ε A_kk`, i.e. column k is
+/// numerically a combination of the columns before it.
+pub fn cholesky_solve_batch(
+    a: &mut [Lanes],
+    b: &mut [Lanes],
+    d: usize,
+    original_diagonal: Option<&[Lanes]>,
+) -> [bool; BATCH] {
+    // Small ranks get a copy compiled for their exact size: constant loop bounds let the
+    // compiler unroll and drop index checks. The arithmetic is the same.
+    let (x, y, g) = (a, b, original_diagonal);
+    match d {
+        1 => batch_fixed::<1>(x, y, g),
+        2 => batch_fixed::<2>(x, y, g),
+        3 => batch_fixed::<3>(x, y, g),
+        4 => batch_fixed::<4>(x, y, g),
+        5 => batch_fixed::<5>(x, y, g),
+        6 => batch_fixed::<6>(x, y, g),
+        7 => batch_fixed::<7>(x, y, g),
+        8 => batch_fixed::<8>(x, y, g),
+        9 => batch_fixed::<9>(x, y, g),
+        10 => batch_fixed::<10>(x, y, g),
+        11 => batch_fixed::<11>(x, y, g),
+        12 => batch_fixed::<12>(x, y, g),
+        _ => batch_any(x, y, d, g),
+    }
+}
+
+fn batch_fixed<const D: usize>(
+    a: &mut [Lanes],
+    b: &mut [Lanes],
+    original_diagonal: Option<&[Lanes]>,
+) -> [bool; BATCH] {
+    batch_any(a, b, D, original_diagonal)
+}
+
+// Always inlined so that each fixed-size copy is specialised for its constant rank.
+#[allow(clippy::inline_always)]
+#[inline(always)]
+fn batch_any(
+    a: &mut [Lanes],
+    b: &mut [Lanes],
+    d: usize,
+    original_diagonal: Option<&[Lanes]>,
+) -> [bool; BATCH] {
+    let s = round_up(d, COLUMN_BLOCK);
+    debug_assert!(a.len() >= d * s);
+    let mut ok = [true; BATCH];
+    for k in 0..d {
+        let mut start = k - k % COLUMN_BLOCK;
+        while start < d {
+            let (above, here) = a.split_at_mut(k * s);
+            let block: &mut [Lanes; COLUMN_BLOCK] = (&mut here[start..start + COLUMN_BLOCK])
+                .try_into()
+                .expect("padded row");
+            let mut acc = *block;
+            for i in 0..k {
+                let f = above[i * s + k];
+                let upper: &[Lanes; COLUMN_BLOCK] = above
+                    [i * s + start..i * s + start + COLUMN_BLOCK]
+                    .try_into()
+                    .expect("padded row");
+                for q in 0..COLUMN_BLOCK {
+                    for l in 0..BATCH {
+                        acc[q][l] = (-f[l]).mul_add(upper[q][l], acc[q][l]);
+                    }
+                }
+            }
+            *block = acc;
+            start += COLUMN_BLOCK;
+        }
+        let row_k = &mut a[k * s..k * s + d];
+        let mut pivot = row_k[k];
+        for l in 0..BATCH {
+            let noise = original_diagonal
+                .is_some_and(|diagonal| pivot[l] <= 64.0 * f64::EPSILON * diagonal[k][l]);
+            if pivot[l].is_nan() || pivot[l] <= 0.0 || noise {
+                ok[l] = false;
+            }
+            if !ok[l] {
+                // Keep failed lanes finite; their results are discarded.
+                pivot[l] = 1.0;
+            }
+        }
+        let mut inverse = [0.0; BATCH];
+        for l in 0..BATCH {
+            row_k[k][l] = pivot[l].sqrt();
+            inverse[l] = 1.0 / row_k[k][l];
+        }
+        for v in &mut row_k[k + 1..] {
+            for l in 0..BATCH {
+                v[l] *= inverse[l];
+            }
+        }
+    }
+    // Forward substitution Uᵀz = b, then back substitution Uw = z.
+    for k in 0..d {
+        let row = &a[k * s..k * s + d];
+        let mut z = b[k];
+        for l in 0..BATCH {
+            z[l] /= row[k][l];
+        }
+        b[k] = z;
+        for (t, u) in b[k + 1..d].iter_mut().zip(&row[k + 1..]) {
+            for l in 0..BATCH {
+                t[l] = (-z[l]).mul_add(u[l], t[l]);
+            }
+        }
+    }
+    // Back substitution by columns: each solved w_i is removed from every earlier right-hand
+    // side at once (independent updates, no long chain of dependent additions).
+    for i in (0..d).rev() {
+        let mut w = b[i];
+        let u_ii = a[i * s + i];
+        for l in 0..BATCH {
+            w[l] /= u_ii[l];
+        }
+        b[i] = w;
+        for r in 0..i {
+            let u = a[r * s + i];
+            for l in 0..BATCH {
+                b[r][l] = (-u[l]).mul_add(w[l], b[r][l]);
+            }
+        }
+    }
+    ok
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Loads one upper-triangular system into lane `l`.
+    fn load(a: &mut [Lanes], b: &mut [Lanes], l: usize, full: &[&[f64]], rhs: &[f64]) {
+        let d = rhs.len();
+        for i in 0..d {
+            for j in i..d {
+                a[i * COLUMN_BLOCK + j][l] = full[i][j];
+            }
+            b[i][l] = rhs[i];
+        }
+    }
+
+    #[test]
+    fn cholesky_of_a_known_matrix_in_every_lane() {
+        // A classic worked example (common practice): [[4,12,-16],[12,37,-43],[-16,-43,98]]
+        // = UᵀU with U = [[2,6,-8],[0,1,5],[0,0,3]].
+        let full: [&[f64]; 3] = [
+            &[4.0, 12.0, -16.0],
+            &[12.0, 37.0, -43.0],
+            &[-16.0, -43.0, 98.0],
+        ];
+        let mut a = vec![[0.0; BATCH]; 3 * COLUMN_BLOCK];
+        let mut b = vec![[0.0; BATCH]; 3];
+        for l in 0..BATCH {
+            load(&mut a, &mut b, l, &full, &[1.0, 2.0, 3.0]);
+        }
+        assert_eq!(cholesky_solve_batch(&mut a, &mut b, 3, None), [true; BATCH]);
+        let u = |i: usize, j: usize| a[i * COLUMN_BLOCK + j][2];
+        assert_eq!(
+            [u(0, 0), u(0, 1), u(0, 2), u(1, 1), u(1, 2), u(2, 2)],
+            [2.0, 6.0, -8.0, 1.0, 5.0, 3.0]
+        );
+        for l in 0..BATCH {
+            for (row, expected) in full.iter().zip([1.0, 2.0, 3.0]) {
+                let got: f64 = row.iter().zip(&b).map(|(x, w)| x * w[l]).sum();
+                assert!((got - expected).abs() < 1e-10);
+            }
+        }
+    }
+
+    #[test]
+    fn a_failing_lane_leaves_the_others_alone() {
+        let good: [&[f64]; 2] = [&[2.0, 1.0], &[1.0, 3.0]];
+        let singular: [&[f64]; 2] = [&[1.0, 1.0], &[1.0, 1.0]];
+        let mut a = vec![[0.0; BATCH]; 2 * COLUMN_BLOCK];
+        let mut b = vec![[0.0; BATCH]; 2];
+        for l in 0..BATCH {
+            load(
+                &mut a,
+                &mut b,
+                l,
+                if l == 1 { &singular } else { &good },
+                &[1.0, 1.0],
+            );
+        }
+        let mut diagonal = vec![[2.0; BATCH], [3.0; BATCH]];
+        (diagonal[0][1], diagonal[1][1]) = (1.0, 1.0);
+        let ok = cholesky_solve_batch(&mut a, &mut b, 2, Some(&diagonal));
+        assert_eq!(ok, std::array::from_fn(|l| l != 1));
+        // (2 1; 1 3) w = (1, 1) → w = (0.4, 0.2).
+        assert!((b[0][0] - 0.4).abs() < 1e-15 && (b[1][3] - 0.2).abs() < 1e-15);
+    }
+    #[test]
+    fn every_kernel_gives_the_same_bits() {
+        // The kernel chosen for a rank (direct or gathered, 512-bit or portable) must not
+        // change a single bit: each is checked against the portable gathered kernel, and
+        // all against a plain sum. Ranks cover every direct size, both sides of the switch
+        // to gathering, and widths that are not whole vectors; row counts include 0 and 1.
+        let mut rng = crate::rng::Rng::new(8);
+        let mut scratch = Scratch::default();
+        for d in (1..=40).chain([47, 64, 72, 129]) {
+            for n in [0, 1, 17, 70] {
+                let s = round_up(d, TILE);
+                let table: Vec<f64> = (0..30 * d).map(|_| rng.normal()).collect();
+                // The last row of the table is always used: no kernel may read past it.
+                let rows: Vec<u32> = (0..n)
+                    .map(|k| if k == 0 { 29 } else { rng.below(30) as u32 })
+                    .collect();
+                let y: Vec<f64> = rows.iter().map(|_| rng.normal()).collect();
+                let (mut g1, mut h1) = (vec![f64::NAN; s * s], vec![f64::NAN; s]);
+                normal_equations(&table, d, &rows, &y, &mut scratch, &mut g1, &mut h1);
+                let mut packed = Vec::new();
+                gather(&table, d, &rows, &mut packed);
+                let (mut g2, mut h2) = (vec![0.0; s * s], vec![0.0; s]);
+                gram_and_rhs(&packed[..n * s], s, &y, &mut g2, &mut h2);
+                let (mut g3, mut h3) = (vec![0.0; s * s], vec![0.0; s]);
+                let direct = portable_direct(&table, d, &rows, &y, &mut g3, &mut h3);
+                for a in 0..d {
+                    assert_eq!(h1[a].to_bits(), h2[a].to_bits(), "d {d} n {n} rhs {a}");
+                    assert!(!direct || h3[a].to_bits() == h2[a].to_bits(), "d {d} n {n}");
+                    let naive_rhs: f64 = (0..n).map(|k| packed[k * s + a] * y[k]).sum();
+                    assert!((h1[a] - naive_rhs).abs() < 1e-12, "d {d}");
+                    for b in a..d {
+                        let at = a * s + b;
+                        assert_eq!(g1[at].to_bits(), g2[at].to_bits(), "d {d} n {n} ({a},{b})");
+                        assert!(
+                            !direct || g3[at].to_bits() == g2[at].to_bits(),
+                            "d {d} n {n}"
+                        );
+                        let naive: f64 =
+                            (0..n).map(|k| packed[k * s + a] * packed[k * s + b]).sum();
+                        assert!((g1[at] - naive).abs() < 1e-12, "d {d} ({a},{b})");
+                    }
+                }
+            }
+        }
+        assert!(!portable_direct(
+            &[0.0; 13],
+            13,
+            &[0],
+            &[1.0],
+            &mut [0.0; 256],
+            &mut [0.0; 16]
+        ));
+    }
+
+    #[test]
+    fn interleaved_cholesky_gives_the_same_bits_by_either_kernel() {
+        // Random ridge systems of many sizes, with lanes that must fail (a NaN, a negative
+        // pivot, a singular matrix under the noise check): the kernel this build uses and
+        // the portable one must agree to the bit, and the solutions must solve the systems.
+        let mut rng = crate::rng::Rng::new(21);
+        for d in (1..=20).chain([31, 32, 33, 40, 64]) {
+            for noise_check in [false, true] {
+                let s = round_up(d, TILE);
+                let ls = round_up(d, COLUMN_BLOCK);
+                let mut gram: [Vec<f64>; BATCH] = std::array::from_fn(|_| vec![0.0; s * s]);
+                let mut rhs: [Vec<f64>; BATCH] = std::array::from_fn(|_| vec![0.0; s]);
+                for l in 0..BATCH {
+                    let x: Vec<f64> = (0..(d + 3) * d).map(|_| rng.normal()).collect();
+                    for i in 0..d {
+                        for j in i..d {
+                            let dot: f64 = (0..d + 3).map(|k| x[k * d + i] * x[k * d + j]).sum();
+                            gram[l][i * s + j] = dot + if i == j { 0.5 } else { 0.0 };
+                        }
+                        rhs[l][i] = rng.normal();
+                    }
+                }
+                gram[1][0] = f64::NAN;
+                gram[2][0] = -1.0;
+                if d > 1 {
+                    // Lane 3: the second column nearly repeats the first: a pivot of rounding
+                    // size, refused only by the noise check.
+                    gram[3][1] = gram[3][0];
+                    gram[3][s + 1] = gram[3][0] * (1.0 + 1e-14);
+                }
+                let mut lanes = vec![LaneVector::ZERO; d * ls];
+                let mut lane_rhs = vec![LaneVector::ZERO; d];
+                interleave(&gram, &rhs, d, s, &mut lanes, &mut lane_rhs);
+                let mut portable: Vec<Lanes> = vec![[0.0; BATCH]; d * ls];
+                let mut portable_rhs: Vec<Lanes> = vec![[0.0; BATCH]; d];
+                for i in 0..d {
+                    for j in i..d {
+                        portable[i * ls + j] = std::array::from_fn(|l| gram[l][i * s + j]);
+                        let bits = |v: [f64; BATCH]| v.map(f64::to_bits);
+                        assert_eq!(
+                            bits(portable[i * ls + j]),
+                            bits(lanes[i * ls + j].to_array())
+                        );
+                    }
+                    portable_rhs[i] = std::array::from_fn(|l| rhs[l][i]);
+                    assert_eq!(portable_rhs[i], lane_rhs[i].to_array());
+                }
+                let diagonal: Vec<LaneVector> = (0..d).map(|k| lanes[k * ls + k]).collect();
+                let portable_diagonal: Vec<Lanes> = diagonal.iter().map(|v| v.to_array()).collect();
+                let ok = cholesky_solve(
+                    &mut lanes,
+                    &mut lane_rhs,
+                    d,
+                    noise_check.then_some(diagonal.as_slice()),
+                );
+                let portable_ok = cholesky_solve_batch(
+                    &mut portable,
+                    &mut portable_rhs,
+                    d,
+                    noise_check.then_some(portable_diagonal.as_slice()),
+                );
+                assert_eq!(ok, portable_ok, "d {d}");
+                assert!(!ok[1] && !ok[2], "d {d}");
+                assert!(!(noise_check && d > 1 && ok[3]), "d {d}");
+                for l in (0..BATCH).filter(|&l| ok[l]) {
+                    for i in 0..d {
+                        let got = lane_rhs[i].to_array()[l];
+                        assert_eq!(
+                            got.to_bits(),
+                            portable_rhs[i][l].to_bits(),
+                            "d {d} lane {l}"
+                        );
+                    }
+                    if l == 3 {
+                        continue;
+                    }
+                    for i in 0..d {
+                        let entry = |i: usize, j: usize| gram[l][i.min(j) * s + i.max(j)];
+                        let row: f64 = (0..d)
+                            .map(|j| entry(i, j) * lane_rhs[j].to_array()[l])
+                            .sum();
+                        assert!((row - rhs[l][i]).abs() < 1e-8, "d {d} lane {l}");
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn gram_matches_naive_for_odd_sizes() {
+        let mut rng = crate::rng::Rng::new(5);
+        for (d, n) in [(1, 1), (3, 7), (10, 40), (17, 9), (32, 50)] {
+            let s = round_up(d, TILE);
+            let mut x = vec![0.0; n * s];
+            for k in 0..n {
+                for a in 0..d {
+                    x[k * s + a] = rng.normal();
+                }
+            }
+            let y: Vec<f64> = (0..n).map(|_| rng.normal()).collect();
+            let mut gram = vec![0.0; s * s];
+            let mut rhs = vec![0.0; s];
+            gram_and_rhs(&x, s, &y, &mut gram, &mut rhs);
+            for a in 0..d {
+                let naive_rhs: f64 = (0..n).map(|k| x[k * s + a] * y[k]).sum();
+                assert!((rhs[a] - naive_rhs).abs() < 1e-12);
+                for b in a..d {
+                    let naive: f64 = (0..n).map(|k| x[k * s + a] * x[k * s + b]).sum();
+                    assert!(
+                        (gram[a * s + b] - naive).abs() < 1e-12,
+                        "d {d} n {n} ({a},{b})"
+                    );
+                }
+            }
+        }
+    }
+}
