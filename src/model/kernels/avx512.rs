@@ -69,12 +69,7 @@ pub(super) fn direct<const D: usize, const T: usize>(
     let mut acc = [[f64x8::ZERO; T]; D];
     let mut right = [f64x8::ZERO; T];
     for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
-        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
-            let at = ahead as usize * D;
-            if let Some(row) = table.get(at..at + D) {
-                prefetch(row);
-            }
-        }
+        prefetch_ahead(table, D, rows, k);
         let at = r as usize * D;
         let x = load_row::<D, T>(table, at);
         let values: &[f64; D] = table[at..at + D].try_into().expect("row inside the table");
@@ -169,57 +164,107 @@ fn gather(
     panel: &mut Vec<f64x8>,
     rhs: &mut [f64],
 ) {
-    // Right-hand side in blocks of up to 8 vectors held in registers.
-    const BLOCK: usize = 8;
     let n = rows.len();
     if panel.len() < n * t {
         panel.resize(n * t, f64x8::ZERO);
     }
-    let mut right = [f64x8::ZERO; BLOCK];
-    let whole = d / LANES;
-    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
-        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
-            let at = ahead as usize * d;
-            if let Some(row) = table.get(at..at + d) {
-                prefetch(row);
-            }
-        }
-        let row = &table[r as usize * d..(r as usize + 1) * d];
-        let slots = &mut panel[k * t..(k + 1) * t];
-        for (slot, values) in slots.iter_mut().zip(row.chunks_exact(LANES)) {
-            let values: &[f64; LANES] = values.try_into().expect("one register's worth");
-            *slot = f64x8::new(*values);
-        }
-        if whole < t {
-            let mut tail = [0.0; LANES];
-            tail[..d - whole * LANES].copy_from_slice(&row[whole * LANES..]);
-            slots[whole] = f64x8::new(tail);
-        }
-        if t <= BLOCK {
-            let target = f64x8::splat(target);
-            for (acc, &x) in right.iter_mut().zip(slots.iter()) {
-                *acc = target.mul_add(x, *acc);
-            }
+    let panel = &mut panel[..n * t];
+    // A constant width keeps the right-hand side in registers and the copy inline.
+    match t {
+        3 => gather_fixed::<3>(table, d, rows, y, panel, rhs),
+        4 => gather_fixed::<4>(table, d, rows, y, panel, rhs),
+        5 => gather_fixed::<5>(table, d, rows, y, panel, rhs),
+        6 => gather_fixed::<6>(table, d, rows, y, panel, rhs),
+        7 => gather_fixed::<7>(table, d, rows, y, panel, rhs),
+        8 => gather_fixed::<8>(table, d, rows, y, panel, rhs),
+        _ => gather_wide(table, d, t, rows, y, panel, rhs),
+    }
+}
+
+/// Row `r` of `table` (width `d`) as `T` vectors, the last one zero-padded.
+#[inline(always)]
+fn row_vectors<const T: usize>(table: &[f64], d: usize, r: usize) -> [f64x8; T] {
+    let row = &table[r * d..(r + 1) * d];
+    std::array::from_fn(|v| match row.get(v * LANES..(v + 1) * LANES) {
+        Some(values) => f64x8::new(values.try_into().expect("one register's worth")),
+        None => f64x8::new(std::array::from_fn(|c| {
+            row.get(v * LANES + c).copied().unwrap_or(0.0)
+        })),
+    })
+}
+
+/// [`gather`] for rows of exactly `T` vectors.
+fn gather_fixed<const T: usize>(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    y: &[f64],
+    panel: &mut [f64x8],
+    rhs: &mut [f64],
+) {
+    let mut right = [f64x8::ZERO; T];
+    for (k, ((&r, &target), slots)) in rows
+        .iter()
+        .zip(y)
+        .zip(panel.chunks_exact_mut(T))
+        .enumerate()
+    {
+        prefetch_ahead(table, d, rows, k);
+        let x = row_vectors::<T>(table, d, r as usize);
+        let target = f64x8::splat(target);
+        for v in 0..T {
+            slots[v] = x[v];
+            right[v] = target.mul_add(x[v], right[v]);
         }
     }
-    if t <= BLOCK {
-        for (v, acc) in right.iter().enumerate().take(t) {
-            store(*acc, rhs, v * LANES);
+    for v in 0..T {
+        store(right[v], rhs, v * LANES);
+    }
+}
+
+/// [`gather`] for rows wider than 64 values: a copy, then the right-hand side in blocks
+/// of 8 vectors from the panel (the same chains).
+fn gather_wide(
+    table: &[f64],
+    d: usize,
+    t: usize,
+    rows: &[u32],
+    y: &[f64],
+    panel: &mut [f64x8],
+    rhs: &mut [f64],
+) {
+    const BLOCK: usize = 8;
+    for (k, (&r, slots)) in rows.iter().zip(panel.chunks_exact_mut(t)).enumerate() {
+        prefetch_ahead(table, d, rows, k);
+        let row = &table[r as usize * d..(r as usize + 1) * d];
+        for (v, slot) in slots.iter_mut().enumerate() {
+            *slot = f64x8::new(std::array::from_fn(|c| {
+                row.get(v * LANES + c).copied().unwrap_or(0.0)
+            }));
         }
-    } else {
-        // Very wide rows: the same chains, a block of vectors at a time from the panel.
-        for first in (0..t).step_by(BLOCK) {
-            let count = (t - first).min(BLOCK);
-            let mut right = [f64x8::ZERO; BLOCK];
-            for (k, &target) in y.iter().enumerate() {
-                let target = f64x8::splat(target);
-                for v in 0..count {
-                    right[v] = target.mul_add(panel[k * t + first + v], right[v]);
-                }
-            }
+    }
+    for first in (0..t).step_by(BLOCK) {
+        let count = (t - first).min(BLOCK);
+        let mut right = [f64x8::ZERO; BLOCK];
+        for (k, &target) in y.iter().enumerate() {
+            let target = f64x8::splat(target);
             for v in 0..count {
-                store(right[v], rhs, (first + v) * LANES);
+                right[v] = target.mul_add(panel[k * t + first + v], right[v]);
             }
+        }
+        for v in 0..count {
+            store(right[v], rhs, (first + v) * LANES);
+        }
+    }
+}
+
+/// Starts loading the row `LOOKAHEAD` places after `k`.
+#[inline(always)]
+fn prefetch_ahead(table: &[f64], d: usize, rows: &[u32], k: usize) {
+    if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+        let at = ahead as usize * d;
+        if let Some(row) = table.get(at..at + d) {
+            prefetch(row);
         }
     }
 }
@@ -345,8 +390,9 @@ fn update_row<const N: usize>(a: &mut [f64x8], ls: usize, k: usize, start: usize
 
 /// Lays the Gram matrices and right-hand sides of a batch (row stride `s`, one per lane)
 /// side by side: `lanes[i * ls + j]` gets entry `(i, j)`, `j ≥ i`, of every system, and
-/// `lane_rhs[i]` entry `i` of every right-hand side. Eight columns at a time go through an
-/// 8 × 8 transpose in registers.
+/// `lane_rhs[i]` entry `i` of every right-hand side. Four columns of four systems at a time
+/// go through a 4 × 4 transpose in registers; the padding columns up to `s` (= `ls`) are
+/// copied too, and nothing reads them.
 pub(super) fn interleave(
     gram: &[Vec<f64>; LANES],
     rhs: &[Vec<f64>; LANES],
@@ -356,32 +402,55 @@ pub(super) fn interleave(
     ls: usize,
     lane_rhs: &mut [f64x8],
 ) {
-    let block = |source: &[Vec<f64>; LANES], at: usize| -> [f64x8; LANES] {
-        let rows = std::array::from_fn(|l| {
-            let values: &[f64; LANES] =
-                source[l][at..at + LANES].try_into().expect("eight columns");
-            f64x8::new(*values)
-        });
-        f64x8::transpose(rows)
-    };
-    let column =
-        |source: &[Vec<f64>; LANES], at: usize| f64x8::new(std::array::from_fn(|l| source[l][at]));
+    debug_assert_eq!(s, ls);
+    let halves: &mut [[f64; 4]] = bytemuck::cast_slice_mut(lanes);
     for i in 0..d {
-        let mut j = i - i % LANES;
-        while j + LANES <= d {
-            lanes[i * ls + j..i * ls + j + LANES].copy_from_slice(&block(gram, i * s + j));
-            j += LANES;
-        }
-        for c in j.max(i)..d {
-            lanes[i * ls + c] = column(gram, i * s + c);
+        for j in (i - i % 4..s).step_by(4) {
+            let (low, high) = (
+                transpose4(gram, 0, i * s + j),
+                transpose4(gram, 4, i * s + j),
+            );
+            for c in 0..4 {
+                let at = 2 * (i * ls + j + c);
+                safe_arch::store_unaligned_m256d(&mut halves[at], low[c]);
+                safe_arch::store_unaligned_m256d(&mut halves[at + 1], high[c]);
+            }
         }
     }
+    let halves: &mut [[f64; 4]] = bytemuck::cast_slice_mut(lane_rhs);
     let mut i = 0;
-    while i + LANES <= d {
-        lane_rhs[i..i + LANES].copy_from_slice(&block(rhs, i));
-        i += LANES;
+    while i + 4 <= d {
+        let (low, high) = (transpose4(rhs, 0, i), transpose4(rhs, 4, i));
+        for c in 0..4 {
+            safe_arch::store_unaligned_m256d(&mut halves[2 * (i + c)], low[c]);
+            safe_arch::store_unaligned_m256d(&mut halves[2 * (i + c) + 1], high[c]);
+        }
+        i += 4;
     }
     for c in i..d {
-        lane_rhs[c] = column(rhs, c);
+        lane_rhs[c] = f64x8::new(std::array::from_fn(|l| rhs[l][c]));
     }
+}
+
+/// Values `at..at + 4` of systems `first..first + 4` as four vectors, one per column, each
+/// holding that column of the four systems: two 128-bit loads per register and one unpack
+/// per column.
+#[inline(always)]
+fn transpose4(source: &[Vec<f64>; LANES], first: usize, at: usize) -> [safe_arch::m256d; 4] {
+    let pair = |l: usize, c: usize| -> &[f64; 2] {
+        source[first + l][at + c..at + c + 2]
+            .try_into()
+            .expect("two values")
+    };
+    // Low half from systems 0 and 1, high half from systems 2 and 3.
+    let t0 = safe_arch::load_unaligned_hi_lo_m256d(pair(2, 0), pair(0, 0));
+    let t1 = safe_arch::load_unaligned_hi_lo_m256d(pair(3, 0), pair(1, 0));
+    let t2 = safe_arch::load_unaligned_hi_lo_m256d(pair(2, 2), pair(0, 2));
+    let t3 = safe_arch::load_unaligned_hi_lo_m256d(pair(3, 2), pair(1, 2));
+    [
+        safe_arch::unpack_lo_m256d(t0, t1),
+        safe_arch::unpack_hi_m256d(t0, t1),
+        safe_arch::unpack_lo_m256d(t2, t3),
+        safe_arch::unpack_hi_m256d(t2, t3),
+    ]
 }
