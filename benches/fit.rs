@@ -254,12 +254,17 @@ fn main() {
     let dir: PathBuf =
         std::env::temp_dir().join(format!("sextant-bench-fit-{}", std::process::id()));
     let mut report = format!(
-        "one iteration, {} ratings, {} users x {} items, {} threads, median of {}\n",
+        "one iteration, {} ratings, {} users x {} items, {} threads, median of {}, {} kernels\n",
         ratings.entries.len(),
         ratings.users.len(),
         ratings.items.len(),
         rayon::current_num_threads(),
-        sizes.reps
+        sizes.reps,
+        if sextant::model::kernels::WIDE_KERNELS {
+            "512-bit"
+        } else {
+            "portable"
+        }
     );
     for rank in ranks {
         let m = measure(&ratings, rank, sizes.reps, &dir, rust_only);
