@@ -11,13 +11,10 @@
 
 use wide::f64x8;
 
-use super::prefetch;
+use super::prefetch_ahead;
 
 /// Values per vector register.
 const LANES: usize = 8;
-
-/// How many rows ahead the kernels ask for the next vectors.
-const LOOKAHEAD: usize = 16;
 
 /// First column of vector `t` of a row of width `D`: vectors hold columns `8t..8t + 8`,
 /// except that the last one of a width that is not a multiple of 8 ends at the last column
@@ -254,17 +251,6 @@ fn gather_wide(
         }
         for v in 0..count {
             store(right[v], rhs, (first + v) * LANES);
-        }
-    }
-}
-
-/// Starts loading the row `LOOKAHEAD` places after `k`.
-#[inline(always)]
-fn prefetch_ahead(table: &[f64], d: usize, rows: &[u32], k: usize) {
-    if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
-        let at = ahead as usize * d;
-        if let Some(row) = table.get(at..at + d) {
-            prefetch(row);
         }
     }
 }

@@ -179,12 +179,7 @@ pub fn gather(table: &[f64], d: usize, rows: &[u32], gathered: &mut Vec<f64>) {
     let gathered = &mut gathered[..rows.len() * s];
     let whole = d - d % TILE;
     for (k, (slot, &r)) in gathered.chunks_exact_mut(s).zip(rows).enumerate() {
-        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
-            let at = ahead as usize * d;
-            if let Some(row) = table.get(at..at + d) {
-                prefetch(row);
-            }
-        }
+        prefetch_ahead(table, d, rows, k);
         let source = &table[r as usize * d..(r as usize + 1) * d];
         // Fixed-size chunks compile to plain vector moves (no library call per row).
         for (to, from) in slot[..whole]
@@ -286,14 +281,27 @@ pub fn portable_direct(
     true
 }
 
-/// How many rows ahead [`direct`] asks for the next vectors.
+/// How many rows ahead the kernels ask for the next vectors.
 const LOOKAHEAD: usize = 16;
+
+/// Rows are scattered over a table larger than the caches: starts loading the row that
+/// comes [`LOOKAHEAD`] places after `k` in `rows` (width `d`), so its cache misses overlap
+/// with the work on the rows before it.
+#[inline]
+pub(crate) fn prefetch_ahead(table: &[f64], d: usize, rows: &[u32], k: usize) {
+    if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
+        let at = ahead as usize * d;
+        if let Some(row) = table.get(at..at + d) {
+            prefetch(row);
+        }
+    }
+}
 
 /// Asks the CPU to start loading the cache lines of `row`, so a row read a few steps later
 /// is already on its way. Only a hint: it cannot change any result, and it retires at once
 /// (a plain read would hold up every instruction behind it until its cache miss is served).
 #[inline]
-pub(crate) fn prefetch(row: &[f64]) {
+fn prefetch(row: &[f64]) {
     #[cfg(target_arch = "x86_64")]
     {
         // One hint per 64-byte cache line (8 values), plus the last value: rows need not
@@ -322,14 +330,7 @@ fn direct<const D: usize, const S: usize>(
     let mut acc = [[0.0f64; S]; D];
     let mut right = [0.0f64; S];
     for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
-        // Rows are scattered over a table larger than the caches: start the cache misses of
-        // a row a few iterations ahead.
-        if let Some(&ahead) = rows.get(k + LOOKAHEAD) {
-            let at = ahead as usize * D;
-            if let Some(row) = table.get(at..at + D) {
-                prefetch(row);
-            }
-        }
+        prefetch_ahead(table, D, rows, k);
         let start = r as usize * D;
         let vector: &[f64; D] = table[start..start + D]
             .try_into()
