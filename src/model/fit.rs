@@ -8,7 +8,7 @@
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
-use super::kernels::BATCH;
+use super::kernels::{BATCH, LOOKAHEAD};
 use super::solve::RidgeWorkspace;
 use super::{FactorModel, dot, squared_norm};
 use crate::data::ids::first_few;
@@ -169,6 +169,15 @@ impl Compressed {
     fn row(&self, r: usize) -> (&[u32], &[f64]) {
         let range = self.start[r]..self.start[r + 1];
         (&self.columns[range.clone()], &self.targets[range])
+    }
+
+    /// [`Self::row`], with the columns running on into the rows after it for up to
+    /// [`LOOKAHEAD`] more entries: the solver only announces those to the cache, so that the
+    /// first vectors of the next problem are on their way while this one is built.
+    fn row_and_ahead(&self, r: usize) -> (&[u32], &[f64]) {
+        let range = self.start[r]..self.start[r + 1];
+        let ahead = (range.end + LOOKAHEAD).min(self.columns.len());
+        (&self.columns[range.start..ahead], &self.targets[range])
     }
 
     fn rows(&self) -> usize {
@@ -420,7 +429,7 @@ fn solve_side(
                 let empty: (&[u32], &[f64]) = (&[], &[]);
                 let mut problems = [empty; BATCH];
                 for (k, problem) in problems.iter_mut().enumerate().take(count) {
-                    *problem = rows.row(first + k);
+                    *problem = rows.row_and_ahead(first + k);
                 }
                 let ok = ws.solve_batch(other, &problems[..count], ridge, vectors);
                 (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)

@@ -31,7 +31,9 @@ pub struct RidgeWorkspace {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct NotPositiveDefinite;
 
-/// One ridge problem: the rows of the table it uses and their targets.
+/// One ridge problem: the rows of the table it uses and their targets. The rows may run on
+/// past the targets into those of the next problem, which are only prefetched (see
+/// [`super::kernels::normal_equations`]).
 pub type Problem<'a> = (&'a [u32], &'a [f64]);
 
 impl RidgeWorkspace {
@@ -121,7 +123,7 @@ impl RidgeWorkspace {
     /// Builds the normal equations of one problem in the buffers of lane `lane`.
     fn load_lane(&mut self, lane: usize, table: &[f64], rows: &[u32], targets: &[f64], ridge: f64) {
         let (d, s) = (self.rank, self.stride);
-        debug_assert_eq!(rows.len(), targets.len());
+        debug_assert!(rows.len() >= targets.len());
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
         normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
         for k in 0..d {

@@ -125,7 +125,7 @@ pub(super) fn gram_and_rhs(
 ) {
     let Out { gram, s, d } = out;
     let t = d.div_ceil(LANES);
-    let n = rows.len();
+    let n = y.len();
     gather(table, d, t, rows, y, panel, &mut rhs[..d]);
     let panel = &panel[..n * t];
     for block in 0..t {
@@ -161,7 +161,7 @@ fn gather(
     panel: &mut Vec<f64x8>,
     rhs: &mut [f64],
 ) {
-    let n = rows.len();
+    let n = y.len();
     if panel.len() < n * t {
         panel.resize(n * t, f64x8::ZERO);
     }

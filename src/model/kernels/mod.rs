@@ -128,7 +128,8 @@ pub struct Scratch {
 
 /// Upper triangle of `XᵀX` and `Xᵀy`, where row `k` of `X` is row `rows[k]` of the
 /// row-major `table` (width `d`): the normal equations of one ridge problem, without the
-/// ridge term. `gram` has row stride `round_up(d, TILE)`, `rhs` at least that many values;
+/// ridge term. The problem has `y.len()` rows; `rows` may run on past them (into the rows
+/// of the problem solved next), and those are only announced to the cache ahead of time. `gram` has row stride `round_up(d, TILE)`, `rhs` at least that many values;
 /// entries `(i, j)`, `i ≤ j < d`, and `rhs[0..d]` are written. Every entry is one chain of
 /// fused multiply-adds over the rows in order, whichever kernel runs.
 pub fn normal_equations(
@@ -163,20 +164,20 @@ pub fn normal_equations(
         target_feature = "fma"
     )))]
     {
-        gather(table, d, rows, &mut scratch.gathered);
-        gram_and_rhs(&scratch.gathered[..rows.len() * s], s, y, gram, rhs);
+        gather(table, d, rows, y.len(), &mut scratch.gathered);
+        gram_and_rhs(&scratch.gathered[..y.len() * s], s, y, gram, rhs);
     }
 }
 
-/// Copies the vectors of `rows` into zero-padded rows of a tile-multiple width `s`: one
+/// Copies the vectors of `rows[..n]` into zero-padded rows of a tile-multiple width `s`: one
 /// pass over scattered memory, then every pass of the Gram kernel reads from cache. Every
 /// value is written, so the buffer only grows and is never cleared.
-pub fn gather(table: &[f64], d: usize, rows: &[u32], gathered: &mut Vec<f64>) {
+pub fn gather(table: &[f64], d: usize, rows: &[u32], n: usize, gathered: &mut Vec<f64>) {
     let s = round_up(d, TILE);
-    if gathered.len() < rows.len() * s {
-        gathered.resize(rows.len() * s, 0.0);
+    if gathered.len() < n * s {
+        gathered.resize(n * s, 0.0);
     }
-    let gathered = &mut gathered[..rows.len() * s];
+    let gathered = &mut gathered[..n * s];
     let whole = d - d % TILE;
     for (k, (slot, &r)) in gathered.chunks_exact_mut(s).zip(rows).enumerate() {
         prefetch_ahead(table, d, rows, k);
@@ -281,8 +282,9 @@ pub fn portable_direct(
     true
 }
 
-/// How many rows ahead the kernels ask for the next vectors.
-const LOOKAHEAD: usize = 16;
+/// How many rows ahead the kernels ask for the next vectors: callers that solve problems
+/// one after another pass this many rows of the next problem after each problem's own.
+pub const LOOKAHEAD: usize = 16;
 
 /// Rows are scattered over a table larger than the caches: starts loading the row that
 /// comes [`LOOKAHEAD`] places after `k` in `rows` (width `d`), so its cache misses overlap
@@ -660,20 +662,27 @@ mod tests {
                 let y: Vec<f64> = rows.iter().map(|_| rng.normal()).collect();
                 let (mut g1, mut h1) = (vec![f64::NAN; s * s], vec![f64::NAN; s]);
                 normal_equations(&table, d, &rows, &y, &mut scratch, &mut g1, &mut h1);
+                // Rows running on past the targets (the next problem's) change nothing.
+                let mut longer = rows.clone();
+                longer.extend([3, 29, 0]);
+                let (mut g4, mut h4) = (vec![f64::NAN; s * s], vec![f64::NAN; s]);
+                normal_equations(&table, d, &longer, &y, &mut scratch, &mut g4, &mut h4);
                 let mut packed = Vec::new();
-                gather(&table, d, &rows, &mut packed);
+                gather(&table, d, &rows, n, &mut packed);
                 let (mut g2, mut h2) = (vec![0.0; s * s], vec![0.0; s]);
                 gram_and_rhs(&packed[..n * s], s, &y, &mut g2, &mut h2);
                 let (mut g3, mut h3) = (vec![0.0; s * s], vec![0.0; s]);
                 let direct = portable_direct(&table, d, &rows, &y, &mut g3, &mut h3);
                 for a in 0..d {
                     assert_eq!(h1[a].to_bits(), h2[a].to_bits(), "d {d} n {n} rhs {a}");
+                    assert_eq!(h1[a].to_bits(), h4[a].to_bits(), "d {d} n {n} rhs {a}");
                     assert!(!direct || h3[a].to_bits() == h2[a].to_bits(), "d {d} n {n}");
                     let naive_rhs: f64 = (0..n).map(|k| packed[k * s + a] * y[k]).sum();
                     assert!((h1[a] - naive_rhs).abs() < 1e-12, "d {d}");
                     for b in a..d {
                         let at = a * s + b;
                         assert_eq!(g1[at].to_bits(), g2[at].to_bits(), "d {d} n {n} ({a},{b})");
+                        assert_eq!(g1[at].to_bits(), g4[at].to_bits(), "d {d} n {n} ({a},{b})");
                         assert!(
                             !direct || g3[at].to_bits() == g2[at].to_bits(),
                             "d {d} n {n}"
