@@ -198,14 +198,11 @@ pub fn gather(table: &[f64], d: usize, rows: &[u32], n: usize, gathered: &mut Ve
     }
 }
 
-/// Largest rank handled by [`gram_and_rhs_direct`]: 16 with the 512-bit kernels (two
-/// registers per row), 12 otherwise.
-pub const DIRECT_MAX_RANK: usize = if WIDE_KERNELS { 16 } else { 12 };
-
-/// [`gram_and_rhs`] for ranks up to [`DIRECT_MAX_RANK`], reading the rows straight from the
-/// row-major `table` (width `d`) through `rows`: no copy. Every accumulator of the upper
-/// triangle and of the right-hand side stays in a register through a single pass. `gram`
-/// and `rhs` have the stride `round_up(d, TILE)`. Returns false for larger ranks.
+/// [`gram_and_rhs`] for ranks up to 16 with the 512-bit kernels (two registers per row),
+/// 12 otherwise, reading the rows straight from the row-major `table` (width `d`) through
+/// `rows`: no copy. Every accumulator of the upper triangle and of the right-hand side stays
+/// in a register through a single pass. `gram` and `rhs` have the stride
+/// `round_up(d, TILE)`. Returns false for larger ranks.
 pub fn gram_and_rhs_direct(
     table: &[f64],
     d: usize,
