@@ -13,6 +13,7 @@
 pub mod analysis;
 pub mod data;
 pub mod error;
+pub mod files;
 pub mod index;
 pub mod model;
 pub mod report;
@@ -20,5 +21,6 @@ pub mod rng;
 #[doc(hidden)]
 pub mod robustness;
 pub mod synthetic;
+pub mod text;
 
 pub use error::{DataError, FitError};

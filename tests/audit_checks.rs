@@ -321,11 +321,14 @@ fn notes_saved_by_an_open_session_survive_a_refit_into_the_same_directory() {
     // Two sessions have the model open; one saves a note before the refit.
     let mut early = Notes::open(&model).unwrap();
     let mut late = Notes::open(&model).unwrap();
-    early.current.set_item_note("i1", "before the refit");
+    early
+        .current
+        .set_item_note("i1", "before the refit")
+        .unwrap();
     early.save().unwrap();
     fit_small(&ratings, &model);
     // The other saves after it: its note lands in the new model, beside the carried one.
-    late.current.set_factor_label(1, "after the refit");
+    late.current.set_factor_label(1, "after the refit").unwrap();
     let merge = late.save().unwrap();
     assert_eq!(merge.taken, 1);
     let on_disk = read_notes(&model).unwrap();

@@ -282,7 +282,7 @@ fn refit_replaces_a_model_keeps_notes_and_refuses_foreign_directories() {
     let result = fit_demo(&dir, &[]);
     assert_eq!(result.status.code(), Some(2));
     assert!(
-        text(&result.stderr).contains("other file(s) (first: 'report.txt')"),
+        text(&result.stderr).contains("other file(s) or link(s) ('report.txt')"),
         "{}",
         text(&result.stderr)
     );
@@ -291,7 +291,7 @@ fn refit_replaces_a_model_keeps_notes_and_refuses_foreign_directories() {
     let leftovers: Vec<_> = std::fs::read_dir(tmp.path())
         .unwrap()
         .filter_map(Result::ok)
-        .filter(|e| e.file_name().to_string_lossy().contains("sextant-new"))
+        .filter(|e| e.file_name().to_string_lossy().contains("sextant-tmp"))
         .collect();
     assert!(leftovers.is_empty());
 }
@@ -649,7 +649,7 @@ fn a_symlink_leading_out_of_the_model_directory_is_refused() {
     let result = sextant(&["info", &dir.display().to_string()]);
     assert_eq!(result.status.code(), Some(2));
     assert!(
-        text(&result.stderr).contains("users.csv: resolves to a place outside the model directory"),
+        text(&result.stderr).contains("users.csv: is a symbolic link; every model file must be a regular file inside the model directory"),
         "{}",
         text(&result.stderr)
     );

@@ -186,7 +186,7 @@ fn a_notes_save_killed_at_random_moments_leaves_the_old_notes_or_the_new_ones() 
         }
         let now = read_notes(&target).unwrap_or_else(|e| panic!("kill {k}: notes unreadable: {e}"));
         let mut after = before.clone();
-        after.set_item_note(&id, &format!("edit {k}"));
+        after.set_item_note(&id, &format!("edit {k}")).unwrap();
         if now == before {
             kept += 1;
         } else if now == after {

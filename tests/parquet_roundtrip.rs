@@ -6,6 +6,24 @@ mod common;
 
 use common::{repo, sextant};
 
+/// True when pyarrow can be imported. Without it these checks are skipped, so the
+/// README's `cargo test` passes on a machine with only python3; `.ci/run` installs pyarrow
+/// and sets SEXTANT_REQUIRE_PYTHON_LIBS=1, which turns a missing pyarrow into a failure.
+fn have_pyarrow() -> bool {
+    let found = std::process::Command::new("python3")
+        .args(["-c", "import pyarrow"])
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !found {
+        assert!(
+            std::env::var_os("SEXTANT_REQUIRE_PYTHON_LIBS").is_none(),
+            "pyarrow is required here (SEXTANT_REQUIRE_PYTHON_LIBS is set)"
+        );
+        eprintln!("pyarrow is not installed: skipping the Parquet checks against it");
+    }
+    found
+}
+
 fn python(script: &str) -> String {
     let out = std::process::Command::new("python3")
         .args(["-c", script])
@@ -21,6 +39,9 @@ fn python(script: &str) -> String {
 
 #[test]
 fn factor_tables_written_by_pyarrow_import_exactly() {
+    if !have_pyarrow() {
+        return;
+    }
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path().to_str().unwrap();
     let model = repo("demo-data/model");
@@ -92,6 +113,9 @@ pq.write_table(table, "{d}/items.parquet")
 
 #[test]
 fn what_export_writes_pyarrow_reads_exactly() {
+    if !have_pyarrow() {
+        return;
+    }
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("export");
     let o = out.to_str().unwrap();

@@ -3,11 +3,13 @@
 
 use std::path::PathBuf;
 
-use anyhow::Context as _;
+use std::io::Write as _;
+
 use clap::Args;
 use sextant::analysis::audit::{AuditOptions, audit};
-use sextant::model::load_model;
-use sextant::model::notes::read_notes;
+use sextant::files::export::ExportFolder;
+use sextant::files::output::write_file;
+use sextant::model::notes::load_with_notes;
 use sextant::report;
 
 use super::neighbours::MetricArg;
@@ -23,10 +25,12 @@ pub struct AuditArgs {
     /// The model directory.
     #[arg(value_name = "MODEL")]
     model: PathBuf,
-    /// Write the Markdown report to this file.
+    /// Write the Markdown report to this file (- for stdout; a device or pipe is written
+    /// in place, an existing file replaced whole).
     #[arg(long, value_name = "FILE")]
     report: Option<PathBuf>,
-    /// Write the figures as CSV files into this directory (created if missing).
+    /// Write the figures as CSV files into this folder: a new or empty one, or one an
+    /// earlier audit or export wrote (nothing else is overwritten).
     #[arg(long, value_name = "DIR")]
     csv: Option<PathBuf>,
     /// Neighbours per item for the coherence check.
@@ -64,8 +68,8 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
     if args.relevant.is_some_and(|r| !r.is_finite()) {
         return Err(super::UsageError("--relevant must be a finite number".into()).into());
     }
-    let model = load_model(&args.model)?;
-    let notes = read_notes(&args.model)?;
+    let (model, notes) = load_with_notes(&args.model)?;
+    let notes = notes.current;
     let options = AuditOptions {
         neighbours: args.neighbours,
         metric: args.metric.into(),
@@ -79,16 +83,18 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
     let name = args.model.display().to_string();
     let text = report::markdown(&model, &name, &found, &notes);
     if let Some(dir) = &args.csv {
-        std::fs::create_dir_all(dir)
-            .with_context(|| format!("{}: cannot create", dir.display()))?;
-        for (file, content) in report::csv_files(&model, &found, &notes) {
-            output::write_atomic(&dir.join(file), content.as_bytes())?;
+        let files = report::csv_files(&model, &found, &notes);
+        let names: Vec<&str> = files.iter().map(|(name, _)| *name).collect();
+        let mut folder = ExportFolder::open(dir, &names)?;
+        for (file, content) in &files {
+            folder.write(file, |w| w.write_all(content.as_bytes()))?;
         }
+        folder.finish()?;
         eprintln!("wrote the audit's CSV files to {}", dir.display());
     }
     match &args.report {
         Some(path) => {
-            output::write_atomic(path, text.as_bytes())?;
+            write_file(path, text.as_bytes())?;
             eprintln!("wrote the audit report to {}", path.display());
             if let Some(c) = &found.coherence {
                 eprintln!(

@@ -27,8 +27,7 @@ pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
         return measure(args, frames);
     }
     ensure_terminal()?;
-    let model = load_model(&args.model)?;
-    let notes = sextant::model::notes::Notes::open(&args.model)?;
+    let (model, notes) = sextant::model::notes::load_with_notes(&args.model)?;
     open(model, args.model.display().to_string(), notes)
 }
 

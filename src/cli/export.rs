@@ -5,8 +5,10 @@ use std::fmt::Write as _;
 use std::path::PathBuf;
 use std::sync::Arc;
 
-use anyhow::Context as _;
+use std::io::Write as _;
+
 use clap::{Args, ValueEnum};
+use sextant::files::export::ExportFolder;
 use sextant::model::load_model;
 
 use super::output;
@@ -30,7 +32,9 @@ pub struct ExportArgs {
     /// File format.
     #[arg(long, value_enum, default_value_t = ExportFormat::Parquet)]
     format: ExportFormat,
-    /// Directory to write into (created if missing).
+    /// Folder to write into: a new or empty one, or one an earlier export wrote (it holds
+    /// sextant-export.ron). A folder of other files is refused, so nothing of yours is
+    /// overwritten.
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
     /// Neighbours per item.
@@ -38,45 +42,62 @@ pub struct ExportArgs {
     k: usize,
 }
 
+/// The files an export writes, in the order written.
+fn file_names(format: ExportFormat) -> [&'static str; 4] {
+    match format {
+        ExportFormat::Parquet => [
+            "users.parquet",
+            "items.parquet",
+            "holdout-predictions.parquet",
+            "neighbours.parquet",
+        ],
+        ExportFormat::Csv => [
+            "users.csv",
+            "items.csv",
+            "holdout-predictions.csv",
+            "neighbours.csv",
+        ],
+    }
+}
+
 pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
+    if args.k == 0 {
+        return Err(super::UsageError("-k must be at least 1".into()).into());
+    }
     let model = load_model(&args.model)?;
-    std::fs::create_dir_all(&args.out)
-        .with_context(|| format!("{}: cannot create", args.out.display()))?;
+    let names = file_names(args.format);
+    // Refuses a folder of someone else's files before any work is done.
+    let mut folder = ExportFolder::open(&args.out, &names)?;
     let f = &model.factors;
     let r = &model.ratings;
     let held: Vec<_> = r.entries.iter().filter(|e| e.holdout).collect();
+    let k = args.k.min(r.items.len().saturating_sub(1));
     let lists = sextant::index::bulk::all_neighbours_auto(
         &f.items,
         f.rank,
         sextant::index::Metric::Euclidean,
-        args.k,
+        k,
     );
+    let [users_file, items_file, held_file, lists_file] = names;
     match args.format {
         ExportFormat::Parquet => {
             use arrow_array::{ArrayRef, Float64Array, RecordBatch, StringArray, UInt32Array};
             use arrow_schema::{DataType, Field, Schema};
-            let dir = &args.out;
-            let write = |name: &str, batch: RecordBatch| -> anyhow::Result<()> {
-                let path = dir.join(name);
-                let file = std::fs::File::create(&path)
-                    .with_context(|| format!("{}: cannot write", path.display()))?;
-                let mut w = parquet::arrow::ArrowWriter::try_new(file, batch.schema(), None)?;
-                w.write(&batch)?;
-                w.close()?;
-                Ok(())
+            let batch_to = |batch: RecordBatch| {
+                move |w: &mut std::fs::File| -> std::io::Result<()> {
+                    let mut writer = parquet::arrow::ArrowWriter::try_new(w, batch.schema(), None)
+                        .map_err(std::io::Error::other)?;
+                    writer.write(&batch).map_err(std::io::Error::other)?;
+                    writer.close().map_err(std::io::Error::other)?;
+                    Ok(())
+                }
             };
-            sextant::data::parquet::write_factor_parquet(
-                &dir.join("users.parquet"),
-                &r.users,
-                &f.users,
-                f.rank,
-            )?;
-            sextant::data::parquet::write_factor_parquet(
-                &dir.join("items.parquet"),
-                &r.items,
-                &f.items,
-                f.rank,
-            )?;
+            folder.write(users_file, |w| {
+                sextant::data::parquet::write_factor_parquet(w, &r.users, &f.users, f.rank)
+            })?;
+            folder.write(items_file, |w| {
+                sextant::data::parquet::write_factor_parquet(w, &r.items, &f.items, f.rank)
+            })?;
             let schema = Arc::new(Schema::new(vec![
                 Field::new("user", DataType::Utf8, false),
                 Field::new("item", DataType::Utf8, false),
@@ -95,10 +116,7 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                     held.iter().map(|e| f.predict(e.user, e.item)),
                 )),
             ];
-            write(
-                "holdout-predictions.parquet",
-                RecordBatch::try_new(schema, cols)?,
-            )?;
+            folder.write(held_file, batch_to(RecordBatch::try_new(schema, cols)?))?;
             let rows: Vec<(u32, usize, &sextant::index::Neighbour)> = lists
                 .iter()
                 .enumerate()
@@ -124,7 +142,7 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                     rows.iter().map(|(_, _, n)| n.distance),
                 )),
             ];
-            write("neighbours.parquet", RecordBatch::try_new(schema, cols)?)?;
+            folder.write(lists_file, batch_to(RecordBatch::try_new(schema, cols)?))?;
         }
         ExportFormat::Csv => {
             let num = sextant::data::factors::format_float;
@@ -144,14 +162,9 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                 }
                 out
             };
-            output::write_atomic(
-                &args.out.join("users.csv"),
-                table(&r.users, &f.users).as_bytes(),
-            )?;
-            output::write_atomic(
-                &args.out.join("items.csv"),
-                table(&r.items, &f.items).as_bytes(),
-            )?;
+            let text = |out: String| move |w: &mut std::fs::File| w.write_all(out.as_bytes());
+            folder.write(users_file, text(table(&r.users, &f.users)))?;
+            folder.write(items_file, text(table(&r.items, &f.items)))?;
             let mut out = String::from("user,item,rating,predicted\n");
             for e in &held {
                 let fields = [
@@ -162,7 +175,7 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                 ];
                 output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
             }
-            output::write_atomic(&args.out.join("holdout-predictions.csv"), out.as_bytes())?;
+            folder.write(held_file, text(out))?;
             let mut out = String::from("query,rank,id,distance\n");
             for (q, l) in lists.iter().enumerate() {
                 for (k, n) in l.iter().enumerate() {
@@ -175,8 +188,15 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                     output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
                 }
             }
-            output::write_atomic(&args.out.join("neighbours.csv"), out.as_bytes())?;
+            folder.write(lists_file, text(out))?;
         }
+    }
+    let removed = folder.finish()?;
+    if !removed.is_empty() {
+        eprintln!(
+            "removed {} file(s) an earlier export wrote and this one replaces",
+            removed.len()
+        );
     }
     eprintln!(
         "wrote the factor tables, {} held-out predictions and {} neighbour lists to {}",

@@ -42,7 +42,8 @@ pub struct FitArgs {
     /// Items metadata CSV: item plus optional title, category and other columns.
     #[arg(long, value_name = "FILE")]
     items: Option<PathBuf>,
-    /// Model directory to write (created, or replaced atomically if it holds a model).
+    /// Model directory to write: created, or replaced atomically when it is empty or holds a
+    /// sextant model and nothing else (anything else is refused).
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
     /// Rank D: the number of latent factors.
@@ -111,6 +112,8 @@ pub fn run(args: &FitArgs) -> anyhow::Result<()> {
         .into());
     }
     let scale = args.input.scale()?;
+    // A target that will be refused is refused before the fit, not after it.
+    sextant::model::dir::check_target(&args.out)?;
     let pool = thread_pool(args.threads)?;
     pool.install(|| fit_and_save(args, &options, scale))
 }

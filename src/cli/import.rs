@@ -72,6 +72,7 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         return Err(UsageError("--mu must be a finite number".into()).into());
     }
     let scale = args.input.scale()?;
+    sextant::model::dir::check_target(&args.out)?;
     let columns = sextant::data::parquet::ParquetColumns {
         id: args.id_col.clone(),
         vector: args.vector_col.clone(),

@@ -130,7 +130,7 @@ pub fn has_column(path: &Path, name: &str) -> Result<bool, DataError> {
     let mut csv = csv::ReaderBuilder::new()
         .has_headers(false)
         .trim(csv::Trim::All)
-        .from_reader(open(path)?);
+        .from_reader(sextant::files::bounded::Bounded::new(open(path)?));
     let mut record = csv::StringRecord::new();
     match csv.read_record(&mut record) {
         Ok(true) => Ok(record

@@ -23,6 +23,7 @@ mod tune;
 use clap::{Parser, Subcommand};
 
 use sextant::error::{DataError, FitError};
+use sextant::files::output::OutputError;
 use sextant::model::store::SaveError;
 
 /// Take bearings in the latent space of a rating-based recommender.
@@ -106,7 +107,10 @@ pub struct UsageError(pub String);
 /// Maps an error to the documented exit code: 2 for bad usage or bad input, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
     for cause in err.chain() {
-        if cause.is::<DataError>() || cause.is::<UsageError>() {
+        if cause.is::<DataError>()
+            || cause.is::<UsageError>()
+            || cause.is::<sextant::model::notes::NoteError>()
+        {
             return 2;
         }
         if let Some(fit) = cause.downcast_ref::<FitError>() {
@@ -119,6 +123,12 @@ pub fn exit_code(err: &anyhow::Error) -> u8 {
             return match notes {
                 sextant::model::notes::NotesError::Data(_) => 2,
                 sextant::model::notes::NotesError::Io { .. } => 1,
+            };
+        }
+        if let Some(out) = cause.downcast_ref::<OutputError>() {
+            return match out {
+                OutputError::Refused { .. } => 2,
+                OutputError::Io { .. } => 1,
             };
         }
         if let Some(save) = cause.downcast_ref::<SaveError>() {

@@ -51,7 +51,8 @@ pub struct NeighboursArgs {
     /// tree query per item, whichever is faster; the lists equal the single-item ones.
     #[arg(long, conflicts_with = "user")]
     all: bool,
-    /// With --all: write to this file (atomically) instead of stdout.
+    /// With --all: write to this file instead of stdout (an existing file is replaced
+    /// whole; a device or pipe is written in place).
     #[arg(long, value_name = "FILE", requires = "all")]
     out: Option<PathBuf>,
     /// List the members nearest to this member instead.
@@ -273,7 +274,7 @@ fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Resu
     };
     match &args.out {
         Some(path) => {
-            output::write_atomic(path, text.as_bytes())?;
+            sextant::files::output::write_file(path, text.as_bytes())?;
             eprintln!(
                 "wrote {} neighbour lists to {}",
                 lists.len(),

@@ -6,8 +6,7 @@ use std::path::PathBuf;
 
 use clap::Args;
 use serde::Serialize;
-use sextant::model::load_model;
-use sextant::model::notes::Notes;
+use sextant::model::notes::{NoteError, load_with_notes};
 
 use super::UsageError;
 use super::output::{self, Format};
@@ -48,8 +47,10 @@ struct Row<'a> {
 }
 
 pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
-    let model = load_model(&args.model)?;
-    let mut notes = Notes::open(&args.model)?;
+    // The model and its notes from one generation; the reading lock is let go before the
+    // save takes the writing one.
+    let (model, mut notes) = load_with_notes(&args.model)?;
+    let refused = |what: &str, e: NoteError| UsageError(format!("{what}: {e}"));
     let items = &model.ratings.items;
     let known = |id: &str| -> Result<(), UsageError> {
         super::lookup::resolve(items, id, "item").map(|_| ())
@@ -57,7 +58,10 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
     let mut changed = false;
     if let Some(v) = &args.item {
         known(&v[0])?;
-        notes.current.set_item_note(&v[0], &v[1]);
+        notes
+            .current
+            .set_item_note(&v[0], &v[1])
+            .map_err(|e| refused("--item", e))?;
         changed = true;
     }
     if let Some(v) = &args.factor {
@@ -71,7 +75,10 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
                     v[0], model.factors.rank
                 ))
             })?;
-        notes.current.set_factor_label(f, &v[1]);
+        notes
+            .current
+            .set_factor_label(f, &v[1])
+            .map_err(|e| refused("--factor", e))?;
         changed = true;
     }
     for (pair, flag) in [(&args.flag, true), (&args.unflag, false)] {
@@ -82,7 +89,10 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
                 return Err(UsageError("a pair needs two different items".into()).into());
             }
             if flag {
-                notes.current.flag_pair(&v[0], &v[1], &args.text);
+                notes
+                    .current
+                    .flag_pair(&v[0], &v[1], &args.text)
+                    .map_err(|e| refused("--text", e))?;
             } else {
                 notes.current.unflag_pair(&v[0], &v[1]);
             }

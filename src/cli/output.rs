@@ -55,30 +55,6 @@ pub fn fixed(value: Option<f64>, digits: usize) -> String {
     value.map_or_else(|| "–".to_owned(), |v| format!("{v:.digits$}"))
 }
 
-/// Writes `bytes` to `path` atomically: a temporary file beside it, fsync, rename. An
-/// interrupted write leaves the old file (or none), never half of one.
-pub fn write_atomic(path: &std::path::Path, bytes: &[u8]) -> anyhow::Result<()> {
-    use anyhow::Context as _;
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => std::path::PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
-    let temp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| -> std::io::Result<()> {
-        let mut file = std::fs::File::create(&temp)?;
-        file.write_all(bytes)?;
-        file.sync_all()?;
-        std::fs::rename(&temp, path)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&temp);
-    }
-    result.with_context(|| format!("{}: cannot write", path.display()))
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -101,6 +101,9 @@ struct Report<'a> {
 }
 
 pub fn run(args: &TuneArgs) -> anyhow::Result<()> {
+    if let Some(out) = &args.out {
+        sextant::model::dir::check_target(out)?;
+    }
     if args.ranks.is_empty() || args.lambdas.is_empty() {
         return Err(UsageError("--ranks and --lambdas need at least one value each".into()).into());
     }

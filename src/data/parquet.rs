@@ -234,7 +234,7 @@ fn list_at(column: &ArrayRef, r: usize) -> Option<Vec<f64>> {
 
 /// Writes a factor table as Parquet: `id` (text) and `f1 … fD` (doubles).
 pub fn write_factor_parquet(
-    path: &Path,
+    out: impl std::io::Write + Send,
     ids: &IdMap,
     values: &[f64],
     rank: usize,
@@ -251,8 +251,7 @@ pub fn write_factor_parquet(
         )));
     }
     let batch = RecordBatch::try_new(schema.clone(), arrays).map_err(std::io::Error::other)?;
-    let file = File::create(path)?;
-    let mut writer = ArrowWriter::try_new(file, schema, None).map_err(std::io::Error::other)?;
+    let mut writer = ArrowWriter::try_new(out, schema, None).map_err(std::io::Error::other)?;
     writer.write(&batch).map_err(std::io::Error::other)?;
     writer.close().map_err(std::io::Error::other)?;
     Ok(())

@@ -11,6 +11,7 @@ use std::path::Path;
 use super::ids::IdMap;
 use super::scale::RatingScale;
 use crate::error::DataError;
+use crate::files::bounded::Bounded;
 
 /// One observed rating, by dense indices.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -401,15 +402,16 @@ fn pair_order(raw: &[Rating], users: usize) -> Vec<u32> {
     order
 }
 
-/// A CSV reader configured the way every sextant input is read.
-pub(crate) fn csv_reader<R: Read>(reader: R) -> csv::Reader<R> {
+/// A CSV reader configured the way every sextant input is read: lines are bounded and
+/// UTF-16 or UTF-32 files are named ([`crate::files::bounded`]).
+pub(crate) fn csv_reader<R: Read>(reader: R) -> csv::Reader<Bounded<R>> {
     // Fields are trimmed where they are read ([`trimmed`]): the csv crate's own trimming
     // builds a new record for every row.
     csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
         .buffer_capacity(1 << 20)
-        .from_reader(reader)
+        .from_reader(Bounded::new(reader))
 }
 
 /// A field without surrounding ASCII whitespace.
@@ -539,7 +541,11 @@ pub(crate) fn csv_error(path: &Path, error: &csv::Error) -> DataError {
     let line = error.position().map(csv::Position::line);
     let reason = match error.kind() {
         csv::ErrorKind::Io(e) => {
-            return DataError::read(path, std::io::Error::new(e.kind(), e.to_string()));
+            return match crate::files::bounded::refusal(e) {
+                Some((Some(line), reason)) => DataError::at_line(path, line, reason),
+                Some((None, reason)) => DataError::in_file(path, reason),
+                None => DataError::read(path, std::io::Error::new(e.kind(), e.to_string())),
+            };
         }
         csv::ErrorKind::Utf8 { .. } => "text is not valid UTF-8".to_owned(),
         other => format!("malformed CSV: {other:?}"),

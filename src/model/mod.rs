@@ -18,6 +18,7 @@
 //! solved exactly, so `L` never decreases (see [`fit()`]).
 
 pub mod build;
+pub mod dir;
 pub mod fit;
 pub mod kernels;
 pub mod manifest;
@@ -26,9 +27,10 @@ pub mod solve;
 pub mod store;
 
 pub use build::Provenance;
+pub use dir::{load_model, save_model};
 pub use fit::{Center, FitOptions, FitResult, Fitter, IterationRecord, fit};
 pub use solve::RidgeWorkspace;
-pub use store::{Model, load_model, save_model};
+pub use store::Model;
 
 /// Fitted (or imported) vectors: one row per user and per item, row-major.
 #[derive(Debug, Clone, PartialEq)]

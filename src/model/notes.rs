@@ -8,18 +8,20 @@
 //! another explorer). A note changed on one side only takes that side's version; a note
 //! changed differently on both sides keeps both texts, joined by [`JOIN`], and the merge
 //! reports it so the curator can tidy it up. A refit into the same directory carries the
-//! file over (see [`super::store::save_model`], which takes the same lock); notes about
+//! file over (see [`super::dir::save_model`], which takes the same lock); notes about
 //! items that no longer exist stay in the file and are reported by [`Annotations::orphans`].
+//!
+//! A note is kept as written or refused ([`check_note`]): line breaks and tabs are kept,
+//! a note longer than [`MAX_NOTE_CHARS`] or holding another control character is refused
+//! with the reason. Front ends escape control characters when they show a note.
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::fmt::Write as _;
-use std::fs::{self, File};
-use std::io::Write;
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
-use super::store::ANNOTATIONS;
+use super::dir::{ANNOTATIONS, ModelDir};
 use crate::data::IdMap;
 use crate::error::DataError;
 
@@ -105,19 +107,20 @@ impl Annotations {
         self.pairs.get(&pair(a, b)).map(String::as_str)
     }
 
-    /// Sets (or with empty text removes) a factor label.
-    pub fn set_factor_label(&mut self, factor: usize, text: &str) {
-        set(&mut self.factors, factor, text);
+    /// Sets (or with empty text removes) a factor label; refuses text [`check_note`] refuses.
+    pub fn set_factor_label(&mut self, factor: usize, text: &str) -> Result<(), NoteError> {
+        set(&mut self.factors, factor, text)
     }
 
-    /// Sets (or with empty text removes) an item note.
-    pub fn set_item_note(&mut self, id: &str, text: &str) {
-        set(&mut self.items, id.to_owned(), text);
+    /// Sets (or with empty text removes) an item note; refuses text [`check_note`] refuses.
+    pub fn set_item_note(&mut self, id: &str, text: &str) -> Result<(), NoteError> {
+        set(&mut self.items, id.to_owned(), text)
     }
 
     /// Flags a pair as wrong neighbours, with an optional note.
-    pub fn flag_pair(&mut self, a: &str, b: &str, note: &str) {
-        self.pairs.insert(pair(a, b), clean(note));
+    pub fn flag_pair(&mut self, a: &str, b: &str, note: &str) -> Result<(), NoteError> {
+        self.pairs.insert(pair(a, b), check_note(note)?);
+        Ok(())
     }
 
     /// Removes a pair's flag.
@@ -190,9 +193,17 @@ impl Annotations {
         }
         let long = |s: &String| s.chars().count() > MAX_NOTE_CHARS;
         let texts = file.factors.values().chain(file.items.values());
-        if texts.chain(file.pairs.iter().map(|p| &p.note)).any(long) || file.items.keys().any(long)
+        if let Some(Err(e)) = texts
+            .chain(file.pairs.iter().map(|p| &p.note))
+            .map(|t| check_note(t))
+            .find(Result::is_err)
         {
-            return bad(format!("a note is longer than {MAX_NOTE_CHARS} characters"));
+            return bad(e.to_string());
+        }
+        if file.items.keys().any(long) {
+            return bad(format!(
+                "an item id is longer than {MAX_NOTE_CHARS} characters"
+            ));
         }
         let mut pairs = BTreeMap::new();
         for p in file.pairs {
@@ -212,21 +223,45 @@ impl Annotations {
     }
 }
 
-fn clean(text: &str) -> String {
-    let one_line: String = text
+/// A note that cannot be kept as written.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("{0}")]
+pub struct NoteError(pub String);
+
+/// The text of a note as it is kept: surrounding white space dropped, Windows line ends
+/// made plain, everything else exactly as written. Refused: more than [`MAX_NOTE_CHARS`]
+/// characters, or a control character other than a line break or a tab (an escape
+/// sequence in a note could rewrite the terminal of whoever reads it).
+pub fn check_note(text: &str) -> Result<String, NoteError> {
+    let text = text.replace("\r\n", "\n");
+    let text = text.trim();
+    let chars = text.chars().count();
+    if chars > MAX_NOTE_CHARS {
+        return Err(NoteError(format!(
+            "the note is {chars} characters long; at most {MAX_NOTE_CHARS} are kept, so shorten it"
+        )));
+    }
+    if let Some(c) = text
         .chars()
-        .map(|c| if c.is_control() { ' ' } else { c })
-        .collect();
-    one_line.trim().chars().take(MAX_NOTE_CHARS).collect()
+        .find(|&c| c.is_control() && c != '\n' && c != '\t')
+    {
+        return Err(NoteError(format!(
+            "the note holds the control character {}; notes keep line breaks and tabs but no \
+             other control characters",
+            crate::text::escape_char(c)
+        )));
+    }
+    Ok(text.to_owned())
 }
 
-fn set<K: Ord>(map: &mut BTreeMap<K, String>, key: K, text: &str) {
-    let text = clean(text);
+fn set<K: Ord>(map: &mut BTreeMap<K, String>, key: K, text: &str) -> Result<(), NoteError> {
+    let text = check_note(text)?;
     if text.is_empty() {
         map.remove(&key);
     } else {
         map.insert(key, text);
     }
+    Ok(())
 }
 
 /// Notes about things a model does not have.
@@ -404,51 +439,24 @@ fn io_error(path: &Path) -> impl FnOnce(std::io::Error) -> NotesError + '_ {
     }
 }
 
-/// An exclusive advisory lock on a model directory, released on drop. The lock is taken on
-/// the directory itself and re-checked after it is granted, so a directory swapped in by a
-/// refit meanwhile is locked, not the one it replaced.
-#[derive(Debug)]
-pub struct DirLock {
-    _file: File,
-}
-
-/// Locks `dir` (waits for other holders).
-pub fn lock_dir(dir: &Path) -> std::io::Result<DirLock> {
-    loop {
-        let file = File::open(dir)?;
-        #[cfg(target_os = "linux")]
-        {
-            use rustix::fs::{FlockOperation, flock, fstat, stat};
-            flock(&file, FlockOperation::LockExclusive)?;
-            let held = fstat(&file)?;
-            let now = stat(dir)?;
-            if held.st_ino != now.st_ino || held.st_dev != now.st_dev {
-                continue;
-            }
-        }
-        return Ok(DirLock { _file: file });
+/// Reads the notes of one generation of a model directory; empty when it has none.
+pub fn read_notes_in(dir: &ModelDir) -> Result<Annotations, DataError> {
+    match dir.read_file(ANNOTATIONS, MAX_NOTES_BYTES)? {
+        Some(bytes) => Annotations::parse(&bytes, &dir.path().join(ANNOTATIONS)),
+        None => Ok(Annotations::default()),
     }
 }
 
-/// Reads the notes of a model directory; empty when there is no notes file.
+/// Loads a model and its notes from one generation of the directory `dir` (the reading
+/// lock is let go before returning, so the notes can be saved afterwards).
+pub fn load_with_notes(dir: &Path) -> Result<(super::Model, Notes), DataError> {
+    let generation = ModelDir::read(dir)?;
+    Ok((generation.load()?, Notes::open_in(&generation)?))
+}
+
+/// Reads the notes of the model directory `dir`; empty when there is no notes file.
 pub fn read_notes(dir: &Path) -> Result<Annotations, DataError> {
-    let path = dir.join(ANNOTATIONS);
-    if let Ok(meta) = fs::metadata(&path)
-        && meta.len() > MAX_NOTES_BYTES
-    {
-        return Err(DataError::in_file(
-            &path,
-            format!(
-                "is {} bytes; a notes file is at most {MAX_NOTES_BYTES} bytes, so this is not one",
-                meta.len()
-            ),
-        ));
-    }
-    match fs::read(&path) {
-        Ok(bytes) => Annotations::parse(&bytes, &path),
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(Annotations::default()),
-        Err(e) => Err(DataError::read(&path, e)),
-    }
+    read_notes_in(&ModelDir::read(dir)?)
 }
 
 /// The notes of an open model, as loaded and as edited since.
@@ -456,8 +464,8 @@ pub fn read_notes(dir: &Path) -> Result<Annotations, DataError> {
 pub struct Notes {
     /// The model directory (None for the embedded demo, whose notes cannot be saved).
     dir: Option<PathBuf>,
-    /// Fingerprint of the directory's manifest when the notes were opened.
-    manifest: Option<String>,
+    /// Which generation of the directory the notes were opened with.
+    generation: Option<(u64, u64)>,
     base: Annotations,
     /// The notes as they are now.
     pub current: Annotations,
@@ -466,10 +474,15 @@ pub struct Notes {
 impl Notes {
     /// Loads the notes of model directory `dir`.
     pub fn open(dir: &Path) -> Result<Self, DataError> {
-        let base = read_notes(dir)?;
+        Self::open_in(&ModelDir::read(dir)?)
+    }
+
+    /// Loads the notes of the generation `dir` (the one its model was loaded from).
+    pub fn open_in(dir: &ModelDir) -> Result<Self, DataError> {
+        let base = read_notes_in(dir)?;
         Ok(Self {
-            dir: Some(dir.to_path_buf()),
-            manifest: manifest_print(dir),
+            dir: Some(dir.path().to_path_buf()),
+            generation: dir.identity(),
             current: base.clone(),
             base,
         })
@@ -509,11 +522,11 @@ impl Notes {
     /// Saves into another model directory (e.g. when the model's own is read-only), which
     /// then becomes this session's notes directory.
     pub fn save_to(&mut self, dir: &Path) -> Result<Merge, NotesError> {
-        let _lock = lock_dir(dir).map_err(io_error(dir))?;
+        let locked = ModelDir::write(dir)?;
         // Under the lock no other save is writing, so any temporary file is a leftover.
-        clean_leftovers(dir);
+        locked.remove_leftovers();
         let same_dir = self.dir.as_deref() == Some(dir);
-        let theirs = read_notes(dir)?;
+        let theirs = read_notes_in(&locked)?;
         let base = if same_dir {
             &self.base
         } else {
@@ -521,58 +534,17 @@ impl Notes {
         };
         let (merged, mut report) = merge(base, &self.current, &theirs);
         report.model_replaced =
-            same_dir && self.manifest.is_some() && manifest_print(dir) != self.manifest;
+            same_dir && self.generation.is_some() && locked.identity() != self.generation;
         if merged != theirs {
-            write_atomically(dir, &merged.to_text())?;
+            locked
+                .replace_file(ANNOTATIONS, merged.to_text().as_bytes())
+                .map_err(io_error(dir))?;
         }
+        self.generation = locked.identity();
         self.base = merged.clone();
         self.current = merged;
         self.dir = Some(dir.to_path_buf());
         Ok(report)
-    }
-}
-
-/// Fingerprint of a directory's manifest, if it has one.
-fn manifest_print(dir: &Path) -> Option<String> {
-    let bytes = fs::read(dir.join(super::store::MANIFEST)).ok()?;
-    let mut hash = crate::data::fingerprint::Fnv1a64::default();
-    hash.update(&bytes);
-    Some(hash.hex())
-}
-
-/// Replaces `dir/annotations.ron` atomically.
-fn write_atomically(dir: &Path, text: &str) -> Result<(), NotesError> {
-    let target = dir.join(ANNOTATIONS);
-    let temp = dir.join(format!(".{ANNOTATIONS}.{}.tmp", std::process::id()));
-    let result = (|| {
-        let mut file = File::create(&temp).map_err(io_error(&temp))?;
-        file.write_all(text.as_bytes()).map_err(io_error(&temp))?;
-        file.sync_all().map_err(io_error(&temp))?;
-        drop(file);
-        fs::rename(&temp, &target).map_err(io_error(&target))?;
-        File::open(dir)
-            .and_then(|d| d.sync_all())
-            .map_err(io_error(dir))
-    })();
-    if result.is_err() {
-        let _ = fs::remove_file(&temp);
-    }
-    result
-}
-
-/// Removes temporary notes files left by a session that was killed while saving. Call it
-/// only while holding the directory's lock ([`lock_dir`]): another live save's temporary
-/// file would otherwise go too.
-fn clean_leftovers(dir: &Path) {
-    let Ok(entries) = fs::read_dir(dir) else {
-        return;
-    };
-    let prefix = format!(".{ANNOTATIONS}.");
-    for entry in entries.flatten() {
-        let name = entry.file_name().to_string_lossy().into_owned();
-        if name.starts_with(&prefix) && Path::new(&name).extension().is_some_and(|e| e == "tmp") {
-            let _ = fs::remove_file(entry.path());
-        }
     }
 }
 
@@ -583,13 +555,13 @@ mod tests {
     fn notes(f: &[(usize, &str)], i: &[(&str, &str)], p: &[(&str, &str, &str)]) -> Annotations {
         let mut a = Annotations::default();
         for (k, v) in f {
-            a.set_factor_label(*k, v);
+            a.set_factor_label(*k, v).unwrap();
         }
         for (k, v) in i {
-            a.set_item_note(k, v);
+            a.set_item_note(k, v).unwrap();
         }
         for (x, y, n) in p {
-            a.flag_pair(x, y, n);
+            a.flag_pair(x, y, n).unwrap();
         }
         a
     }
@@ -656,13 +628,13 @@ mod save_tests {
         let dir = tempfile::tempdir().unwrap();
         let mut one = Notes::open(dir.path()).unwrap();
         let mut two = Notes::open(dir.path()).unwrap();
-        one.current.set_item_note("r1", "first");
-        one.current.set_factor_label(2, "heat");
+        one.current.set_item_note("r1", "first").unwrap();
+        one.current.set_factor_label(2, "heat").unwrap();
         assert!(one.unsaved());
         assert_eq!(one.save().unwrap(), Merge::default());
         assert!(!one.unsaved());
-        two.current.set_item_note("r1", "second");
-        two.current.flag_pair("r5", "r4", "");
+        two.current.set_item_note("r1", "second").unwrap();
+        two.current.flag_pair("r5", "r4", "").unwrap();
         let report = two.save().unwrap();
         assert_eq!(report.taken, 1);
         assert_eq!(report.joined, ["note on item r1"]);
@@ -671,7 +643,7 @@ mod save_tests {
         assert_eq!(on_disk.factor_label(2), Some("heat"));
         assert_eq!(on_disk.pair_note("r4", "r5"), Some(""));
         // The first session removes its label; the second's later save keeps that removal.
-        one.current.set_factor_label(2, "");
+        one.current.set_factor_label(2, "").unwrap();
         one.save().unwrap();
         two.save().unwrap();
         assert_eq!(read_notes(dir.path()).unwrap().factor_label(2), None);
@@ -688,7 +660,7 @@ mod save_tests {
     fn a_failed_save_keeps_the_notes_in_memory() {
         let dir = tempfile::tempdir().unwrap();
         let mut notes = Notes::open(dir.path()).unwrap();
-        notes.current.set_item_note("r1", "keep me");
+        notes.current.set_item_note("r1", "keep me").unwrap();
         let gone = dir.path().join("gone");
         assert!(notes.save_to(&gone).is_err());
         assert_eq!(notes.current.item_note("r1"), Some("keep me"));

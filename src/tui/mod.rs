@@ -241,7 +241,6 @@ mod tests {
     use ratatui::Terminal;
     use ratatui::backend::TestBackend;
     use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-    use sextant::model::store::{DirSource, load_model_from};
 
     use super::app::{App, Mode, Pane};
     use super::theme::Theme;
@@ -250,7 +249,7 @@ mod tests {
     fn demo_app() -> App {
         let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
         App::new(
-            load_model_from(&DirSource::new(&dir)).expect("demo model loads"),
+            sextant::model::load_model(&dir).expect("demo model loads"),
             "demo",
         )
     }
@@ -501,7 +500,10 @@ mod tests {
         // Another explorer notes something; then the model is refitted (saved again with a
         // changed manifest) while this one is open.
         let mut other = Notes::open(&model_dir).expect("opened");
-        other.current.set_factor_label(1, "from the other window");
+        other
+            .current
+            .set_factor_label(1, "from the other window")
+            .unwrap();
         other.save().expect("saved");
         let mut refit = app.model.clone();
         refit.manifest.seed = 99;

@@ -123,14 +123,18 @@ impl App {
     /// Sets (empty: removes) the note on item `j` and saves the notes.
     pub fn set_item_note(&mut self, j: u32, text: &str) {
         let id = self.model.ratings.items.name(j).to_owned();
-        self.notes.current.set_item_note(&id, text);
-        self.save_notes(&format!("note on {}", self.title(j)));
+        match self.notes.current.set_item_note(&id, text) {
+            Ok(()) => self.save_notes(&format!("note on {}", self.title(j))),
+            Err(e) => self.status = format!("note not kept: {e}"),
+        }
     }
 
     /// Sets (empty: removes) the label of factor `f` (0-based) and saves the notes.
     pub fn set_factor_label(&mut self, f: usize, text: &str) {
-        self.notes.current.set_factor_label(f + 1, text);
-        self.save_notes(&format!("label of factor {}", f + 1));
+        match self.notes.current.set_factor_label(f + 1, text) {
+            Ok(()) => self.save_notes(&format!("label of factor {}", f + 1)),
+            Err(e) => self.status = format!("label not kept: {e}"),
+        }
     }
 
     fn toggle_pair_flag(&mut self) {
@@ -149,7 +153,10 @@ impl App {
             self.notes.current.unflag_pair(&ia, &ib);
             "flag removed"
         } else {
-            self.notes.current.flag_pair(&ia, &ib, "");
+            self.notes
+                .current
+                .flag_pair(&ia, &ib, "")
+                .expect("an empty note is always kept");
             "flagged as wrong neighbours"
         };
         self.save_notes(&format!("{} and {}: {what}", self.title(a), self.title(b)));
@@ -261,17 +268,13 @@ impl App {
             self.status = "highlight an item to explain first".into();
             return;
         };
-        let path = std::path::PathBuf::from(&name);
-        let temp = std::path::PathBuf::from(format!(".{name}.{}.tmp", std::process::id()));
-        let written = std::fs::write(&temp, &text).and_then(|()| std::fs::rename(&temp, &path));
+        let written =
+            sextant::files::output::write_file(std::path::Path::new(&name), text.as_bytes());
         self.status = match written {
             Ok(()) => {
                 format!("wrote the plain explanation to {name} (the member's own ratings only)")
             }
-            Err(e) => {
-                let _ = std::fs::remove_file(&temp);
-                format!("cannot write {name}: {e}")
-            }
+            Err(e) => format!("{e}"),
         };
     }
 
