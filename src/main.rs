@@ -19,14 +19,21 @@ fn main() -> ExitCode {
             // The message and each cause not already part of it (our errors name their
             // operating-system reason themselves).
             let mut text = err.to_string();
+            let mut previous: &(dyn std::error::Error + 'static) = err.as_ref();
             for cause in err.chain().skip(1) {
+                // Our file errors already say what the operating system's error means.
+                let explained = std::mem::replace(&mut previous, cause);
+                if cli::explains_its_source(explained) {
+                    continue;
+                }
                 let cause = cause.to_string();
                 if !text.contains(&cause) {
                     text.push_str(": ");
                     text.push_str(&cause);
                 }
             }
-            eprintln!("error: {text}");
+            // Messages quote values from the user's files: shown escaped, never raw.
+            eprintln!("error: {}", cli::readable(&text));
             ExitCode::from(cli::exit_code(&err))
         }
     }

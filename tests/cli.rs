@@ -376,6 +376,8 @@ fn import_refuses_tables_that_do_not_fit() {
             users,
             "--items",
             items,
+            "--center",
+            "none",
             "--out",
             &out,
         ])

@@ -176,6 +176,8 @@ fn run(case: &Case, work: &Path) -> (Option<i32>, String, String) {
                     users,
                     "--items",
                     f,
+                    "--center",
+                    "none",
                     "--out",
                     o,
                 ],

@@ -168,6 +168,8 @@ fn a_member_whose_every_rating_is_held_out_is_explained_without_nan() {
         fitted.join("users.csv").to_str().unwrap(),
         "--items",
         fitted.join("items.csv").to_str().unwrap(),
+        "--center",
+        "none",
         "--out",
         imported.to_str().unwrap(),
     ]);

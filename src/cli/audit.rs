@@ -94,7 +94,7 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
     }
     match &args.report {
         Some(path) => {
-            write_file(path, text.as_bytes())?;
+            write_file(path, output::readable(&text).as_bytes())?;
             eprintln!("wrote the audit report to {}", path.display());
             if let Some(c) = &found.coherence {
                 eprintln!(
@@ -106,7 +106,7 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
             }
             Ok(())
         }
-        None if args.csv.is_none() => output::print(&text),
+        None if args.csv.is_none() => output::print(&text, output::Format::Table),
         None => Ok(()),
     }
 }

@@ -52,5 +52,5 @@ pub fn run() -> anyhow::Result<()> {
         "\nThis is the bundled demo model; run sextant in a terminal to explore it. Try also: \
          sextant fit demo-data/ratings.csv --items demo-data/items.csv --out my-model\n",
     );
-    output::print(&text)
+    output::print(&text, Format::Table)
 }

@@ -77,7 +77,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
     let e = explain(&model, user, item, args.evidence, &item_support(&model));
     if args.plain {
         let text = sextant::analysis::plain::plain_explanation(&model, &e);
-        return output::print(&(text + "\n"));
+        return output::print(&(text + "\n"), Format::Table);
     }
     let items = &model.ratings.items;
     let report = Report {
@@ -127,7 +127,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         }
         Format::Table => table(&model, &report, &e),
     };
-    output::print(&text)
+    output::print(&text, args.format)
 }
 
 fn table(
@@ -153,7 +153,12 @@ fn table(
         "predicted {:.3} → {} on the scale ({sd}); {actual}",
         r.predicted, r.rounded
     );
-    let _ = writeln!(out, "\n  {:>10}  global mean μ", format!("{:+.3}", r.mu));
+    let _ = writeln!(
+        out,
+        "\n  {:>10}  {}",
+        format!("{:+.3}", r.mu),
+        model.manifest.center.mu_label()
+    );
     for c in &r.contributions {
         let _ = writeln!(
             out,

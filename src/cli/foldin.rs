@@ -110,5 +110,5 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text)
+    output::print(&text, args.format)
 }

@@ -44,7 +44,8 @@ pub struct ImportArgs {
     /// The global offset μ the vectors were fitted around (prediction = μ + u·v).
     #[arg(long, conflicts_with = "center", allow_hyphen_values = true)]
     mu: Option<f64>,
-    /// Or: μ = mean of the training ratings (global) or 0 (none, the default).
+    /// Or: μ = mean of the training ratings (global) or 0 (none). One of --mu and --center
+    /// is required: a wrong μ shifts every prediction.
     #[arg(long, value_enum)]
     center: Option<CenterArg>,
     /// Prior precision λ the vectors were fitted with (used for uncertainty and fold-in).
@@ -70,6 +71,16 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
     }
     if args.mu.is_some_and(|mu| !mu.is_finite()) {
         return Err(UsageError("--mu must be a finite number".into()).into());
+    }
+    if args.mu.is_none() && args.center.is_none() {
+        return Err(UsageError(
+            "say which global offset μ the vectors were fitted around: --mu VALUE if you \
+             know it, --center global if it was the mean of the training ratings, or \
+             --center none if predictions are plain dot products (a wrong μ shifts every \
+             prediction)"
+                .into(),
+        )
+        .into());
     }
     let scale = args.input.scale()?;
     sextant::model::dir::check_target(&args.out)?;
@@ -113,7 +124,10 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         }
         None => None,
     };
-    let center = args.center.map_or(Center::None, Center::from);
+    let center = match (args.mu, args.center) {
+        (Some(_), _) => Center::Given,
+        (None, c) => c.map_or(Center::None, Center::from),
+    };
     let mu = match (args.mu, center) {
         (Some(mu), _) => mu,
         (None, Center::Global) => {
@@ -125,12 +139,7 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
                 .collect();
             train.iter().sum::<f64>() / train.len().max(1) as f64
         }
-        (None, Center::None) => 0.0,
-    };
-    let center = if args.mu.is_some_and(|mu| mu != 0.0) {
-        Center::Global
-    } else {
-        center
+        (None, Center::None | Center::Given) => 0.0,
     };
     let factors = FactorModel {
         rank: users.rank,

@@ -22,9 +22,8 @@ pub struct InfoArgs {
 
 pub fn run(args: &InfoArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model)?;
-    output::print(&summary::render(
-        &model,
-        &args.model.display().to_string(),
+    output::print(
+        &summary::render(&model, &args.model.display().to_string(), args.format)?,
         args.format,
-    )?)
+    )
 }

@@ -99,6 +99,16 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
     }
 }
 
+pub use output::readable;
+
+/// True for errors whose message already puts their operating-system cause in words.
+pub fn explains_its_source(err: &(dyn std::error::Error + 'static)) -> bool {
+    matches!(
+        err.downcast_ref::<OutputError>(),
+        Some(OutputError::Io { .. })
+    ) || matches!(err.downcast_ref::<SaveError>(), Some(SaveError::Io { .. }))
+}
+
 /// A problem with how sextant was called that clap cannot see (exit code 2).
 #[derive(Debug, thiserror::Error)]
 #[error("{0}")]

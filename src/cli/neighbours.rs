@@ -197,7 +197,7 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text)
+    output::print(&text, args.format)
 }
 
 #[derive(Serialize)]
@@ -282,6 +282,6 @@ fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Resu
             );
             Ok(())
         }
-        None => output::print(&text),
+        None => output::print(&text, args.format),
     }
 }

@@ -168,5 +168,5 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text)
+    output::print(&text, args.format)
 }

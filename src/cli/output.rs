@@ -16,12 +16,30 @@ pub enum Format {
     Json,
 }
 
-/// Writes `text` to stdout in one go.
-pub fn print(text: &str) -> anyhow::Result<()> {
+/// Writes `text` to stdout in one go. Readable output (tables, Markdown, plain text) shows
+/// control characters from ids, titles and notes escaped (`\x1b`), so a hostile id cannot
+/// rewrite the terminal; CSV keeps the exact bytes (JSON escapes them itself).
+pub fn print(text: &str, format: Format) -> anyhow::Result<()> {
+    let text = match format {
+        Format::Table => readable(text),
+        Format::Csv | Format::Json => std::borrow::Cow::Borrowed(text),
+    };
     let mut out = std::io::stdout().lock();
     out.write_all(text.as_bytes())?;
     out.flush()?;
     Ok(())
+}
+
+/// `text` with every control character but the line break escaped.
+pub fn readable(text: &str) -> std::borrow::Cow<'_, str> {
+    if !text
+        .chars()
+        .any(|c| c != '\n' && sextant::text::needs_escape(c))
+    {
+        return std::borrow::Cow::Borrowed(text);
+    }
+    let lines: Vec<_> = text.split('\n').map(sextant::text::escaped).collect();
+    std::borrow::Cow::Owned(lines.join("\n"))
 }
 
 /// Appends one CSV row (RFC 4180 quoting where needed) to `out`.

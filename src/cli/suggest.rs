@@ -84,7 +84,7 @@ pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text)
+    output::print(&text, args.format)
 }
 
 /// The printed rows of a list of suggestions.

@@ -158,6 +158,7 @@ fn table(model: &Model, label: &str) -> String {
     let center = match m.center {
         sextant::model::Center::Global => "global mean of the training ratings",
         sextant::model::Center::None => "no centring",
+        sextant::model::Center::Given => "given with --mu when imported",
     };
     line(
         "rank",
@@ -280,5 +281,5 @@ pub fn save_and_print(
         Ok(_) => {}
         Err(e) => eprintln!("warning: the carried-over curator notes cannot be read: {e}"),
     }
-    super::output::print(&render(model, &out.display().to_string(), format)?)
+    super::output::print(&render(model, &out.display().to_string(), format)?, format)
 }

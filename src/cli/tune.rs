@@ -291,7 +291,7 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
             UsageError("no fit of the grid succeeded, so no model was written".into()).into(),
         );
     }
-    output::print(&text)
+    output::print(&text, args.format)
 }
 
 fn render(report: &Report<'_>, best: Option<usize>, format: Format) -> anyhow::Result<String> {

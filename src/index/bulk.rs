@@ -38,6 +38,9 @@ pub fn all_neighbours(
     k: usize,
 ) -> Vec<Vec<Neighbour>> {
     let count = vectors.len() / width.max(1);
+    // More neighbours than other rows is every other row: memory follows the catalogue,
+    // never the request.
+    let k = k.min(count.saturating_sub(1));
     if count == 0 || width == 0 || k == 0 {
         return vec![Vec::new(); count];
     }
@@ -102,6 +105,7 @@ pub fn all_neighbours_auto(
     k: usize,
 ) -> Vec<Vec<Neighbour>> {
     let count = vectors.len() / width.max(1);
+    let k = k.min(count.saturating_sub(1));
     let index = super::NeighbourIndex::build(vectors, width, metric, super::Path::Auto);
     if !index.uses_tree() {
         return all_neighbours(vectors, width, metric, k);

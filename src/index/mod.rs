@@ -69,7 +69,8 @@ impl TopK {
     fn new(k: usize) -> Self {
         Self {
             k,
-            best: Vec::with_capacity(k + 1),
+            // Grows as needed: a huge k must not reserve memory the rows cannot fill.
+            best: Vec::with_capacity(k.min(4096) + 1),
         }
     }
 
@@ -445,6 +446,7 @@ impl NeighbourIndex {
     /// Search over searched-point numbers; `exclude` is a searched-point number.
     fn search(&self, query: &[f64], k: usize, exclude: Option<u32>) -> Vec<Neighbour> {
         let w = self.width;
+        let k = k.min(self.spatial.len());
         let wanted = k + usize::from(exclude.is_some());
         let candidates = self.spatial.candidates(query, wanted);
         let keep = |s: u32| Some(s) != exclude;
@@ -532,6 +534,8 @@ impl InnerProductIndex {
         K: Fn(u32) -> bool + Sync,
     {
         let w = self.width;
+        let n = n.min(self.spatial.len());
+        let rejected = rejected.min(self.spatial.len());
         let mut lifted = query.to_vec();
         lifted.push(0.0);
         let candidates = self.spatial.candidates(&lifted, n + rejected);

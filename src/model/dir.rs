@@ -152,7 +152,7 @@ impl ModelDir {
 
     /// Removes temporary files a killed writer left (only under the exclusive lock).
     pub fn remove_leftovers(&self) {
-        remove_leftovers(self.path());
+        remove_model_leftovers(self.path());
     }
 }
 
@@ -206,6 +206,30 @@ fn read_locked(lock: &DirLock, name: &str, max_bytes: u64) -> Result<Option<Vec<
         .read_to_end(&mut bytes)
         .map_err(|e| DataError::read(&path, e))?;
     Ok(Some(bytes))
+}
+
+/// A temporary file of a killed writer: ours ([`TEMP_PREFIX`]) or the notes writer of
+/// earlier versions (`.annotations.ron.<pid>.tmp`).
+fn is_leftover(name: &str) -> bool {
+    is_temp_name(name)
+        || name
+            .strip_prefix(".annotations.ron.")
+            .and_then(|rest| rest.strip_suffix(".tmp"))
+            .is_some_and(|pid| !pid.is_empty() && pid.bytes().all(|b| b.is_ascii_digit()))
+}
+
+/// Removes leftovers of killed writers from a model directory (only under its exclusive
+/// lock, where no live writer can be at work).
+fn remove_model_leftovers(dir: &Path) {
+    remove_leftovers(dir);
+    if let Ok(entries) = fs::read_dir(dir) {
+        for entry in entries.flatten() {
+            let name = entry.file_name().to_string_lossy().into_owned();
+            if is_leftover(&name) && entry.file_type().is_ok_and(|t| t.is_file()) {
+                let _ = fs::remove_file(entry.path());
+            }
+        }
+    }
 }
 
 fn not_a_model(path: &Path, reason: &str) -> DataError {
@@ -315,7 +339,7 @@ fn inspect_target(dir: &Path) -> Result<Target, SaveError> {
             .file_name()
             .to_string_lossy()
             .into_owned();
-        if !is_temp_name(&name) {
+        if !is_leftover(&name) {
             names.push(name);
         }
     }
@@ -417,7 +441,7 @@ pub fn save_model(dir: &Path, model: &Model) -> Result<(), SaveError> {
 
 /// Under the target's exclusive lock: check it again, carry the notes over, swap.
 fn swap_in(dir: &Path, staging: &Staging, lock: &DirLock) -> Result<(), SaveError> {
-    remove_leftovers(dir);
+    remove_model_leftovers(dir);
     let target = inspect_target(dir)?;
     if target == Target::Model {
         // Read through the lock this process already holds: a second lock on the same

@@ -24,6 +24,9 @@ pub enum Center {
     Global,
     /// μ = 0.
     None,
+    /// μ given by the user (`import --mu`): the offset the vectors were fitted around
+    /// elsewhere. Not a fitting option.
+    Given,
 }
 
 impl Center {
@@ -32,6 +35,16 @@ impl Center {
         match self {
             Self::Global => "global",
             Self::None => "none",
+            Self::Given => "given",
+        }
+    }
+
+    /// What μ is, in words, wherever it is shown beside its value.
+    pub fn mu_label(self) -> &'static str {
+        match self {
+            Self::Global => "global mean μ",
+            Self::None => "μ (no centring)",
+            Self::Given => "μ (given on import)",
         }
     }
 }
@@ -76,6 +89,9 @@ impl FitOptions {
         let bad = |m: String| Err(FitError::Option(m));
         if self.rank == 0 {
             return bad("--rank must be at least 1".into());
+        }
+        if self.center == Center::Given {
+            return bad("a fit computes μ itself: --center is global or none".into());
         }
         if self.rank > 1024 {
             return bad(format!(
@@ -214,7 +230,7 @@ impl<'a> Fitter<'a> {
         }
         let mu = match options.center {
             Center::Global => train().map(|r| r.value).sum::<f64>() / train_count as f64,
-            Center::None => 0.0,
+            Center::None | Center::Given => 0.0,
         };
         if options.lambda == 0.0 {
             guard_underdetermined(ratings, d)?;

@@ -255,7 +255,9 @@ impl App {
             "explanation-{who}-{}.txt",
             file_safe(self.model.ratings.items.name(e.item))
         );
-        let text = sextant::analysis::plain::plain_explanation(&self.model, e) + "\n";
+        let text = sextant::analysis::plain::plain_explanation(&self.model, e);
+        let lines: Vec<_> = text.split('\n').map(sextant::text::escaped).collect();
+        let text = lines.join("\n") + "\n";
         Some((name, text))
     }
 

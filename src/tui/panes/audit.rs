@@ -123,7 +123,7 @@ pub fn render(app: &mut App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             m.actual,
             m.predicted,
             m.residual(),
-            app.model.ratings.users.name(m.user),
+            sextant::text::escaped(app.model.ratings.users.name(m.user)),
             fit(app.title(m.item), (body.width as usize).saturating_sub(32))
         )));
     }

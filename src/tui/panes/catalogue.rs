@@ -39,7 +39,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         .map(|(offset, &j)| {
             let count = format!("{:>5}", app.item_counts[j as usize]);
             let category = app.category(j).unwrap_or("");
-            let id = app.model.ratings.items.name(j);
+            let id = sextant::text::escaped(app.model.ratings.items.name(j));
             // id, space, title, " " + 12-wide category, 5-wide count.
             let title_width = width.saturating_sub(id.len() + 1 + 13 + count.len());
             let mark = if app.has_note(j) { "✎" } else { " " };

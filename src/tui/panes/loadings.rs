@@ -105,7 +105,10 @@ fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     };
     let number = app.factor_selected + 1;
     let heading = match app.notes.current.factor_label(number) {
-        Some(label) => format!("factor {number} ({label}) — most positive:"),
+        Some(label) => format!(
+            "factor {number} ({}) — most positive:",
+            sextant::text::escaped(label)
+        ),
         None => format!("factor {number} — most positive:"),
     };
     let favours = |list: &[String]| {

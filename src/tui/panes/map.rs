@@ -68,7 +68,10 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         .collect::<Vec<_>>()
         .join(" ");
     let canvas = Canvas::default()
-        .block(framed(title, true, theme).title_bottom(Line::raw(format!(" {legend}"))))
+        .block(
+            framed(title, true, theme)
+                .title_bottom(Line::raw(format!(" {}", sextant::text::escaped(&legend)))),
+        )
         .marker(Marker::Braille)
         .x_bounds([cx - hx, cx + hx])
         .y_bounds([cy - hy, cy + hy])

@@ -192,7 +192,11 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             "predicted {:.2} → {} ({sd}); {actual}",
             e.predicted, e.rounded
         )),
-        Line::raw(format!("  {:+.3}  global mean", e.mu)),
+        Line::raw(format!(
+            "  {:+.3}  {}",
+            e.mu,
+            app.model.manifest.center.mu_label()
+        )),
     ];
     for c in e.contributions.iter().take(4) {
         lines.push(Line::raw(format!("  {:+.3}  factor {}", c.value, c.factor)));

@@ -20,7 +20,10 @@ pub fn framed(title: String, focused: bool, theme: Theme) -> Block<'static> {
     Block::default()
         .borders(Borders::ALL)
         .border_style(theme.border(focused))
-        .title(title)
+        .title(match sextant::text::escaped(&title) {
+            std::borrow::Cow::Borrowed(_) => title,
+            std::borrow::Cow::Owned(shown) => shown,
+        })
         .title_style(theme.title())
 }
 
@@ -32,10 +35,12 @@ pub fn window_start(selected: usize, len: usize, height: usize) -> usize {
     selected.saturating_sub(height / 2).min(len - height)
 }
 
-/// Cuts `text` to `width` characters, marking the cut with an ellipsis.
+/// Cuts `text` to `width` characters, marking the cut with an ellipsis. Control characters
+/// (from ids, titles, categories, notes) are shown escaped, as `\x1b`, before the cut.
 pub fn fit(text: &str, width: usize) -> String {
+    let text = sextant::text::escaped(text);
     if text.chars().count() <= width {
-        return text.to_owned();
+        return text.into_owned();
     }
     let mut out: String = text.chars().take(width.saturating_sub(1)).collect();
     out.push('…');

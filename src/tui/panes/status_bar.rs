@@ -34,12 +34,15 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             };
             Line::from(vec![
                 Span::styled(label, theme.key()),
-                Span::raw(app.prompt_input.clone()),
+                Span::raw(sextant::text::escaped(&app.prompt_input).into_owned()),
                 Span::styled("▏", theme.key()),
                 Span::styled(format!("   {done} · Esc cancel"), theme.muted()),
             ])
         }
-        _ if !app.status.is_empty() => Line::styled(app.status.clone(), theme.warning()),
+        _ if !app.status.is_empty() => Line::styled(
+            sextant::text::escaped(&app.status).into_owned(),
+            theme.warning(),
+        ),
         _ => {
             let mut spans = Vec::new();
             for b in BINDINGS.iter().filter(|b| !b.hint.is_empty()) {
