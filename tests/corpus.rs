@@ -65,6 +65,9 @@ const CASES: &[Case] = &[
     ("ratings-trailing-text.csv", Feed::Ratings(NONE), 2, Some(3), "rating '4stars' is not a number"),
     ("ratings-unterminated-quote.csv", Feed::Ratings(NONE), 2, Some(2), "a quote opened on this line is never closed"),
     ("ratings-user-id-only-spaces.csv", Feed::Ratings(NONE), 2, Some(3), "the user id is empty"),
+    ("ratings-utf16-no-bom.csv", Feed::Ratings(NONE), 2, None, "the file is UTF-16 (little-endian); save it as UTF-8"),
+    ("ratings-utf32-bom.csv", Feed::Ratings(NONE), 2, None, "the file is UTF-32 (little-endian, with a byte-order mark); save it as UTF-8"),
+    ("ratings-line-over-1mib.csv", Feed::Ratings(NONE), 2, Some(3), "the line is longer than 1048576 bytes"),
     ("ratings-wrong-delimiter.csv", Feed::Ratings(NONE), 2, Some(1), "missing column 'user' in the header (found: user;item;rating)"),
     // Items metadata.
     ("meta-duplicate-item.csv", Feed::Meta, 2, Some(4), "item 'r1' is described twice (first on line 2)"),
@@ -106,6 +109,8 @@ const CASES: &[Case] = &[
     ("notes-future-version.ron", Feed::Notes, 2, None, "notes version 7 is not supported"),
     ("notes-non-utf8.ron", Feed::Notes, 2, None, "is not valid UTF-8 text"),
     ("notes-not-ron.ron", Feed::Notes, 2, Some(1), "not a valid notes file"),
+    ("notes-escape-sequence.ron", Feed::Notes, 2, None, "the note holds the control character \\x1b"),
+    ("notes-line-breaks.ron", Feed::Notes, 0, None, ""),
     ("notes-note-too-long.ron", Feed::Notes, 2, None, "the note is 5000 characters long; at most 4000 are kept"),
     ("notes-pair-same-item.ron", Feed::Notes, 2, None, "pair ('r1', 'r1') names the same item twice"),
     ("notes-unknown-field.ron", Feed::Notes, 2, Some(4), "Unexpected field named `colours`"),
