@@ -592,3 +592,32 @@ fn a_missing_parent_folder_is_named_with_what_to_do() {
         "{stderr}"
     );
 }
+
+#[test]
+fn a_device_named_like_a_parquet_table_is_refused_not_streamed_forever() {
+    let tmp = tempfile::tempdir().unwrap();
+    let fake = tmp.path().join("users.parquet");
+    std::os::unix::fs::symlink("/dev/zero", &fake).unwrap();
+    let model = repo("demo-data/model");
+    let out = tmp.path().join("out");
+    let result = sextant(&[
+        "import",
+        "--ratings",
+        model.join("ratings.csv").to_str().unwrap(),
+        "--users",
+        fake.to_str().unwrap(),
+        "--items",
+        model.join("items.csv").to_str().unwrap(),
+        "--center",
+        "none",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(result.status.code(), Some(2));
+    assert!(
+        text(&result.stderr).contains("users.parquet: is not a regular file"),
+        "{}",
+        text(&result.stderr)
+    );
+    assert!(!out.exists());
+}

@@ -175,10 +175,18 @@ fn read_table(
     role: &str,
     columns: &sextant::data::parquet::ParquetColumns,
 ) -> Result<(sextant::data::FactorTable, sextant::model::manifest::Input), DataError> {
-    let mut reader = inputs::open(path)?;
     let parquet = path
         .extension()
         .is_some_and(|e| e.eq_ignore_ascii_case("parquet"));
+    // Parquet is read by seeking, so it must be a regular file: a device or pipe would be
+    // streamed for its fingerprint without end (and a FIFO would block the open).
+    if parquet && std::fs::metadata(path).is_ok_and(|m| !m.is_file()) {
+        return Err(DataError::in_file(
+            path,
+            "is not a regular file; a Parquet table is read by seeking, so give a file",
+        ));
+    }
+    let mut reader = inputs::open(path)?;
     let table = if parquet {
         // Fingerprint the bytes, then read the columns.
         std::io::copy(&mut reader, &mut std::io::sink()).map_err(|e| DataError::read(path, e))?;

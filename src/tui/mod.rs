@@ -275,6 +275,31 @@ mod tests {
     }
 
     #[test]
+    fn control_characters_in_titles_and_notes_are_shown_escaped() {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
+        let mut model = sextant::model::load_model(&dir).expect("demo model loads");
+        let meta = model.meta.as_mut().expect("the demo has metadata");
+        for row in meta.rows.iter_mut().flatten() {
+            row.title = Some(format!("\x1b[2J{}\x07", row.title.as_deref().unwrap_or("")));
+            row.category = Some("soups\x1b]0;owned\x07".into());
+        }
+        let mut app = App::new(model, "demo");
+        let first = app.visible[0];
+        let id = app.model.ratings.items.name(first).to_owned();
+        app.notes
+            .current
+            .set_item_note(&id, "two\nlines")
+            .expect("line breaks are kept");
+        let text = screen(&mut app, 120, 30);
+        assert!(
+            !text.contains('\x1b') && !text.contains('\x07'),
+            "raw control characters reached the screen"
+        );
+        assert!(text.contains("\\x1b[2J"), "{text}");
+        assert!(text.contains("note: two\\nlines"), "{text}");
+    }
+
+    #[test]
     fn every_pane_shows_what_a_person_reads_at_80_by_24() {
         let mut app = demo_app();
         let text = screen(&mut app, 80, 24);
