@@ -7,7 +7,7 @@ use std::io::Write as _;
 
 use clap::Args;
 use sextant::analysis::audit::{AuditOptions, audit};
-use sextant::files::export::ExportFolder;
+use sextant::files::export::{ExportFolder, FolderKind};
 use sextant::files::output::write_file;
 use sextant::model::notes::load_with_notes;
 use sextant::report;
@@ -30,7 +30,7 @@ pub struct AuditArgs {
     #[arg(long, value_name = "FILE")]
     report: Option<PathBuf>,
     /// Write the figures as CSV files into this folder: a new or empty one, or one an
-    /// earlier audit or export wrote (nothing else is overwritten).
+    /// earlier audit --csv wrote (it holds sextant-audit.ron); nothing else is overwritten.
     #[arg(long, value_name = "DIR")]
     csv: Option<PathBuf>,
     /// Neighbours per item for the coherence check.
@@ -85,7 +85,7 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
     if let Some(dir) = &args.csv {
         let files = report::csv_files(&model, &found, &notes);
         let names: Vec<&str> = files.iter().map(|(name, _)| *name).collect();
-        let mut folder = ExportFolder::open(dir, &names)?;
+        let mut folder = ExportFolder::open(dir, FolderKind::AuditCsv, &names)?;
         for (file, content) in &files {
             folder.write(file, |w| w.write_all(content.as_bytes()))?;
         }

@@ -8,7 +8,7 @@ use std::sync::Arc;
 use std::io::Write as _;
 
 use clap::{Args, ValueEnum};
-use sextant::files::export::ExportFolder;
+use sextant::files::export::{ExportFolder, FolderKind};
 use sextant::model::load_model;
 
 use super::output;
@@ -67,7 +67,7 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model)?;
     let names = file_names(args.format);
     // Refuses a folder of someone else's files before any work is done.
-    let mut folder = ExportFolder::open(&args.out, &names)?;
+    let mut folder = ExportFolder::open(&args.out, FolderKind::Export, &names)?;
     let f = &model.factors;
     let r = &model.ratings;
     let held: Vec<_> = r.entries.iter().filter(|e| e.holdout).collect();

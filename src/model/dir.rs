@@ -259,7 +259,14 @@ fn open_inside(_dir: &File, dir_path: &Path, name: &str) -> io::Result<File> {
 
 fn is_symlink_error(e: &io::Error) -> bool {
     // O_NOFOLLOW on a symlink fails with ELOOP.
-    e.raw_os_error() == Some(40) || e.to_string() == "symbolic link"
+    #[cfg(target_os = "linux")]
+    {
+        e.raw_os_error() == Some(rustix::io::Errno::LOOP.raw_os_error())
+    }
+    #[cfg(not(target_os = "linux"))]
+    {
+        e.to_string() == "symbolic link"
+    }
 }
 
 impl ModelSource for ModelDir {
