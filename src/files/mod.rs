@@ -173,7 +173,8 @@ pub enum LockKind {
 
 /// An advisory lock (`flock`) on a directory, released on drop. The lock is taken on the
 /// directory itself and re-checked after it is granted: if another directory was swapped in
-/// at the path meanwhile, the new one is locked instead. The handle also reads files inside
+/// at the path meanwhile, the new one is locked instead. On a file system that has no locks
+/// (some network mounts) the handle is taken unlocked. The handle also reads files inside
 /// the directory that was locked (see [`crate::model::dir`]).
 #[derive(Debug)]
 pub struct DirLock {
@@ -199,7 +200,20 @@ impl DirLock {
                     LockKind::Shared => FlockOperation::LockShared,
                     LockKind::Exclusive => FlockOperation::LockExclusive,
                 };
-                flock(&dir, op)?;
+                match flock(&dir, op) {
+                    Ok(()) => {}
+                    // File systems without locks (some network mounts): go on unlocked
+                    // rather than refuse to read or write at all.
+                    Err(e)
+                        if e == rustix::io::Errno::NOLCK || e == rustix::io::Errno::OPNOTSUPP =>
+                    {
+                        return Ok(Self {
+                            dir,
+                            path: path.to_path_buf(),
+                        });
+                    }
+                    Err(e) => return Err(e.into()),
+                }
                 let held = fstat(&dir)?;
                 let now = stat(path)?;
                 if held.st_ino != now.st_ino || held.st_dev != now.st_dev {
