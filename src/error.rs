@@ -47,7 +47,7 @@ impl fmt::Display for Location {
 #[derive(Debug, thiserror::Error)]
 pub enum DataError {
     /// The file could not be read (missing, unreadable, not a file).
-    #[error("{location}: cannot read: {source}")]
+    #[error("{location}: cannot read: {}", crate::files::describe_read(.source))]
     Read {
         /// The file.
         location: Location,

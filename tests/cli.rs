@@ -526,7 +526,12 @@ fn tampered_models_are_refused_with_file_line_and_reason() {
             "\nr0001,",
             "items-meta.csv: describes item 'r0001', which the model does not have",
         ),
-        ("items.csv", "", "", "items.csv: cannot read"),
+        (
+            "items.csv",
+            "",
+            "",
+            "items.csv: is missing: the model directory is incomplete",
+        ),
     ];
     let tmp = tempfile::tempdir().unwrap();
     for (k, (file, from, to, expected)) in cases.into_iter().enumerate() {

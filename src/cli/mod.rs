@@ -107,6 +107,10 @@ pub fn explains_its_source(err: &(dyn std::error::Error + 'static)) -> bool {
         err.downcast_ref::<OutputError>(),
         Some(OutputError::Io { .. })
     ) || matches!(err.downcast_ref::<SaveError>(), Some(SaveError::Io { .. }))
+        || matches!(
+            err.downcast_ref::<DataError>(),
+            Some(DataError::Read { .. })
+        )
 }
 
 /// A problem with how sextant was called that clap cannot see (exit code 2).

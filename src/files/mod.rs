@@ -295,8 +295,29 @@ pub fn describe_io(error: &io::Error) -> String {
         _ => "",
     };
     if advice.is_empty() {
-        error.to_string()
+        os_message(error)
     } else {
         advice.to_owned()
+    }
+}
+
+/// A read failure in words: what happened, without the bare error number.
+pub fn describe_read(error: &io::Error) -> String {
+    use io::ErrorKind as K;
+    match error.kind() {
+        K::NotFound => "it does not exist; check the path".into(),
+        K::PermissionDenied => "permission denied".into(),
+        K::IsADirectory => "it is a folder, not a file".into(),
+        K::NotADirectory => "a part of the path is not a folder".into(),
+        _ => os_message(error),
+    }
+}
+
+/// The operating system's message without its " (os error N)" tail.
+fn os_message(error: &io::Error) -> String {
+    let text = error.to_string();
+    match (error.raw_os_error(), text.find(" (os error ")) {
+        (Some(_), Some(cut)) => text[..cut].to_owned(),
+        _ => text,
     }
 }

@@ -272,10 +272,14 @@ fn is_symlink_error(e: &io::Error) -> bool {
 impl ModelSource for ModelDir {
     fn read(&self, name: &str) -> Result<Vec<u8>, DataError> {
         self.read_file(name, u64::MAX)?.ok_or_else(|| {
-            DataError::read(
-                &self.path().join(name),
-                io::Error::new(io::ErrorKind::NotFound, "the file is missing"),
-            )
+            if name == MANIFEST {
+                not_a_model(self.path(), "holds no manifest.ron")
+            } else {
+                DataError::in_file(
+                    &self.path().join(name),
+                    "is missing: the model directory is incomplete; fit or import it again",
+                )
+            }
         })
     }
 
