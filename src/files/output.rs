@@ -211,9 +211,7 @@ impl Write for Output {
 
 /// Writes `bytes` to `path` (see the module documentation for what happens at the path).
 pub fn write_file(path: &Path, bytes: &[u8]) -> Result<(), OutputError> {
-    let mut out = Output::create(path)?;
-    out.write_all(bytes).map_err(|e| OutputError::io(path, e))?;
-    out.finish()
+    write_with(path, |w| w.write_all(bytes))
 }
 
 /// Streams into `path` through `write`, then completes it.
