@@ -112,7 +112,7 @@ fn explore_the_demo_and_leave_the_terminal_as_it_was() {
     session.keys(&["?"]);
     session.wait_for("show or hide this help");
     session.keys(&["Escape", "q"]);
-    let after = session.wait_for("EXITED");
+    let after = session.wait_for("icanon");
     assert!(after.contains("EXITED 0"), "{after}");
     let modes = after
         .lines()
@@ -162,7 +162,7 @@ fn sigterm_and_sighup_restore_the_terminal_like_quit() {
             .status()
             .unwrap();
         assert!(status.success());
-        let after = session.wait_for("EXITED");
+        let after = session.wait_for("icanon");
         assert!(
             after.contains(&format!("EXITED {code}")),
             "{signal}: {after}"
@@ -180,4 +180,72 @@ fn sigterm_and_sighup_restore_the_terminal_like_quit() {
             "{signal}: terminal modes restored: {after}"
         );
     }
+}
+
+/// Whether process `pid` still runs (a zombie waiting for its parent to collect it has
+/// finished: it holds no memory and uses no CPU).
+fn is_running(pid: &str) -> bool {
+    std::fs::read_to_string(format!("/proc/{pid}/stat")).is_ok_and(|stat| {
+        // The state follows the parenthesised command name.
+        let state = stat.rsplit(") ").next().and_then(|s| s.chars().next());
+        !matches!(state, Some('Z' | 'X') | None)
+    })
+}
+
+/// CPU time (user + system) process `pid` has used, in clock ticks.
+fn cpu_ticks(pid: &str) -> u64 {
+    let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).unwrap();
+    let fields: Vec<&str> = stat.rsplit(") ").next().unwrap().split(' ').collect();
+    // utime and stime are fields 14 and 15 of the whole line, 12 and 13 after the name.
+    fields[11].parse::<u64>().unwrap() + fields[12].parse::<u64>().unwrap()
+}
+
+#[test]
+fn losing_the_terminal_ends_the_explorer_within_two_seconds() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    // The explorer is the pane's own process, as under ssh: when the session goes, its
+    // terminal hangs up.
+    let session = Session::start("sextant-lost", &format!("'{binary}'"));
+    session.wait_for("Catalogue · 400 items");
+    let pane = Command::new("tmux")
+        .args(["list-panes", "-t", &session.0, "-F", "#{pane_pid}"])
+        .output()
+        .unwrap();
+    let pid = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+    assert!(is_running(&pid), "the explorer runs as the pane's process");
+    // Open the help and start typing a member id: the loss must end any mode.
+    session.keys(&["?", "Escape", "u", "m"]);
+    let status = Command::new("tmux")
+        .args(["kill-session", "-t", &session.0])
+        .status()
+        .unwrap();
+    assert!(status.success());
+    let start = Instant::now();
+    while is_running(&pid) {
+        assert!(
+            start.elapsed() < Duration::from_secs(2),
+            "the explorer still runs {:?} after its terminal went away (cpu ticks {})",
+            start.elapsed(),
+            cpu_ticks(&pid)
+        );
+        sleep(Duration::from_millis(20));
+    }
+}
+
+#[test]
+fn an_idle_explorer_sleeps() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    let session = Session::start("sextant-idle", &format!("'{binary}'"));
+    session.wait_for("Catalogue · 400 items");
+    let pane = Command::new("tmux")
+        .args(["list-panes", "-t", &session.0, "-F", "#{pane_pid}"])
+        .output()
+        .unwrap();
+    let pid = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+    sleep(Duration::from_millis(500));
+    let before = cpu_ticks(&pid);
+    sleep(Duration::from_secs(3));
+    let used = cpu_ticks(&pid) - before;
+    // A tick is 10 ms: a loop that woke to poll would use several in three seconds.
+    assert!(used <= 1, "idle explorer used {used} clock ticks in 3 s");
 }

@@ -52,12 +52,33 @@ pub fn open(
 ) -> anyhow::Result<()> {
     let mut app = tui::app::App::new(model, label);
     app.notes = notes;
-    if let Some(signal) = tui::run(app)? {
-        // The terminal is restored; leave the way the signal would have, by its number.
-        eprintln!("sextant: stopped by signal {signal}; the terminal is restored");
-        std::process::exit(128 + signal);
+    let ending = tui::run(&mut app);
+    let rescued = app.rescue_notes();
+    let ending = ending?;
+    // The terminal may be gone: a message that cannot be written is not an error.
+    let say = |text: &str| {
+        use std::io::Write;
+        let _ = writeln!(
+            std::io::stderr(),
+            "sextant: {}",
+            sextant::text::escaped(text)
+        );
+    };
+    if let Some(text) = &rescued {
+        say(text);
     }
-    Ok(())
+    match ending {
+        tui::Ending::Quit => Ok(()),
+        tui::Ending::Signal(signal) => {
+            // The terminal is restored; leave the way the signal would have, by its number.
+            say(&format!(
+                "stopped by signal {signal}; the terminal is restored"
+            ));
+            std::process::exit(128 + signal);
+        }
+        // SIGHUP's number: the conventional exit for a session whose terminal went away.
+        tui::Ending::TerminalLost(_) => std::process::exit(128 + 1),
+    }
 }
 
 /// Times what a person waits for: load, first frame, and frames after keystrokes.

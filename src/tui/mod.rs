@@ -5,16 +5,15 @@
 
 pub mod action;
 pub mod app;
+pub mod event;
 pub mod keymap;
 pub mod panes;
 pub mod theme;
 pub mod workbench;
 
 use std::io;
-use std::sync::Arc;
-use std::sync::atomic::{AtomicUsize, Ordering};
 
-use ratatui::crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
+use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::text::Line;
 use ratatui::widgets::Paragraph;
@@ -28,11 +27,23 @@ pub const MIN_WIDTH: u16 = 60;
 /// Smallest window height.
 pub const MIN_HEIGHT: u16 = 12;
 
-/// Runs the explorer until the person quits, or until SIGTERM or SIGHUP arrives; either
-/// way the terminal is restored (raw mode off, main screen, mouse capture off) before this
-/// returns. Returns the signal that ended it, if one did. The app (and its indexes) must
-/// be built before this is called, so that load errors print on the normal screen.
-pub fn run(mut app: App) -> io::Result<Option<i32>> {
+/// How an explorer session ended.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Ending {
+    /// The person quit.
+    Quit,
+    /// A termination signal arrived (its number).
+    Signal(i32),
+    /// The terminal went away (why, in words); nobody is there to read a message.
+    TerminalLost(String),
+}
+
+/// Runs the explorer until the person quits, a termination signal arrives or the terminal
+/// goes away. The terminal is restored (raw mode off, main screen, mouse capture off)
+/// before this returns, unless it is gone. Notes that could not be saved are rescued on
+/// every ending (see [`app::App::rescue_notes`]). The app (and its indexes) must be built
+/// before this is called, so that load errors print on the normal screen.
+pub fn run(app: &mut App) -> io::Result<Ending> {
     // Mouse capture is ours to undo: on the way out, and in a panic before ratatui's own
     // hook restores the rest of the terminal.
     let previous = std::panic::take_hook();
@@ -43,55 +54,50 @@ pub fn run(mut app: App) -> io::Result<Option<i32>> {
         );
         previous(info);
     }));
-    // A termination request or a closed terminal ends the loop like `q` does; the caught
-    // signal's number is kept so the process can exit with 128 + it.
-    let caught = Arc::new(AtomicUsize::new(0));
-    for signal in [signal_hook::consts::SIGTERM, signal_hook::consts::SIGHUP] {
-        signal_hook::flag::register_usize(signal, Arc::clone(&caught), signal as usize)?;
-    }
-    let mut terminal = ratatui::init();
+    let mut events = event::Events::start()?;
+    let mut terminal = ratatui::try_init()?;
     let mouse =
         ratatui::crossterm::execute!(io::stdout(), ratatui::crossterm::event::EnableMouseCapture);
-    let result = mouse.and_then(|()| event_loop(&mut terminal, &mut app, &caught));
-    let _ =
-        ratatui::crossterm::execute!(io::stdout(), ratatui::crossterm::event::DisableMouseCapture);
-    ratatui::restore();
-    result
+    let ending = match mouse {
+        Ok(()) => event_loop(&mut terminal, app, &mut events),
+        Err(e) => Ending::TerminalLost(format!("setting up the terminal failed: {e}")),
+    };
+    if matches!(ending, Ending::TerminalLost(_)) {
+        // Nothing to restore on a terminal that is gone; dropping the terminal would try
+        // to show the cursor on it and complain on stderr.
+        std::mem::forget(terminal);
+    } else {
+        let _ = ratatui::crossterm::execute!(
+            io::stdout(),
+            ratatui::crossterm::event::DisableMouseCapture
+        );
+        ratatui::try_restore()?;
+    }
+    Ok(ending)
 }
 
-fn event_loop(
-    terminal: &mut DefaultTerminal,
-    app: &mut App,
-    caught: &AtomicUsize,
-) -> io::Result<Option<i32>> {
+fn event_loop(terminal: &mut DefaultTerminal, app: &mut App, events: &mut event::Events) -> Ending {
     let theme = Theme::from_env();
     app.deferred.enabled = true;
-    let signal = || match caught.load(Ordering::Relaxed) {
-        0 => None,
-        s => Some(s as i32),
-    };
-    while !app.quit {
+    loop {
         // Catch up on deferred work only when no input is waiting.
-        if !event::poll(std::time::Duration::ZERO)? {
+        if events.is_idle() {
             app.settle();
         }
-        terminal.draw(|frame| render(app, frame, theme))?;
-        // Wait for input, looking for signals a few times a second.
-        loop {
-            if let Some(s) = signal() {
-                return Ok(Some(s));
-            }
-            if event::poll(std::time::Duration::from_millis(100))? {
-                break;
-            }
+        if let Err(e) = terminal.draw(|frame| render(app, frame, theme)) {
+            return Ending::TerminalLost(format!("drawing failed: {e}"));
         }
-        match event::read()? {
-            Event::Key(key) if key.kind == KeyEventKind::Press => handle_key(app, key),
-            Event::Mouse(mouse) => handle_mouse(app, mouse),
-            _ => {}
+        match events.next() {
+            event::Event::Key(key) => handle_key(app, key),
+            event::Event::Mouse(mouse) => handle_mouse(app, mouse),
+            event::Event::Resize => {}
+            event::Event::Signal(signal) => return Ending::Signal(signal),
+            event::Event::TerminalLost(why) => return Ending::TerminalLost(why),
+        }
+        if app.quit {
+            return Ending::Quit;
         }
     }
-    Ok(signal())
 }
 
 /// Turns one key press into state changes (global keys first, then the mode's keys).

@@ -225,6 +225,49 @@ impl App {
         };
     }
 
+    /// Called on the way out, however the session ends: notes with edits that are not
+    /// saved are saved once more into the model's directory and, when that fails (or the
+    /// model has none), into a new directory under the user's state directory
+    /// (`$XDG_STATE_HOME/sextant`, else `~/.local/state/sextant`, else the system's
+    /// temporary directory). Returns what happened, for the person when they can read it.
+    pub fn rescue_notes(&mut self) -> Option<String> {
+        let state = std::env::var_os("XDG_STATE_HOME")
+            .filter(|v| !v.is_empty())
+            .map(std::path::PathBuf::from)
+            .or_else(|| {
+                std::env::var_os("HOME")
+                    .filter(|v| !v.is_empty())
+                    .map(|h| std::path::PathBuf::from(h).join(".local/state"))
+            })
+            .unwrap_or_else(std::env::temp_dir);
+        self.rescue_notes_in(&state.join("sextant"))
+    }
+
+    /// [`App::rescue_notes`], with the notes that cannot go into the model's directory
+    /// saved under `base`.
+    pub fn rescue_notes_in(&mut self, base: &std::path::Path) -> Option<String> {
+        if !self.notes.unsaved() {
+            return None;
+        }
+        if self.notes.dir().is_some() && self.notes.save().is_ok() {
+            return Some("curator notes saved into the model directory".into());
+        }
+        let stamp = std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(0, |d| d.as_secs());
+        let dir = base.join(format!("unsaved-notes-{stamp}-{}", std::process::id()));
+        let saved = std::fs::create_dir_all(&dir)
+            .map_err(|e| e.to_string())
+            .and_then(|()| self.notes.save_to(&dir).map_err(|e| e.to_string()));
+        Some(match saved {
+            Ok(_) => format!(
+                "curator notes that were not saved are in {} (copy it into the model directory to keep them)",
+                dir.join(sextant::model::store::ANNOTATIONS).display()
+            ),
+            Err(e) => format!("curator notes that were not saved are lost: {e}"),
+        })
+    }
+
     /// Whether item `j` has a curator's note.
     pub fn has_note(&self, j: u32) -> bool {
         self.notes
@@ -469,6 +512,27 @@ impl App {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn notes_left_unsaved_are_rescued_on_the_way_out() {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
+        let model = sextant::model::load_model(&dir).expect("demo model loads");
+        let mut app = App::new(model, "demo");
+        let state = tempfile::tempdir().expect("temp dir");
+        assert_eq!(app.rescue_notes_in(state.path()), None, "nothing to rescue");
+        // The demo has no directory: a note lives in memory only until rescued.
+        app.set_factor_label(0, "spice");
+        let said = app.rescue_notes_in(state.path()).expect("rescued");
+        let saved: Vec<_> = std::fs::read_dir(state.path())
+            .expect("rescue directory")
+            .map(|e| e.expect("entry").path())
+            .collect();
+        assert_eq!(saved.len(), 1, "{said}");
+        assert!(said.contains(&saved[0].display().to_string()), "{said}");
+        let notes = sextant::model::notes::read_notes(&saved[0]).expect("readable");
+        assert_eq!(notes.factor_label(1), Some("spice"));
+        assert_eq!(app.rescue_notes_in(state.path()), None, "saved now");
+    }
 
     #[test]
     fn steps_stay_on_the_scale() {
