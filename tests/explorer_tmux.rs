@@ -110,7 +110,7 @@ fn explore_the_demo_and_leave_the_terminal_as_it_was() {
     session.keys(&["1"]);
     session.wait_for("Catalogue ·");
     session.keys(&["?"]);
-    session.wait_for("show or hide this help");
+    session.wait_for("On the items screen");
     session.keys(&["Escape", "q"]);
     let after = session.wait_for("icanon");
     assert!(after.contains("EXITED 0"), "{after}");

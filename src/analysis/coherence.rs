@@ -78,6 +78,9 @@ pub struct ItemCoherence {
     pub p_low: f64,
     /// The category most common among the neighbours (lowest index on ties), if any.
     pub neighbour_category: Option<u32>,
+    /// The category other than its own most common among the neighbours (lowest index on
+    /// ties), if any: where the neighbours come from instead.
+    pub other_category: Option<u32>,
 }
 
 /// Coherence of one category.
@@ -115,6 +118,15 @@ pub struct Coherence {
 }
 
 impl Coherence {
+    /// The p-value at or below which an item's few same-category neighbours count as
+    /// unusual: the Benjamini–Hochberg cut over every examined item at
+    /// [`DISCOVERY_RATE`](crate::analysis::stats::DISCOVERY_RATE), so that among the items
+    /// called unusual about 5% are expected to be so by chance. `None` when none is.
+    pub fn unusual_cut(&self) -> Option<f64> {
+        let p: Vec<f64> = self.items.iter().map(|i| i.p_low).collect();
+        crate::analysis::stats::false_discovery_cut(&p, crate::analysis::stats::DISCOVERY_RATE)
+    }
+
     /// The `n` least coherent items: lowest lower-tail probability first, then lowest share,
     /// then item order.
     pub fn least_coherent(&self, n: usize) -> Vec<&ItemCoherence> {
@@ -194,12 +206,16 @@ pub fn coherence_sample(
             let same = tally[category as usize];
             let neighbours = found.len();
             let law = Hypergeometric::new(population - 1, sizes[category as usize] - 1, neighbours);
-            let neighbour_category = tally
-                .iter()
-                .enumerate()
-                .filter(|&(_, &t)| t > 0)
-                .max_by(|a, b| a.1.cmp(b.1).then(b.0.cmp(&a.0)))
-                .map(|(c, _)| c as u32);
+            let most = |skip: Option<u32>| {
+                tally
+                    .iter()
+                    .enumerate()
+                    .filter(|&(c, &t)| t > 0 && Some(c as u32) != skip)
+                    .max_by(|a, b| a.1.cmp(b.1).then(b.0.cmp(&a.0)))
+                    .map(|(c, _)| c as u32)
+            };
+            let neighbour_category = most(None);
+            let other_category = most(Some(category));
             ItemCoherence {
                 item: j as u32,
                 category,
@@ -209,6 +225,7 @@ pub fn coherence_sample(
                 expected: ratio(law.mean(), neighbours as f64),
                 p_low: law.at_most(same, &table),
                 neighbour_category,
+                other_category,
             }
         })
         .collect();

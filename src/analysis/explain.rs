@@ -214,7 +214,7 @@ pub fn explain_profile(
             .total_cmp(&a.value.abs())
             .then(a.factor.cmp(&b.factor))
     });
-    let predicted = f.mu + dot(u, v);
+    let predicted = f.predict_for(u, item);
     let rated = profile.rated;
     let mut nearest: Vec<Evidence> = rated
         .iter()
@@ -222,7 +222,7 @@ pub fn explain_profile(
         .map(|&(j, actual)| Evidence {
             item: j,
             actual,
-            predicted: f.mu + dot(u, f.item(j)),
+            predicted: f.predict_for(u, j),
             distance: squared_distance(f.item(j), v).sqrt(),
         })
         .collect();
@@ -246,6 +246,23 @@ pub fn explain_profile(
             user_low_support: rated.len() < rank,
             item_low_support: item_ratings < rank,
         },
+    }
+}
+
+/// How close two vectors are, by both measures neighbour lists show.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Closeness {
+    /// Euclidean distance.
+    pub distance: f64,
+    /// Cosine similarity (`None` when either vector is zero).
+    pub cosine: Option<f64>,
+}
+
+/// The distance and cosine between `a` and `b`.
+pub fn closeness(a: &[f64], b: &[f64]) -> Closeness {
+    Closeness {
+        distance: crate::index::squared_distance(a, b).sqrt(),
+        cosine: cosine(a, b),
     }
 }
 

@@ -15,7 +15,7 @@ pub mod stats;
 pub mod subspace;
 pub mod suggest;
 
-pub use explain::{Explanation, Posterior, cosine, explain};
+pub use explain::{Closeness, Explanation, Posterior, closeness, cosine, explain};
 pub use metrics::{ErrorMetrics, FitMetrics, error_metrics, fit_metrics};
 pub use projection::{Projection, pca_2d};
 pub use subspace::principal_angles;

@@ -133,9 +133,45 @@ pub fn modified_z_scores(values: &[f64]) -> Option<Vec<f64>> {
 /// The cut-off for [`modified_z_scores`] recommended by Iglewicz & Hoaglin.
 pub const OUTLIER_Z: f64 = 3.5;
 
+/// The Benjamini–Hochberg step-up cut for p-values `p` at false-discovery rate `q`
+/// (Benjamini & Hochberg, "Controlling the false discovery rate", JRSS B 57, 1995): the
+/// largest `p_(k)` with `p_(k) ≤ k q / m`. Every p-value at or below it is a discovery;
+/// `None` when there is none.
+pub fn false_discovery_cut(p: &[f64], q: f64) -> Option<f64> {
+    let mut sorted: Vec<f64> = p.iter().copied().filter(|v| !v.is_nan()).collect();
+    sorted.sort_by(f64::total_cmp);
+    let m = sorted.len() as f64;
+    sorted
+        .iter()
+        .enumerate()
+        .rev()
+        .find(|&(k, &v)| v <= (k + 1) as f64 * q / m)
+        .map(|(_, &v)| v)
+}
+
+/// The false-discovery rate the explorer and the audit report use to call a p-value
+/// unusual (common practice).
+pub const DISCOVERY_RATE: f64 = 0.05;
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn false_discovery_cut_matches_the_worked_example() {
+        // The 15 p-values of the worked example in Benjamini & Hochberg (1995), section
+        // 3.2 (values from memory): at q = 0.05 the procedure rejects the four smallest.
+        let p = [
+            0.0001, 0.0004, 0.0019, 0.0095, 0.0201, 0.0278, 0.0298, 0.0344, 0.0459, 0.3240, 0.4262,
+            0.5719, 0.6528, 0.7590, 1.0,
+        ];
+        assert_eq!(false_discovery_cut(&p, 0.05), Some(0.0095));
+        // Step-up: a large p-value under its own line lifts the cut over smaller ones
+        // above theirs.
+        assert_eq!(false_discovery_cut(&[0.04, 0.04], 0.05), Some(0.04));
+        assert_eq!(false_discovery_cut(&[0.2, 0.5], 0.05), None);
+        assert_eq!(false_discovery_cut(&[], 0.05), None);
+    }
 
     #[test]
     fn choose_and_pmf_by_hand() {

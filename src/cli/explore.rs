@@ -93,8 +93,9 @@ fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
     let loaded = start.elapsed();
     let mut app = tui::app::App::new(model, args.model.display().to_string());
     let mut terminal = Terminal::new(TestBackend::new(120, 40))?;
+    app.update(tui::action::Action::Resize(120, 40));
     let theme = tui::theme::Theme::plain();
-    terminal.draw(|frame| tui::render(&mut app, frame, theme))?;
+    terminal.draw(|frame| tui::render(&app, frame, theme))?;
     let first = start.elapsed();
     let keys = [
         KeyCode::Down,
@@ -115,12 +116,12 @@ fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
             &mut app,
             KeyEvent::new(keys[k % keys.len()], KeyModifiers::NONE),
         );
-        terminal.draw(|frame| tui::render(&mut app, frame, theme))?;
+        terminal.draw(|frame| tui::render(&app, frame, theme))?;
         times.push(t.elapsed().as_secs_f64());
         if k % 4 == 3 {
             let t = Instant::now();
             app.settle();
-            terminal.draw(|frame| tui::render(&mut app, frame, theme))?;
+            terminal.draw(|frame| tui::render(&app, frame, theme))?;
             settles.push(t.elapsed().as_secs_f64());
         }
     }

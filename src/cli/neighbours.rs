@@ -5,7 +5,7 @@ use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
 use serde::Serialize;
-use sextant::analysis::cosine;
+use sextant::analysis::closeness;
 use sextant::index::{Metric, NeighbourIndex, Path};
 use sextant::model::load_model;
 
@@ -129,11 +129,12 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
             } else {
                 (None, None)
             };
+            let near = closeness(vector(row), vector(n.row));
             Row {
                 rank: k + 1,
                 id: ids.name(n.row),
-                distance: sextant::index::squared_distance(vector(row), vector(n.row)).sqrt(),
-                cosine: cosine(vector(row), vector(n.row)),
+                distance: near.distance,
+                cosine: near.cosine,
                 title,
                 category,
             }
@@ -222,13 +223,16 @@ fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Resu
     let ids = &model.ratings.items;
     let lists = sextant::index::bulk::all_neighbours_auto(vectors, d, metric, args.k);
     let vector = |r: usize| &vectors[r * d..(r + 1) * d];
-    let row_of = |query: usize, k: usize, n: &sextant::index::Neighbour| Row {
-        rank: k + 1,
-        id: ids.name(n.row),
-        distance: sextant::index::squared_distance(vector(query), vector(n.row as usize)).sqrt(),
-        cosine: cosine(vector(query), vector(n.row as usize)),
-        title: None,
-        category: None,
+    let row_of = |query: usize, k: usize, n: &sextant::index::Neighbour| {
+        let near = closeness(vector(query), vector(n.row as usize));
+        Row {
+            rank: k + 1,
+            id: ids.name(n.row),
+            distance: near.distance,
+            cosine: near.cosine,
+            title: None,
+            category: None,
+        }
     };
     let text = match args.format {
         Format::Json => {

@@ -70,7 +70,12 @@ impl FactorModel {
 
     /// The raw prediction `μ + u_i·v_j`.
     pub fn predict(&self, user: u32, item: u32) -> f64 {
-        self.mu + dot(self.user(user), self.item(item))
+        self.predict_for(self.user(user), item)
+    }
+
+    /// The raw prediction `μ + u·v_j` for any member vector `u` (a what-if profile's).
+    pub fn predict_for(&self, u: &[f64], item: u32) -> f64 {
+        self.mu + dot(u, self.item(item))
     }
 }
 

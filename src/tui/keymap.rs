@@ -1,17 +1,27 @@
-//! The one key table: key handling, the status-line hints and the help overlay are all
-//! generated from it.
+//! The key tables: key handling, the status-line hints and the help overlay are all
+//! generated from them, so what a key does is what the help says, on every screen.
+//!
+//! Contexts: [`GLOBAL`] keys work in every mode; a screen's own tables (rows of
+//! `screens::SCREENS`) and [`EVERY_SCREEN`] work while a screen is shown; [`HELP`] while
+//! the help is open; [`TYPING`] while a filter or a line of text is typed (any other
+//! printable key is typed).
 
 use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 
-use super::action::Action;
+use super::action::{Action, Move};
+use super::screens::{SCREENS, ScreenId, screen};
 
-/// Where a binding applies.
+/// Where keys are read right now.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Context {
-    /// Everywhere (checked first).
-    Global,
-    /// While browsing (not typing a filter).
-    Browse,
+    /// Browsing a screen.
+    Screen(ScreenId),
+    /// The help overlay is open.
+    Help,
+    /// Typing a catalogue filter.
+    Search,
+    /// Typing a line for a prompt (member id, note, label, directory, a yes or no).
+    Prompt,
 }
 
 /// One binding: keys, action, a short label for the status line and a description.
@@ -27,363 +37,256 @@ pub struct Binding {
     pub hint: &'static str,
     /// Full description for the help overlay.
     pub description: &'static str,
-    /// Where it applies.
-    pub context: Context,
 }
 
 const NONE: KeyModifiers = KeyModifiers::NONE;
 const SHIFT: KeyModifiers = KeyModifiers::SHIFT;
 const CTRL: KeyModifiers = KeyModifiers::CONTROL;
 
-/// Every binding of the explorer.
-pub const BINDINGS: &[Binding] = &[
+/// A plain character key (with or without Shift, which terminals report either way for
+/// upper-case letters and symbols).
+macro_rules! chars {
+    ($($c:literal),+) => {
+        &[$(
+            (
+                ratatui::crossterm::event::KeyCode::Char($c),
+                ratatui::crossterm::event::KeyModifiers::NONE,
+            ),
+            (
+                ratatui::crossterm::event::KeyCode::Char($c),
+                ratatui::crossterm::event::KeyModifiers::SHIFT,
+            )
+        ),+]
+    };
+}
+pub(crate) use chars;
+
+/// Shorthand for a table row.
+pub const fn bind(
+    keys: &'static [(KeyCode, KeyModifiers)],
+    key_label: &'static str,
+    action: Action,
+    hint: &'static str,
+    description: &'static str,
+) -> Binding {
     Binding {
-        keys: &[(KeyCode::Char('c'), CTRL)],
-        key_label: "Ctrl-C",
-        action: Action::Quit,
-        hint: "",
-        description: "quit at once",
-        context: Context::Global,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('q'), NONE), (KeyCode::Esc, NONE)],
-        key_label: "q/Esc",
-        action: Action::Quit,
-        hint: "quit",
-        description: "quit (Esc closes the help first)",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('?'), NONE), (KeyCode::Char('?'), SHIFT)],
-        key_label: "?",
-        action: Action::ToggleHelp,
-        hint: "help",
-        description: "show or hide this help",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Tab, NONE)],
-        key_label: "Tab",
-        action: Action::FocusNextPane,
-        hint: "pane",
-        description: "focus the next pane",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::BackTab, SHIFT), (KeyCode::BackTab, NONE)],
-        key_label: "Shift-Tab",
-        action: Action::FocusPreviousPane,
-        hint: "",
-        description: "focus the previous pane",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Down, NONE), (KeyCode::Char('j'), NONE)],
-        key_label: "↓/j",
-        action: Action::SelectNext,
-        hint: "",
-        description: "next row",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Up, NONE), (KeyCode::Char('k'), NONE)],
-        key_label: "↑/k",
-        action: Action::SelectPrevious,
-        hint: "",
-        description: "previous row",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::PageDown, NONE)],
-        key_label: "PgDn",
-        action: Action::PageDown,
-        hint: "",
-        description: "one page down",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::PageUp, NONE)],
-        key_label: "PgUp",
-        action: Action::PageUp,
-        hint: "",
-        description: "one page up",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('g'), NONE), (KeyCode::Home, NONE)],
-        key_label: "g/Home",
-        action: Action::SelectFirst,
-        hint: "",
-        description: "first row",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[
+        keys,
+        key_label,
+        action,
+        hint,
+        description,
+    }
+}
+
+/// Keys that work in every mode.
+pub const GLOBAL: &[Binding] = &[bind(
+    &[(KeyCode::Char('c'), CTRL)],
+    "Ctrl-C",
+    Action::QuitNow,
+    "",
+    "quit at once, from anywhere (notes not saved are kept in your state directory)",
+)];
+
+/// Keys of every screen.
+pub const EVERY_SCREEN: &[Binding] = &[
+    bind(
+        &[(KeyCode::Char('q'), NONE), (KeyCode::Esc, NONE)],
+        "q/Esc",
+        Action::Quit,
+        "quit",
+        "quit",
+    ),
+    bind(
+        chars!('?'),
+        "?",
+        Action::ToggleHelp,
+        "help",
+        "show this help",
+    ),
+    bind(
+        &[(KeyCode::Char('u'), NONE)],
+        "u",
+        Action::FindMember,
+        "",
+        "open a member by id",
+    ),
+    bind(
+        &[(KeyCode::Char('w'), NONE)],
+        "w",
+        Action::WhatIf,
+        "",
+        "start a what-if profile from the open member (or from nobody); again to leave it",
+    ),
+    bind(
+        chars!('S'),
+        "S",
+        Action::SaveNotesElsewhere,
+        "",
+        "save the curator notes to another directory (when the model's own cannot take them)",
+    ),
+];
+
+/// Moving in lists, on the screens that have them.
+pub const LISTS: &[Binding] = &[
+    bind(
+        &[(KeyCode::Tab, NONE)],
+        "Tab",
+        Action::FocusNext,
+        "next list",
+        "focus the next list",
+    ),
+    bind(
+        &[(KeyCode::BackTab, SHIFT), (KeyCode::BackTab, NONE)],
+        "Shift-Tab",
+        Action::FocusPrevious,
+        "",
+        "focus the previous list",
+    ),
+    bind(
+        &[(KeyCode::Down, NONE), (KeyCode::Char('j'), NONE)],
+        "↓/j",
+        Action::Select(Move::Next),
+        "",
+        "next row",
+    ),
+    bind(
+        &[(KeyCode::Up, NONE), (KeyCode::Char('k'), NONE)],
+        "↑/k",
+        Action::Select(Move::Previous),
+        "",
+        "previous row",
+    ),
+    bind(
+        &[(KeyCode::PageDown, NONE)],
+        "PgDn",
+        Action::Select(Move::PageDown),
+        "",
+        "one page down",
+    ),
+    bind(
+        &[(KeyCode::PageUp, NONE)],
+        "PgUp",
+        Action::Select(Move::PageUp),
+        "",
+        "one page up",
+    ),
+    bind(
+        &[(KeyCode::Char('g'), NONE), (KeyCode::Home, NONE)],
+        "g/Home",
+        Action::Select(Move::First),
+        "",
+        "first row",
+    ),
+    bind(
+        &[
             (KeyCode::Char('G'), SHIFT),
             (KeyCode::Char('G'), NONE),
             (KeyCode::End, NONE),
         ],
-        key_label: "G/End",
-        action: Action::SelectLast,
-        hint: "",
-        description: "last row",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[
-            (KeyCode::Enter, NONE),
-            (KeyCode::Char('l'), NONE),
-            (KeyCode::Right, NONE),
-        ],
-        key_label: "Enter",
-        action: Action::Open,
-        hint: "open",
-        description: "open the highlighted neighbour as the current item",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[
-            (KeyCode::Char('['), NONE),
-            (KeyCode::Char('h'), NONE),
-            (KeyCode::Left, NONE),
-        ],
-        key_label: "[/h",
-        action: Action::Back,
-        hint: "back",
-        description: "back to the previous item",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char(']'), NONE)],
-        key_label: "]",
-        action: Action::Forward,
-        hint: "",
-        description: "forward again",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('/'), NONE)],
-        key_label: "/",
-        action: Action::StartSearch,
-        hint: "find",
-        description: "filter the catalogue by id, title or category",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('x'), NONE)],
-        key_label: "x",
-        action: Action::ClearSearch,
-        hint: "",
-        description: "clear the filter",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('m'), NONE)],
-        key_label: "m",
-        action: Action::ToggleMetric,
-        hint: "metric",
-        description: "switch neighbours between Euclidean distance and cosine",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[
-            (KeyCode::Char('+'), NONE),
-            (KeyCode::Char('+'), SHIFT),
-            (KeyCode::Char('='), NONE),
-        ],
-        key_label: "+",
-        action: Action::MoreNeighbours,
-        hint: "",
-        description: "more neighbours",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('-'), NONE)],
-        key_label: "-",
-        action: Action::FewerNeighbours,
-        hint: "",
-        description: "fewer neighbours",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('o'), NONE)],
-        key_label: "o",
-        action: Action::CycleSort,
-        hint: "order",
-        description: "order the catalogue by title, category or rating count",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('1'), NONE)],
-        key_label: "1",
-        action: Action::ShowItems,
-        hint: "items",
-        description: "item screen: catalogue, neighbours, loadings",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('2'), NONE)],
-        key_label: "2",
-        action: Action::ShowMember,
-        hint: "member",
-        description: "member screen: ratings, suggestions, explanation (Tab switches lists)",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('3'), NONE)],
-        key_label: "3",
-        action: Action::ShowMap,
-        hint: "map",
-        description: "2-D map of the items (↑↓ and PgUp/PgDn pan, +/- zoom)",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('4'), NONE)],
-        key_label: "4",
-        action: Action::ShowFit,
-        hint: "fit",
-        description: "fit health: likelihood, RMSE, residuals",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('5'), NONE)],
-        key_label: "5",
-        action: Action::ShowAudit,
-        hint: "audit",
-        description: "audit: neighbour coherence, least coherent items (Enter opens), worst fits, odd vectors",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('u'), NONE)],
-        key_label: "u",
-        action: Action::FindMember,
-        hint: "",
-        description: "open a member by id",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('r'), NONE)],
-        key_label: "r",
-        action: Action::ToggleResidualOrder,
-        hint: "",
-        description: "member ratings by size of residual, or by title",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('n'), NONE)],
-        key_label: "n",
-        action: Action::NoteItem,
-        hint: "note",
-        description: "curator's note on the current item (saved with the model; empty removes it)",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('L'), SHIFT), (KeyCode::Char('L'), NONE)],
-        key_label: "L",
-        action: Action::LabelFactor,
-        hint: "",
-        description: "label the highlighted factor (loadings pane)",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('f'), NONE)],
-        key_label: "f",
-        action: Action::FlagPair,
-        hint: "",
-        description: "flag the highlighted neighbour as a wrong neighbour of the current item, or unflag it",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('S'), SHIFT), (KeyCode::Char('S'), NONE)],
-        key_label: "S",
-        action: Action::SaveNotesElsewhere,
-        hint: "",
-        description: "save the curator notes to another directory (when the model's own cannot take them)",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('p'), NONE)],
-        key_label: "p",
-        action: Action::WritePlain,
-        hint: "",
-        description: "member screen: write the plain explanation of the highlighted item to a file",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('w'), NONE)],
-        key_label: "w",
-        action: Action::WhatIf,
-        hint: "what-if",
-        description: "start a what-if profile from the open member (or from nobody); again to leave it",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('a'), NONE)],
-        key_label: "a",
-        action: Action::AddToProfile,
-        hint: "",
-        description: "what-if: add the current item (items screen) or the highlighted suggestion",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[
-            (KeyCode::Char('>'), NONE),
-            (KeyCode::Char('>'), SHIFT),
-            (KeyCode::Char('.'), NONE),
-        ],
-        key_label: ">",
-        action: Action::RaiseRating,
-        hint: "",
-        description: "what-if: raise the highlighted rating one step",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[
-            (KeyCode::Char('<'), NONE),
-            (KeyCode::Char('<'), SHIFT),
-            (KeyCode::Char(','), NONE),
-        ],
-        key_label: "<",
-        action: Action::LowerRating,
-        hint: "",
-        description: "what-if: lower the highlighted rating one step",
-        context: Context::Browse,
-    },
-    Binding {
-        keys: &[(KeyCode::Char('d'), NONE), (KeyCode::Delete, NONE)],
-        key_label: "d/Del",
-        action: Action::RemoveRating,
-        hint: "",
-        description: "what-if: remove the highlighted rating",
-        context: Context::Browse,
-    },
+        "G/End",
+        Action::Select(Move::Last),
+        "",
+        "last row",
+    ),
+    bind(
+        &[(KeyCode::Enter, NONE)],
+        "Enter",
+        Action::Open,
+        "open",
+        "open the highlighted row",
+    ),
 ];
 
-/// The action bound to `key` in browsing mode (global bindings first).
-pub fn action_for(key: KeyEvent) -> Option<Action> {
-    let matches = |b: &&Binding| {
-        b.keys
-            .iter()
-            .any(|&(code, mods)| code == key.code && mods == key.modifiers)
-    };
-    BINDINGS
-        .iter()
-        .filter(|b| b.context == Context::Global)
-        .find(matches)
-        .or_else(|| {
-            BINDINGS
-                .iter()
-                .filter(|b| b.context == Context::Browse)
-                .find(matches)
-        })
-        .map(|b| b.action)
-}
+/// Keys while the help is open.
+pub const HELP: &[Binding] = &[
+    bind(
+        &[
+            (KeyCode::Esc, NONE),
+            (KeyCode::Char('?'), NONE),
+            (KeyCode::Char('?'), SHIFT),
+            (KeyCode::Char('q'), NONE),
+        ],
+        "Esc/?/q",
+        Action::ToggleHelp,
+        "close",
+        "close the help",
+    ),
+    bind(
+        &[(KeyCode::Down, NONE), (KeyCode::Char('j'), NONE)],
+        "↓/j",
+        Action::ScrollHelp(Move::Next),
+        "scroll",
+        "scroll down",
+    ),
+    bind(
+        &[(KeyCode::Up, NONE), (KeyCode::Char('k'), NONE)],
+        "↑/k",
+        Action::ScrollHelp(Move::Previous),
+        "",
+        "scroll up",
+    ),
+    bind(
+        &[(KeyCode::PageDown, NONE), (KeyCode::Char(' '), NONE)],
+        "PgDn/Space",
+        Action::ScrollHelp(Move::PageDown),
+        "",
+        "one page down",
+    ),
+    bind(
+        &[(KeyCode::PageUp, NONE)],
+        "PgUp",
+        Action::ScrollHelp(Move::PageUp),
+        "",
+        "one page up",
+    ),
+    bind(
+        &[(KeyCode::Char('g'), NONE), (KeyCode::Home, NONE)],
+        "g/Home",
+        Action::ScrollHelp(Move::First),
+        "",
+        "top",
+    ),
+    bind(
+        &[
+            (KeyCode::Char('G'), SHIFT),
+            (KeyCode::Char('G'), NONE),
+            (KeyCode::End, NONE),
+        ],
+        "G/End",
+        Action::ScrollHelp(Move::Last),
+        "",
+        "end",
+    ),
+];
 
-/// True when `key` is a global binding (checked even while typing a filter).
-pub fn global_action(key: KeyEvent) -> Option<Action> {
-    BINDINGS
+/// Keys while typing a filter or a line of text.
+pub const TYPING: &[Binding] = &[
+    bind(
+        &[(KeyCode::Enter, NONE)],
+        "Enter",
+        Action::Accept,
+        "keep",
+        "keep what was typed (a filter stays; a prompt is carried out)",
+    ),
+    bind(
+        &[(KeyCode::Esc, NONE)],
+        "Esc",
+        Action::Cancel,
+        "cancel",
+        "drop what was typed",
+    ),
+    bind(
+        &[(KeyCode::Backspace, NONE)],
+        "Backspace",
+        Action::DeleteChar,
+        "",
+        "delete the last character",
+    ),
+];
+
+fn find(table: &[Binding], key: KeyEvent) -> Option<Action> {
+    table
         .iter()
-        .filter(|b| b.context == Context::Global)
         .find(|b| {
             b.keys
                 .iter()
@@ -392,40 +295,175 @@ pub fn global_action(key: KeyEvent) -> Option<Action> {
         .map(|b| b.action)
 }
 
+/// The tables that apply in `context`, most specific first (global keys last: they are
+/// checked first, but listed last).
+pub fn tables(context: Context) -> Vec<(&'static str, &'static [Binding])> {
+    match context {
+        Context::Screen(id) => {
+            let mut tables: Vec<(&'static str, &'static [Binding])> = screen(id)
+                .bindings
+                .iter()
+                .map(|&t| (screen(id).name, t))
+                .collect();
+            tables.push(("every screen", EVERY_SCREEN));
+            tables.push(("anywhere", GLOBAL));
+            tables
+        }
+        Context::Help => vec![("help", HELP), ("anywhere", GLOBAL)],
+        Context::Search | Context::Prompt => vec![("typing", TYPING), ("anywhere", GLOBAL)],
+    }
+}
+
+/// The action `key` stands for in `context`, if any.
+pub fn action_for(context: Context, key: KeyEvent) -> Option<Action> {
+    if let Some(action) = find(GLOBAL, key) {
+        return Some(action);
+    }
+    match context {
+        Context::Screen(id) => screen(id)
+            .bindings
+            .iter()
+            .find_map(|t| find(t, key))
+            .or_else(|| find(EVERY_SCREEN, key))
+            .or_else(|| match key.code {
+                KeyCode::Char(c) if key.modifiers == NONE => SCREENS
+                    .iter()
+                    .find(|s| s.key == c)
+                    .map(|s| Action::Show(s.id)),
+                _ => None,
+            }),
+        Context::Help => find(HELP, key),
+        Context::Search | Context::Prompt => find(TYPING, key).or(match key.code {
+            KeyCode::Char(c)
+                if !key
+                    .modifiers
+                    .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
+            {
+                Some(Action::Type(c))
+            }
+            _ => None,
+        }),
+    }
+}
+
+/// The status line's hints in `context`: (keys, what); help and quit first, then the
+/// context's own keys.
+pub fn hints(context: Context) -> Vec<(&'static str, &'static str)> {
+    let mut tables = tables(context);
+    if let Context::Screen(_) = context {
+        tables.retain(|(_, t)| !std::ptr::eq(*t, EVERY_SCREEN));
+        tables.insert(0, ("every screen", EVERY_SCREEN));
+    }
+    let mut hints: Vec<(&'static str, &'static str)> = tables
+        .into_iter()
+        .flat_map(|(_, t)| t.iter())
+        .filter(|b| !b.hint.is_empty())
+        .map(|b| (b.key_label, b.hint))
+        .collect();
+    if let Context::Screen(_) = context {
+        hints.push(("1-5", "screens"));
+    }
+    hints
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
 
+    fn all_tables() -> Vec<(String, &'static [Binding])> {
+        let mut all: Vec<(String, &'static [Binding])> = vec![
+            ("global".into(), GLOBAL),
+            ("help".into(), HELP),
+            ("typing".into(), TYPING),
+        ];
+        for s in SCREENS {
+            let mut own: Vec<&'static [Binding]> = s.bindings.to_vec();
+            own.push(EVERY_SCREEN);
+            for t in own {
+                all.push((s.name.to_owned(), t));
+            }
+        }
+        all
+    }
+
     #[test]
     fn every_binding_is_described_and_no_key_is_bound_twice_in_a_context() {
         let mut seen = std::collections::HashSet::new();
-        for b in BINDINGS {
-            assert!(
-                !b.description.is_empty() && !b.key_label.is_empty(),
-                "{:?}",
-                b.action
-            );
-            for key in b.keys {
+        for (context, table) in all_tables() {
+            for b in table {
                 assert!(
-                    seen.insert((format!("{:?}", b.context), format!("{key:?}"))),
-                    "{key:?} bound twice"
+                    !b.description.is_empty() && !b.key_label.is_empty(),
+                    "{:?}",
+                    b.action
+                );
+                for key in b.keys {
+                    assert!(
+                        seen.insert((context.clone(), format!("{key:?}"))),
+                        "{key:?} bound twice on {context}"
+                    );
+                    // Global keys win everywhere: nothing else may claim them.
+                    assert!(
+                        context == "global" || !GLOBAL.iter().any(|g| g.keys.contains(key)),
+                        "{key:?} on {context} is a global key"
+                    );
+                }
+            }
+        }
+        // Screen keys are not taken by any screen's own table.
+        for s in SCREENS {
+            for (context, table) in all_tables() {
+                assert!(
+                    table
+                        .iter()
+                        .all(|b| !b.keys.contains(&(KeyCode::Char(s.key), NONE))),
+                    "{} is the key of the {} screen, bound on {context}",
+                    s.key,
+                    s.name
                 );
             }
         }
     }
 
     #[test]
-    fn lookups() {
-        let key = |c, m| KeyEvent::new(c, m);
+    fn keys_mean_what_their_context_says() {
+        let key = |c| KeyEvent::new(c, NONE);
+        let items = Context::Screen(ScreenId::Items);
+        let map = Context::Screen(ScreenId::Map);
         assert_eq!(
-            action_for(key(KeyCode::Char('j'), NONE)),
-            Some(Action::SelectNext)
+            action_for(items, key(KeyCode::Char('j'))),
+            Some(Action::Select(Move::Next))
         );
         assert_eq!(
-            action_for(key(KeyCode::Char('c'), CTRL)),
-            Some(Action::Quit)
+            action_for(map, key(KeyCode::Down)),
+            Some(Action::Pan(super::super::action::Direction::Down))
         );
-        assert_eq!(global_action(key(KeyCode::Char('q'), NONE)), None);
-        assert_eq!(action_for(key(KeyCode::Char('Z'), SHIFT)), None);
+        // Ctrl-C quits from every context.
+        for context in [items, map, Context::Help, Context::Search, Context::Prompt] {
+            assert_eq!(
+                action_for(context, KeyEvent::new(KeyCode::Char('c'), CTRL)),
+                Some(Action::QuitNow)
+            );
+        }
+        assert_eq!(
+            action_for(Context::Help, key(KeyCode::Char('q'))),
+            Some(Action::ToggleHelp)
+        );
+        assert_eq!(
+            action_for(Context::Prompt, key(KeyCode::Char('q'))),
+            Some(Action::Type('q'))
+        );
+        assert_eq!(
+            action_for(items, key(KeyCode::Char('3'))),
+            Some(Action::Show(ScreenId::Map))
+        );
+        // The fit screen has no lists: arrows do nothing there.
+        assert_eq!(
+            action_for(Context::Screen(ScreenId::Fit), key(KeyCode::Down)),
+            None
+        );
+        assert_eq!(
+            action_for(items, KeyEvent::new(KeyCode::Char('Z'), SHIFT)),
+            None
+        );
     }
 }

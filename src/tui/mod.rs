@@ -1,31 +1,34 @@
-//! The terminal explorer: event loop, key handling and the screen layout.
+//! The terminal explorer: the event loop, key and mouse handling, and the frame's top
+//! level (header, screen, status line, help).
 //!
-//! State lives in [`app::App`]; keys become [`action::Action`]s through the one table in
-//! [`keymap`]; panes in [`panes`] draw from the state and change nothing.
+//! State lives in [`app::App`] and `state/`; every input becomes an [`action::Action`]
+//! (keys through the tables in [`keymap`]) and `App::update` is the only place state
+//! changes; panes in [`panes`] draw from `&App` and change nothing; [`layout`] places
+//! panes for drawing and for clicks alike; [`screens`] lists the screens.
 
 pub mod action;
 pub mod app;
 pub mod event;
 pub mod keymap;
+pub mod layout;
 pub mod panes;
+pub mod screens;
+pub mod state;
 pub mod theme;
-pub mod workbench;
 
 use std::io;
 
-use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-use ratatui::layout::{Constraint, Layout, Rect};
-use ratatui::text::Line;
+use ratatui::crossterm::event::{KeyEvent, MouseEvent};
+use ratatui::layout::Rect;
+use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
 use ratatui::{DefaultTerminal, Frame};
 
-use app::{App, Mode, SearchEdit};
+use action::{Action, Move};
+use app::{App, Mode};
+use layout::{MIN_HEIGHT, MIN_WIDTH};
+use screens::SCREENS;
 use theme::Theme;
-
-/// Smallest window the explorer draws into; below it, it says so.
-pub const MIN_WIDTH: u16 = 60;
-/// Smallest window height.
-pub const MIN_HEIGHT: u16 = 12;
 
 /// How an explorer session ended.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -84,6 +87,13 @@ fn event_loop(terminal: &mut DefaultTerminal, app: &mut App, events: &mut event:
         if events.is_idle() {
             app.settle();
         }
+        match terminal.size() {
+            Ok(size) if (size.width, size.height) != app.size => {
+                app.update(Action::Resize(size.width, size.height));
+            }
+            Ok(_) => {}
+            Err(e) => return Ending::TerminalLost(format!("reading the window size failed: {e}")),
+        }
         if let Err(e) = terminal.draw(|frame| render(app, frame, theme)) {
             return Ending::TerminalLost(format!("drawing failed: {e}"));
         }
@@ -100,69 +110,31 @@ fn event_loop(terminal: &mut DefaultTerminal, app: &mut App, events: &mut event:
     }
 }
 
-/// Turns one key press into state changes (global keys first, then the mode's keys).
+/// Turns one key press into an action, through the key tables of the current context.
 pub fn handle_key(app: &mut App, key: KeyEvent) {
-    if let Some(action) = keymap::global_action(key) {
+    if let Some(action) = keymap::action_for(app.context(), key) {
         app.update(action);
-        return;
-    }
-    match app.mode {
-        Mode::Search => {
-            if let Some(edit) = text_edit(key) {
-                app.search_input(edit);
-            }
-        }
-        Mode::Prompt => {
-            if let Some(edit) = text_edit(key) {
-                app.prompt_edit(edit);
-            }
-        }
-        Mode::Help => {
-            if matches!(key.code, KeyCode::Esc | KeyCode::Char('?' | 'q')) {
-                app.mode = Mode::Normal;
-            }
-        }
-        Mode::Normal => {
-            if let Some(action) = keymap::action_for(key) {
-                app.update(action);
-            }
-        }
     }
 }
 
-/// What a key does to a line of text being typed (a filter or a member id).
-fn text_edit(key: KeyEvent) -> Option<SearchEdit> {
-    match key.code {
-        KeyCode::Enter => Some(SearchEdit::Accept),
-        KeyCode::Esc => Some(SearchEdit::Cancel),
-        KeyCode::Backspace => Some(SearchEdit::Delete),
-        KeyCode::Char(c)
-            if !key
-                .modifiers
-                .intersects(KeyModifiers::CONTROL | KeyModifiers::ALT) =>
-        {
-            Some(SearchEdit::Insert(c))
-        }
-        _ => None,
-    }
-}
-
-/// Mouse: the wheel moves the selection, a left click selects the row under it.
-pub fn handle_mouse(app: &mut App, mouse: ratatui::crossterm::event::MouseEvent) {
+/// Mouse: the wheel moves the highlight of the focused list, a left click focuses the
+/// pane under it and selects the row.
+pub fn handle_mouse(app: &mut App, mouse: MouseEvent) {
     use ratatui::crossterm::event::{MouseButton, MouseEventKind};
     if app.mode != Mode::Normal {
         return;
     }
-    match mouse.kind {
-        MouseEventKind::ScrollDown => app.update(action::Action::SelectNext),
-        MouseEventKind::ScrollUp => app.update(action::Action::SelectPrevious),
-        MouseEventKind::Down(MouseButton::Left) => app.click(mouse.column, mouse.row),
-        _ => {}
-    }
+    let action = match mouse.kind {
+        MouseEventKind::ScrollDown => Action::Select(Move::Next),
+        MouseEventKind::ScrollUp => Action::Select(Move::Previous),
+        MouseEventKind::Down(MouseButton::Left) => Action::Click(mouse.column, mouse.row),
+        _ => return,
+    };
+    app.update(action);
 }
 
-/// The whole screen, top-down: header, body (catalogue | neighbours over loadings), status.
-pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
+/// The whole frame, top-down: header, the screen shown, status line; the help over it.
+pub fn render(app: &App, frame: &mut Frame<'_>, theme: Theme) {
     let area = frame.area();
     if area.width < MIN_WIDTH || area.height < MIN_HEIGHT {
         let message = format!(
@@ -175,71 +147,69 @@ pub fn render(app: &mut App, frame: &mut Frame<'_>, theme: Theme) {
         );
         return;
     }
-    let [header, body, status] = Layout::vertical([
-        Constraint::Length(1),
-        Constraint::Min(0),
-        Constraint::Length(1),
-    ])
-    .areas(area);
+    let [header, body, status] = layout::frame(area);
     render_header(app, frame, header, theme);
+    screens::render(app.shown, app, frame, body, theme);
     panes::status_bar::render(app, frame, status, theme);
-    match app.screen {
-        app::Screen::Items => render_items(app, frame, body, theme),
-        app::Screen::Member => panes::member::render(app, frame, body, theme),
-        app::Screen::Map => panes::map::render(app, frame, body, theme),
-        app::Screen::Fit => panes::fit::render(app, frame, body, theme),
-        app::Screen::Audit => panes::audit::render(app, frame, body, theme),
-    }
     if app.mode == Mode::Help {
-        panes::help::render(frame, area, theme);
+        panes::help::render(app, frame, area, theme);
     }
 }
 
-/// The item screen: catalogue on the left, neighbours over loadings on the right.
-fn render_items(app: &mut App, frame: &mut Frame<'_>, body: Rect, theme: Theme) {
-    let [left, right] =
-        Layout::horizontal([Constraint::Percentage(48), Constraint::Percentage(52)]).areas(body);
-    let loadings_height = (app.model.factors.rank as u16 + 2)
-        .min(right.height / 2)
-        .max(4);
-    let [upper, lower] =
-        Layout::vertical([Constraint::Min(0), Constraint::Length(loadings_height)]).areas(right);
-    app.page = panes::inner(left).height.max(1) as usize;
-    app.catalogue_area = left;
-    app.neighbours_area = upper;
-    panes::catalogue::render(app, frame, left, theme);
-    panes::neighbours::render(app, frame, upper, theme);
-    panes::loadings::render(app, frame, lower, theme);
-}
-
+/// The header: the tabs, then as many facts about the model as fit, most important
+/// first, each whole or not at all (numbers are never cut).
 fn render_header(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let m = &app.model.manifest;
-    let tab = |screen: app::Screen, name: &str| {
-        if app.screen == screen {
-            format!("[{name}]")
+    let m = &app.shared.model.manifest;
+    let mut tabs = Vec::new();
+    let mut used = 1;
+    for s in SCREENS {
+        let text = if s.id == app.shown {
+            format!("[{} {}]", s.key, s.name)
         } else {
-            format!(" {name} ")
+            format!(" {} {} ", s.key, s.name)
+        };
+        used += text.chars().count();
+        tabs.push(if s.id == app.shown {
+            Span::styled(text, theme.title())
+        } else {
+            Span::raw(text)
+        });
+    }
+    let holdout = m.metrics.holdout.map_or_else(
+        || "no held-out ratings".to_owned(),
+        |h| format!("held-out RMSE {:.3}", h.rmse),
+    );
+    // (text, importance): shown in display order, chosen by importance.
+    let facts = [
+        (sextant::text::escaped(&app.shared.label).into_owned(), 4),
+        (format!("{} items", m.counts.items), 2),
+        (format!("{} members", m.counts.users), 3),
+        (format!("rank {}", m.rank), 1),
+        (holdout, 0),
+    ];
+    let mut keep = [false; 5];
+    let mut by_importance: Vec<usize> = (0..facts.len()).collect();
+    by_importance.sort_by_key(|&k| facts[k].1);
+    for k in by_importance {
+        let width = facts[k].0.chars().count() + 3;
+        if used + width <= area.width as usize {
+            keep[k] = true;
+            used += width;
         }
-    };
-    let tabs = format!(
-        "{}{}{}{}{}",
-        tab(app::Screen::Items, "1 items"),
-        tab(app::Screen::Member, "2 member"),
-        tab(app::Screen::Map, "3 map"),
-        tab(app::Screen::Fit, "4 fit"),
-        tab(app::Screen::Audit, "5 audit")
+    }
+    // The program's name comes last in importance.
+    let name = used + 8 <= area.width as usize;
+    let mut spans = vec![Span::raw(if name { " sextant " } else { " " })];
+    spans.extend(tabs);
+    for (k, (text, _)) in facts.iter().enumerate() {
+        if keep[k] {
+            spans.push(Span::raw(format!(" · {text}")));
+        }
+    }
+    frame.render_widget(
+        Paragraph::new(Line::from(spans)).style(theme.header()),
+        area,
     );
-    let text = format!(
-        " sextant {tabs} · {} · {} items · {} members · rank {} · held-out RMSE {}",
-        app.label,
-        m.counts.items,
-        m.counts.users,
-        m.rank,
-        m.metrics
-            .holdout
-            .map_or_else(|| "–".to_owned(), |h| format!("{:.3}", h.rmse))
-    );
-    frame.render_widget(Paragraph::new(Line::from(text)).style(theme.header()), area);
 }
 
 #[cfg(test)]
@@ -248,7 +218,11 @@ mod tests {
     use ratatui::backend::TestBackend;
     use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 
-    use super::app::{App, Mode, Pane};
+    use super::action::Action;
+    use super::app::{App, Mode};
+    use super::screens::ScreenId;
+    use super::state::items::ItemsPane;
+    use super::state::member::MemberPane;
     use super::theme::Theme;
     use super::{handle_key, render};
 
@@ -265,6 +239,7 @@ mod tests {
     }
 
     fn screen(app: &mut App, width: u16, height: u16) -> String {
+        app.update(Action::Resize(width, height));
         let mut terminal = Terminal::new(TestBackend::new(width, height)).expect("test backend");
         terminal
             .draw(|frame| render(app, frame, Theme::plain()))
@@ -290,8 +265,8 @@ mod tests {
             row.category = Some("soups\x1b]0;owned\x07".into());
         }
         let mut app = App::new(model, "demo");
-        let first = app.visible[0];
-        let id = app.model.ratings.items.name(first).to_owned();
+        let first = app.items.catalogue.visible[0];
+        let id = app.shared.model.ratings.items.name(first).to_owned();
         app.notes
             .current
             .set_item_note(&id, "two\nlines")
@@ -310,12 +285,22 @@ mod tests {
         let mut app = demo_app();
         let text = screen(&mut app, 80, 24);
         let lines: Vec<&str> = text.lines().collect();
-        assert!(
-            lines[0].starts_with(
-                " sextant [1 items] 2 member  3 map  4 fit  5 audit  · demo · 400 items"
+        // At 80 columns the header keeps the tabs and the numbers whole, and drops the
+        // less important facts (the counts, the program's name) first.
+        let rmse = app
+            .shared
+            .model
+            .manifest
+            .metrics
+            .holdout
+            .expect("held out")
+            .rmse;
+        assert_eq!(
+            lines[0].trim_end(),
+            format!(
+                " [1 items] 2 member  3 map  4 fit  5 audit  · rank {} · held-out RMSE {rmse:.3}",
+                app.shared.model.factors.rank
             ),
-            "{}",
-            lines[0]
         );
         assert!(
             lines[1].contains("Catalogue · 400 items · by title"),
@@ -323,10 +308,10 @@ mod tests {
             lines[1]
         );
         // The first item by title is highlighted and is the current item.
-        let first = app.visible[0];
-        assert_eq!(app.current, Some(first));
+        let first = app.items.catalogue.visible[0];
+        assert_eq!(app.items.current, Some(first));
         assert!(
-            lines[2].contains(app.model.ratings.items.name(first)),
+            lines[2].contains(app.shared.model.ratings.items.name(first)),
             "{}",
             lines[2]
         );
@@ -335,16 +320,43 @@ mod tests {
             "{text}"
         );
         assert!(text.contains("# distance  cosine"), "{text}");
-        assert!(text.contains("Loadings"), "{text}");
-        assert!(text.contains("f1 "), "{text}");
+        // Neighbour rows carry the distance of the first neighbour.
+        let d = format!("{:.4}", app.items.neighbours[0].near.distance);
+        assert!(text.contains(&d), "{d} in {text}");
         assert!(
             lines[23].contains("q/Esc quit") && lines[23].contains("? help"),
             "{}",
             lines[23]
         );
-        // Neighbour rows carry the distance of the first neighbour.
-        let d = format!("{:.4}", app.neighbours[0].distance);
-        assert!(text.contains(&d), "{d} in {text}");
+        // Titles keep at least 20 characters at 80 columns, in both lists.
+        let title_cell = |line: &str, title: &str| line.contains(&title[..title.len().min(20)]);
+        let long = app
+            .items
+            .catalogue
+            .visible
+            .iter()
+            .find(|&&j| app.title(j).len() > 20);
+        if let Some(&j) = long {
+            app.update(super::action::Action::Select(super::action::Move::First));
+            let at = app
+                .items
+                .catalogue
+                .visible
+                .iter()
+                .position(|&v| v == j)
+                .expect("visible");
+            for _ in 0..at {
+                press(&mut app, KeyCode::Down);
+            }
+            let text = screen(&mut app, 80, 24);
+            assert!(text.lines().any(|l| title_cell(l, app.title(j))), "{text}");
+        }
+        // The neighbours share the lower half with the loadings, one at a time.
+        press(&mut app, KeyCode::Tab);
+        press(&mut app, KeyCode::Tab);
+        let text = screen(&mut app, 80, 24);
+        assert!(text.contains("Loadings"), "{text}");
+        assert!(text.contains("f1 "), "{text}");
     }
 
     #[test]
@@ -358,28 +370,37 @@ mod tests {
         press(&mut app, KeyCode::Enter);
         assert_eq!(app.mode, Mode::Normal);
         assert!(
-            app.visible.len() >= 2
+            app.items.catalogue.visible.len() >= 2
                 && app
+                    .items
+                    .catalogue
                     .visible
                     .iter()
                     .all(|&j| app.title(j).to_lowercase().contains("lentil"))
         );
-        let start = app.current.expect("an item is shown");
-        assert_eq!(start, app.visible[0], "the first match is shown");
+        let start = app.items.current.expect("an item is shown");
+        assert_eq!(
+            start, app.items.catalogue.visible[0],
+            "the first match is shown"
+        );
         press(&mut app, KeyCode::Tab);
-        assert_eq!(app.focus, Pane::Neighbours);
+        assert_eq!(app.items.focus, ItemsPane::Neighbours);
         press(&mut app, KeyCode::Down);
-        let target = app.neighbours[1].item;
+        let target = app.items.neighbours[1].item;
         press(&mut app, KeyCode::Enter);
-        assert_eq!(app.current, Some(target));
+        assert_eq!(app.items.current, Some(target));
         press(&mut app, KeyCode::Char('['));
-        assert_eq!(app.current, Some(start));
+        assert_eq!(app.items.current, Some(start));
         press(&mut app, KeyCode::Char(']'));
-        assert_eq!(app.current, Some(target));
+        assert_eq!(app.items.current, Some(target));
         press(&mut app, KeyCode::Char('m'));
         assert!(screen(&mut app, 100, 30).contains("· cosine"));
         press(&mut app, KeyCode::Char('?'));
-        assert!(screen(&mut app, 100, 30).contains("show or hide this help"));
+        let help = screen(&mut app, 100, 30);
+        assert!(help.contains("On the items screen"), "{help}");
+        press(&mut app, KeyCode::End);
+        let help = screen(&mut app, 100, 30);
+        assert!(help.contains("sends nothing anywhere"), "{help}");
         press(&mut app, KeyCode::Esc);
         assert_eq!(app.mode, Mode::Normal);
         assert!(!app.quit);
@@ -397,7 +418,10 @@ mod tests {
         }
         press(&mut app, KeyCode::Enter);
         let m = app.member.as_ref().expect("member open");
-        assert_eq!(app.model.ratings.users.name(m.user.unwrap()), "m0001");
+        assert_eq!(
+            app.shared.model.ratings.users.name(m.user.unwrap()),
+            "m0001"
+        );
         assert!(
             m.rated
                 .windows(2)
@@ -413,13 +437,13 @@ mod tests {
         assert!(text.contains("Member m0001"), "{text}");
         assert!(text.contains("Suggestions"), "{text}");
         assert!(
-            text.contains(&format!("predicted {:.2}", e.predicted)),
+            text.contains(&format!("predicted {:.3}", e.predicted)),
             "{text}"
         );
         press(&mut app, KeyCode::Tab);
         press(&mut app, KeyCode::Down);
         let m = app.member.as_ref().expect("member open");
-        assert!(m.in_suggestions);
+        assert_eq!(m.focus, MemberPane::Suggestions);
         assert_eq!(
             m.explanation.as_ref().map(|e| e.item),
             Some(m.suggestions[1].item)
@@ -439,11 +463,15 @@ mod tests {
         let text = screen(&mut app, 110, 32);
         assert!(text.contains("326 iterations, converged"), "{text}");
         assert!(
-            text.contains(&format!("{:.4}", app.model.manifest.metrics.train.rmse)),
+            text.contains(&format!(
+                "{:.4}",
+                app.shared.model.manifest.metrics.train.rmse
+            )),
             "{text}"
         );
         press(&mut app, KeyCode::Char('3'));
         let ratio = app
+            .map
             .projection
             .as_ref()
             .expect("projection computed on first view")
@@ -451,7 +479,7 @@ mod tests {
         let text = screen(&mut app, 110, 32);
         assert!(text.contains(&format!("x {:.0}%", 100.0 * ratio)), "{text}");
         press(&mut app, KeyCode::Char('+'));
-        assert!(app.map_zoom > 1.0);
+        assert!(app.map.zoom > 1.0);
         press(&mut app, KeyCode::Char('1'));
         assert!(screen(&mut app, 110, 32).contains("Catalogue"));
     }
@@ -469,8 +497,8 @@ mod tests {
         let dir = tempfile::tempdir().expect("temp dir");
         let mut app = demo_app();
         app.notes = Notes::open(dir.path()).expect("no notes yet");
-        let item = app.current.expect("an item is shown");
-        let id = app.model.ratings.items.name(item).to_owned();
+        let item = app.items.current.expect("an item is shown");
+        let id = app.shared.model.ratings.items.name(item).to_owned();
         press(&mut app, KeyCode::Char('n'));
         assert_eq!(app.mode, Mode::Prompt);
         type_text(&mut app, "title says soup, tastes like a stew");
@@ -484,7 +512,7 @@ mod tests {
         assert!(text.contains("note: title says soup"), "{text}");
         // Flag the first neighbour as wrong, then label factor 2.
         press(&mut app, KeyCode::Tab);
-        let other = app.neighbours[0].item;
+        let other = app.items.neighbours[0].item;
         press(&mut app, KeyCode::Char('f'));
         assert!(app.is_flagged(item, other));
         assert!(screen(&mut app, 110, 32).contains('✗'));
@@ -517,7 +545,7 @@ mod tests {
             "{}",
             demo.status
         );
-        assert!(demo.has_note(demo.current.expect("item")));
+        assert!(demo.has_note(demo.items.current.expect("item")));
     }
 
     #[test]
@@ -526,7 +554,7 @@ mod tests {
         let dir = tempfile::tempdir().expect("temp dir");
         let model_dir = dir.path().join("m");
         let mut app = demo_app();
-        sextant::model::save_model(&model_dir, &app.model).expect("saved");
+        sextant::model::save_model(&model_dir, &app.shared.model).expect("saved");
         app.notes = Notes::open(&model_dir).expect("opened");
         // Another explorer notes something; then the model is refitted (saved again with a
         // changed manifest) while this one is open.
@@ -536,7 +564,7 @@ mod tests {
             .set_factor_label(1, "from the other window")
             .unwrap();
         other.save().expect("saved");
-        let mut refit = app.model.clone();
+        let mut refit = app.shared.model.clone();
         refit.manifest.seed = 99;
         sextant::model::save_model(&model_dir, &refit).expect("refitted");
         press(&mut app, KeyCode::Char('n'));
@@ -559,10 +587,10 @@ mod tests {
         press(&mut app, KeyCode::Char('w'));
         let m = app.member.clone().expect("what-if open");
         let w = m.what_if.clone().expect("a what-if");
-        let user = app.model.ratings.users.get("m0001").expect("member");
-        let own = sextant::analysis::explain::training_ratings(&app.model, user);
+        let user = app.shared.model.ratings.users.get("m0001").expect("member");
+        let own = sextant::analysis::explain::training_ratings(&app.shared.model, user);
         assert_eq!(w.ratings, own);
-        let folded = sextant::analysis::foldin::fold_in(&app.model, &own).expect("fold in");
+        let folded = sextant::analysis::foldin::fold_in(&app.shared.model, &own).expect("fold in");
         assert_eq!(w.vector, folded);
         assert_eq!(m.rated.len(), own.len());
         let text = screen(&mut app, 110, 40);
@@ -602,13 +630,32 @@ mod tests {
         assert_eq!(m4.user, Some(user));
         // From nobody: add the current item on the items screen.
         let mut fresh = demo_app();
-        let current = fresh.current.expect("item");
+        let current = fresh.items.current.expect("item");
         press(&mut fresh, KeyCode::Char('a'));
         let m5 = fresh.member.as_ref().expect("what-if from nobody");
         assert_eq!(m5.user, None);
         assert_eq!(m5.what_if.as_ref().expect("what-if").ratings.len(), 1);
         assert_eq!(m5.rated[0].item, current);
         assert_eq!(m5.suggestions.len(), 10);
+        // Adding from the catalogue stays on the item screen, so several can be added.
+        assert_eq!(fresh.shown, ScreenId::Items);
+        assert!(
+            fresh.status.contains("to the what-if profile"),
+            "{}",
+            fresh.status
+        );
+        press(&mut fresh, KeyCode::Down);
+        press(&mut fresh, KeyCode::Char('a'));
+        assert_eq!(fresh.shown, ScreenId::Items);
+        assert_eq!(
+            fresh
+                .member
+                .as_ref()
+                .and_then(|m| m.what_if.as_ref())
+                .map(|w| w.ratings.len()),
+            Some(2)
+        );
+        press(&mut fresh, KeyCode::Char('2'));
         assert!(screen(&mut fresh, 110, 40).contains("What-if · new profile"));
     }
 
@@ -618,12 +665,16 @@ mod tests {
         press(&mut app, KeyCode::Char('u'));
         type_text(&mut app, "m0001");
         let (name, text) = app.plain_text().expect("an explanation is shown");
-        let item = app.member_item().expect("highlighted");
+        let item = app
+            .member
+            .as_ref()
+            .and_then(super::state::member::MemberView::highlighted)
+            .expect("highlighted");
         assert_eq!(
             name,
             format!(
                 "explanation-m0001-{}.txt",
-                app.model.ratings.items.name(item)
+                app.shared.model.ratings.items.name(item)
             )
         );
         assert!(text.contains(app.title(item)), "{text}");
@@ -646,10 +697,10 @@ mod tests {
         press(&mut app, KeyCode::Down);
         let second = app.audit.as_ref().expect("audit").least[1].item;
         press(&mut app, KeyCode::Enter);
-        assert_eq!(app.screen, super::app::Screen::Items);
-        assert_eq!(app.current, Some(second));
+        assert_eq!(app.shown, ScreenId::Items);
+        assert_eq!(app.items.current, Some(second));
         press(&mut app, KeyCode::Char('['));
-        assert_ne!(app.current, Some(second));
+        assert_ne!(app.items.current, Some(second));
     }
 
     #[test]
@@ -664,23 +715,23 @@ mod tests {
             modifiers: KeyModifiers::NONE,
         };
         // Catalogue rows start one line below the pane's top border.
-        let top = app.catalogue_area.y;
+        let top = app.items_layout().catalogue.y;
         super::handle_mouse(
             &mut app,
             mouse(MouseEventKind::Down(MouseButton::Left), 3, top + 4),
         );
-        assert_eq!(app.catalogue_selected, 3);
-        assert_eq!(app.current, Some(app.visible[3]));
+        assert_eq!(app.items.catalogue.selected, 3);
+        assert_eq!(app.items.current, Some(app.items.catalogue.visible[3]));
         super::handle_mouse(&mut app, mouse(MouseEventKind::ScrollDown, 3, top + 4));
-        assert_eq!(app.catalogue_selected, 4);
+        assert_eq!(app.items.catalogue.selected, 4);
         // A click on the second neighbour row (below the column header) selects it.
-        let n = app.neighbours_area;
+        let n = app.items_layout().neighbours;
         super::handle_mouse(
             &mut app,
             mouse(MouseEventKind::Down(MouseButton::Left), n.x + 5, n.y + 3),
         );
-        assert_eq!(app.focus, Pane::Neighbours);
-        assert_eq!(app.neighbour_selected, 1);
+        assert_eq!(app.items.focus, ItemsPane::Neighbours);
+        assert_eq!(app.items.neighbour_selected, 1);
     }
 
     #[test]
@@ -688,13 +739,13 @@ mod tests {
         let mut app = demo_app();
         press(&mut app, KeyCode::Tab);
         press(&mut app, KeyCode::Tab);
-        assert_eq!(app.focus, Pane::Loadings);
+        assert_eq!(app.items.focus, ItemsPane::Loadings);
         press(&mut app, KeyCode::Down);
-        assert_eq!(app.factor_selected, 1);
-        let (top, bottom) = app.factor_extremes.clone();
+        assert_eq!(app.items.factor_selected, 1);
+        let (top, bottom) = app.items.factor_extremes.clone();
         assert_eq!(top.len(), 4);
-        let column = |j: u32| app.model.factors.item(j)[1];
-        let max = (0..app.model.ratings.items.len() as u32)
+        let column = |j: u32| app.shared.model.factors.item(j)[1];
+        let max = (0..app.shared.model.ratings.items.len() as u32)
             .map(column)
             .fold(f64::MIN, f64::max);
         assert_eq!(top[0].1, max);
@@ -708,11 +759,11 @@ mod tests {
     fn searches_wait_for_a_pause_when_deferred() {
         let mut app = demo_app();
         app.deferred.enabled = true;
-        let before = app.neighbours.clone();
+        let before = app.items.neighbours.clone();
         press(&mut app, KeyCode::Down);
         press(&mut app, KeyCode::Down);
         assert!(app.deferred.neighbours);
-        assert_eq!(app.neighbours, before, "no search while keys arrive");
+        assert_eq!(app.items.neighbours, before, "no search while keys arrive");
         assert!(screen(&mut app, 100, 30).contains("updating…"));
         press(&mut app, KeyCode::Char('/'));
         press(&mut app, KeyCode::Char('z'));
@@ -720,11 +771,13 @@ mod tests {
         app.settle();
         assert!(!app.deferred.neighbours && !app.deferred.filter);
         assert!(
-            app.visible
+            app.items
+                .catalogue
+                .visible
                 .iter()
                 .all(|&j| app.title(j).to_lowercase().contains('z'))
         );
-        assert_ne!(app.neighbours, before);
+        assert_ne!(app.items.neighbours, before);
     }
 
     #[test]

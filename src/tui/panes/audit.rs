@@ -1,169 +1,233 @@
-//! The audit screen: how coherent item neighbourhoods are, the least coherent items (a
-//! selectable list: Enter opens one), the largest misses and odd vector lengths.
+//! The audit screen: how coherent item neighbourhoods are and the least coherent items,
+//! the largest misses, and vector lengths with the odd ones — three lists, each with its
+//! own highlight, placed by `layout::audit`.
 
 use ratatui::Frame;
-use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::layout::Rect;
 use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
+use sextant::analysis::diagnostics::Side;
 
-use super::{fit, framed, inner, window_start};
+use super::{fit, framed, inner, padded, text_row, window_start};
 use crate::tui::app::App;
+use crate::tui::layout;
+use crate::tui::state::audit::{AuditView, LEAST, MISSES, VECTORS, list_rows};
 use crate::tui::theme::Theme;
 
 /// Draws the audit screen.
-pub fn render(app: &mut App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let [left, right] =
-        Layout::horizontal([Constraint::Percentage(55), Constraint::Percentage(45)]).areas(area);
-    app.page = inner(left).height.saturating_sub(4).max(1) as usize;
+pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let Some(a) = &app.audit else { return };
-    // Left: coherence summary, then the least coherent items.
+    let l = layout::audit(area, a.focus);
+    if !l.coherence.is_empty() {
+        render_coherence(app, a, frame, l.coherence, theme);
+    }
+    if !l.misses.is_empty() {
+        render_misses(app, a, frame, l.misses, theme);
+    }
+    if !l.vectors.is_empty() {
+        render_vectors(app, a, frame, l.vectors, theme);
+    }
+}
+
+/// "  (Tab: next list)" when the other lists are hidden.
+fn hidden_hint(area: Rect) -> &'static str {
+    if area.width >= layout::WIDE_AUDIT {
+        ""
+    } else {
+        "· Tab: next list "
+    }
+}
+
+fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let focused = a.focus == LEAST;
     let title = match &a.coherence {
-        Some(c) if a.sampled => format!(
-            " Coherence · {} sampled items · {} nearest by cosine ",
-            c.items.len(),
-            c.k
-        ),
         Some(c) => format!(
-            " Coherence · {} items · {} nearest by cosine ",
+            " Coherence · {} {}items · {} nearest by cosine {}",
             c.items.len(),
-            c.k
+            if a.sampled { "sampled " } else { "" },
+            c.k,
+            hidden_hint(area)
         ),
-        None => " Coherence ".to_owned(),
+        None => format!(" Coherence {}", hidden_hint(area)),
     };
-    frame.render_widget(framed(title, true, theme), left);
-    let body = inner(left);
+    frame.render_widget(framed(title, focused, theme), area);
+    let body = inner(area);
     let width = body.width as usize;
-    let mut lines = Vec::new();
-    match &a.coherence {
-        Some(c) => {
-            lines.push(Line::from(vec![
-                Span::raw("same-category share "),
-                Span::styled(format!("{:.3}", c.mean), theme.title()),
-                Span::raw(format!(
-                    " · random neighbours {:.3} ({:.1}×)",
-                    c.baseline,
-                    if c.baseline > 0.0 {
-                        c.mean / c.baseline
-                    } else {
-                        0.0
-                    }
-                )),
-            ]));
-            let weakest = c
-                .categories
-                .iter()
-                .min_by(|x, y| x.mean.total_cmp(&y.mean))
-                .map(|g| {
-                    format!(
-                        "least coherent category: {} {:.2}",
-                        a.categories.names[g.category as usize], g.mean
-                    )
-                })
-                .unwrap_or_default();
-            lines.push(Line::styled(weakest, theme.muted()));
-            lines.push(Line::styled(
-                format!(
-                    "{:>5} {:>6}  item (category) · neighbours mostly",
-                    "same", "P"
-                ),
-                theme.muted(),
-            ));
-            let height = (body.height as usize).saturating_sub(3);
-            let start = window_start(a.selected, a.least.len(), height);
-            for (k, i) in a.least.iter().enumerate().skip(start).take(height) {
-                let mostly = i
-                    .neighbour_category
-                    .map_or("–", |n| a.categories.names[n as usize].as_str());
-                let own = &a.categories.names[i.category as usize];
-                let mark = if app.has_note(i.item) { "✎" } else { " " };
-                let text = format!(
-                    "{:>2}/{:<2} {:>6.3} {mark}{} ({own}) · {mostly}",
-                    i.same,
-                    i.neighbours,
-                    i.p_low,
-                    fit(app.title(i.item), width.saturating_sub(36)),
-                );
-                lines.push(if k == a.selected {
-                    Line::styled(text, theme.selected())
+    let Some(c) = &a.coherence else {
+        frame.render_widget(
+            Paragraph::new("Not measured: the items metadata names fewer than two categories."),
+            body,
+        );
+        return;
+    };
+    let cut = c.unusual_cut();
+    let mut lines = vec![
+        Line::from(vec![
+            Span::raw("same-category share "),
+            Span::styled(format!("{:.3}", c.mean), theme.title()),
+            Span::raw(format!(
+                " · random {:.3} ({:.1}×)",
+                c.baseline,
+                if c.baseline > 0.0 {
+                    c.mean / c.baseline
                 } else {
-                    Line::raw(text)
-                });
-            }
-        }
-        None => lines.push(Line::raw(
-            "Not measured: the items metadata names fewer than two categories.",
-        )),
+                    0.0
+                }
+            )),
+        ]),
+        Line::styled(
+            fit(
+                &format!(
+                    "! = unusually few: P at or below {} (false-discovery rate 5%)",
+                    cut.map_or_else(|| "– (none)".to_owned(), |p| format!("{p:.2e}"))
+                ),
+                width,
+            ),
+            theme.muted(),
+        ),
+    ];
+    // same/n, P, mark, title, " → " + other category.
+    let other_width = 14;
+    let title_width = width.saturating_sub(6 + 9 + 1 + 3 + other_width);
+    lines.push(Line::styled(
+        format!(
+            "{:>5} {:>8}  {}   neighbours mostly",
+            "same",
+            "P",
+            padded("item", title_width)
+        ),
+        theme.muted(),
+    ));
+    let height = list_rows(LEAST, body.height);
+    let start = window_start(a.selected[LEAST], a.least.len(), height);
+    for (k, i) in a.least.iter().enumerate().skip(start).take(height) {
+        let other = i
+            .other_category
+            .map_or("–", |n| a.categories.names[n as usize].as_str());
+        let unusual = cut.is_some_and(|cut| i.p_low <= cut);
+        let mark = if app.has_note(i.item) { "✎" } else { " " };
+        let text = format!(
+            "{:>2}/{:<2} {:>8.1e}{}{mark}{} → {}",
+            i.same,
+            i.neighbours,
+            i.p_low,
+            if unusual { "!" } else { " " },
+            padded(app.title(i.item), title_width),
+            fit(other, other_width),
+        );
+        lines.push(text_row(text, focused && k == a.selected[LEAST], theme));
     }
     frame.render_widget(Paragraph::new(lines), body);
+}
 
-    // Right: worst fits over vector lengths.
-    let [upper, lower] =
-        Layout::vertical([Constraint::Percentage(60), Constraint::Percentage(40)]).areas(right);
+fn render_misses(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let focused = a.focus == MISSES;
     let which = if a.worst_held_out {
         "held-out"
     } else {
         "training"
     };
     frame.render_widget(
-        framed(format!(" Largest misses · {which} ratings "), false, theme),
-        upper,
+        framed(
+            format!(
+                " Largest misses · {which} ratings · Enter opens the member {}",
+                hidden_hint(area)
+            ),
+            focused,
+            theme,
+        ),
+        area,
     );
-    let body = inner(upper);
-    let mut lines = vec![Line::styled(
-        format!("{:>6} {:>6} {:>7}  member · item", "rated", "pred", "resid"),
-        theme.muted(),
-    )];
-    for m in a
+    let body = inner(area);
+    let width = body.width as usize;
+    let users = &app.shared.model.ratings.users;
+    let id_width = a
         .worst
         .iter()
-        .take((body.height as usize).saturating_sub(1))
-    {
-        lines.push(Line::raw(format!(
-            "{:>6} {:>6.2} {:>+7.2}  {} · {}",
+        .map(|m| sextant::text::escaped(users.name(m.user)).chars().count())
+        .max()
+        .unwrap_or(6)
+        .max(6);
+    let mut lines = vec![Line::styled(
+        format!(
+            "{:>6} {:>6} {:>7}  {:<id_width$}  item",
+            "rated", "pred", "resid", "member"
+        ),
+        theme.muted(),
+    )];
+    let height = list_rows(MISSES, body.height);
+    let start = window_start(a.selected[MISSES], a.worst.len(), height);
+    for (k, m) in a.worst.iter().enumerate().skip(start).take(height) {
+        let text = format!(
+            "{:>6} {:>6.2} {:>+7.2}  {:<id_width$}  {}",
             m.actual,
             m.predicted,
             m.residual(),
-            sextant::text::escaped(app.model.ratings.users.name(m.user)),
-            fit(app.title(m.item), (body.width as usize).saturating_sub(32))
-        )));
+            sextant::text::escaped(users.name(m.user)),
+            fit(app.title(m.item), width.saturating_sub(25 + id_width))
+        );
+        lines.push(text_row(text, focused && k == a.selected[MISSES], theme));
     }
     frame.render_widget(Paragraph::new(lines), body);
+}
+
+fn render_vectors(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let focused = a.focus == VECTORS;
     frame.render_widget(
-        framed(" Vector lengths and support ".into(), false, theme),
-        lower,
+        framed(
+            format!(" Vector lengths and support {}", hidden_hint(area)),
+            focused,
+            theme,
+        ),
+        area,
     );
-    let body = inner(lower);
-    let mut lines = vec![Line::raw(format!(
-        "prior-dominated (fewer ratings than the rank): {} members, {} items",
-        a.thin.0, a.thin.1
-    ))];
-    for n in &a.norms {
-        lines.push(Line::raw(format!(
-            "{}s: median {:.3}, {:.3} to {:.3}, {} outlier(s)",
-            n.side.noun(),
-            n.median,
-            n.range.0,
-            n.range.1,
-            n.outliers.len()
-        )));
-        for o in n.outliers.iter().take(2) {
-            let name = match o.side {
-                sextant::analysis::diagnostics::Side::User => {
-                    app.model.ratings.users.name(o.row).to_owned()
-                }
-                sextant::analysis::diagnostics::Side::Item => app.title(o.row).to_owned(),
-            };
-            lines.push(Line::styled(
-                format!(
-                    "  {} · norm {:.3} (z {:+.1}, {} ratings)",
-                    fit(&name, (body.width as usize).saturating_sub(36)),
-                    o.norm,
-                    o.score,
-                    o.ratings
-                ),
-                theme.muted(),
-            ));
-        }
+    let body = inner(area);
+    let width = body.width as usize;
+    let summary = a
+        .norms
+        .iter()
+        .map(|n| {
+            format!(
+                "{}s median {:.3} ({:.3}–{:.3})",
+                n.side.noun(),
+                n.median,
+                n.range.0,
+                n.range.1
+            )
+        })
+        .collect::<Vec<_>>()
+        .join(" · ");
+    let mut lines = vec![
+        Line::raw(fit(
+            &format!(
+                "prior-dominated (fewer ratings than the rank): {} members, {} items",
+                a.thin.0, a.thin.1
+            ),
+            width,
+        )),
+        Line::styled(fit(&summary, width), theme.muted()),
+    ];
+    let height = list_rows(VECTORS, body.height);
+    let start = window_start(a.selected[VECTORS], a.outliers.len(), height);
+    for (k, o) in a.outliers.iter().enumerate().skip(start).take(height) {
+        let name = match o.side {
+            Side::User => format!(
+                "member {}",
+                sextant::text::escaped(app.shared.member_id(o.row))
+            ),
+            Side::Item => app.title(o.row).to_owned(),
+        };
+        let text = format!(
+            "norm {:>7.3} · z {:>+6.1} · {:>5} ratings · {}",
+            o.norm,
+            o.score,
+            o.ratings,
+            fit(&name, width.saturating_sub(44))
+        );
+        lines.push(text_row(text, focused && k == a.selected[VECTORS], theme));
+    }
+    if a.outliers.is_empty() {
+        lines.push(Line::styled("no odd vector lengths", theme.muted()));
     }
     lines.push(Line::styled(
         "full report: sextant audit MODEL --report FILE",

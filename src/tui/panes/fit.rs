@@ -27,13 +27,14 @@ fn bounds(values: impl Iterator<Item = f64>) -> [f64; 2] {
 
 /// Draws the fit screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let m = &app.model.manifest;
+    let m = &app.shared.model.manifest;
     let [top, bottom] =
         Layout::vertical([Constraint::Percentage(55), Constraint::Percentage(45)]).areas(area);
     let [l_area, rmse_area] =
         Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(top);
+    // The accuracy table keeps its 49 columns whole; the histogram takes the rest.
     let [metrics_area, histogram_area] =
-        Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(bottom);
+        Layout::horizontal([Constraint::Min(51), Constraint::Percentage(50)]).areas(bottom);
 
     let trace = &m.trace;
     let iters = [1.0, trace.len().max(2) as f64];
@@ -48,20 +49,31 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             rmse_area,
         );
     } else {
-        let l: Vec<(f64, f64)> = trace.iter().map(|r| (r.iter as f64, r.log_joint)).collect();
-        let yb = bounds(l.iter().map(|p| p.1));
+        // Convergence: how far each iteration's log joint likelihood is from the last one,
+        // on a log scale, so the approach stays visible after the first big step.
+        let last = trace.last().map_or(0.0, |r| r.log_joint);
+        let gaps: Vec<(f64, f64)> = trace
+            .iter()
+            .filter(|r| r.log_joint != last)
+            .map(|r| (r.iter as f64, (last - r.log_joint).abs().log10()))
+            .collect();
+        let yb = bounds(gaps.iter().map(|p| p.1));
         let chart = Chart::new(vec![
             Dataset::default()
                 .marker(Marker::Braille)
                 .graph_type(GraphType::Line)
                 .style(theme.positive())
-                .data(&l),
+                .data(&gaps),
         ])
         .block(framed(
             format!(
-                " Log joint likelihood · {} iterations{} ",
+                " Convergence · {} iterations{} · log₁₀ gap to the final log joint ",
                 trace.len(),
-                if m.converged { ", converged" } else { "" }
+                if m.converged {
+                    ", converged"
+                } else {
+                    ", NOT converged"
+                }
             ),
             false,
             theme,
@@ -72,8 +84,8 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
                 .labels(vec![Line::raw("1"), Line::raw(trace.len().to_string())]),
         )
         .y_axis(Axis::default().bounds(yb).labels(vec![
-            Line::raw(format!("{:.0}", yb[0])),
-            Line::raw(format!("{:.0}", yb[1])),
+            Line::raw(format!("1e{:.0}", yb[0])),
+            Line::raw(format!("1e{:.0}", yb[1])),
         ]));
         frame.render_widget(chart, l_area);
         let train: Vec<(f64, f64)> = trace
@@ -84,7 +96,13 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             .iter()
             .filter_map(|r| r.holdout_rmse.map(|h| (r.iter as f64, h)))
             .collect();
-        let yb = bounds(train.iter().chain(&held).map(|p| p.1));
+        // The first iteration starts far off: the range is set from the second on (the
+        // first point is drawn at the top edge), so the curve after it is readable.
+        let yb = bounds(train.iter().skip(1).chain(held.iter().skip(1)).map(|p| p.1));
+        let clipped = |points: &[(f64, f64)]| -> Vec<(f64, f64)> {
+            points.iter().map(|&(x, y)| (x, y.min(yb[1]))).collect()
+        };
+        let (train, held) = (clipped(&train), clipped(&held));
         let mut sets = vec![
             Dataset::default()
                 .name("train")
@@ -104,7 +122,11 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             );
         }
         let chart = Chart::new(sets)
-            .block(framed(" RMSE per iteration ".into(), false, theme))
+            .block(framed(
+                " RMSE per iteration (from the 2nd) ".into(),
+                false,
+                theme,
+            ))
             .x_axis(
                 Axis::default()
                     .bounds(iters)
@@ -165,6 +187,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     );
 
     let bars: Vec<Bar<'_>> = app
+        .fit
         .histogram
         .iter()
         .map(|&(centre, count)| {
@@ -179,7 +202,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         })
         .collect();
     let inner_width = inner(histogram_area).width as usize;
-    let bar_width = (inner_width / app.histogram.len().max(1))
+    let bar_width = (inner_width / app.fit.histogram.len().max(1))
         .saturating_sub(1)
         .max(1) as u16;
     let chart = BarChart::default()

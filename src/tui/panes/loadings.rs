@@ -6,7 +6,9 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
 
 use super::{framed, inner};
-use crate::tui::app::{App, Pane};
+use crate::tui::app::App;
+use crate::tui::state::items::ItemsPane;
+use crate::tui::state::shared::factor_name;
 use crate::tui::theme::Theme;
 
 /// A bar of `value / scale` of `half` cells, drawn leftwards for negative values.
@@ -25,11 +27,16 @@ pub fn signed_bar(value: f64, scale: f64, half: usize) -> (String, String) {
     }
 }
 
+/// Fewest cells each half of a bar keeps when factor labels take a column.
+const MIN_HALF: usize = 8;
+
 /// Draws the loadings pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let note = app
+    let s = &app.items;
+    let focused = s.focus == ItemsPane::Loadings;
+    let note = s
         .current
-        .and_then(|j| app.notes.current.item_note(app.model.ratings.items.name(j)));
+        .and_then(|j| app.notes.current.item_note(app.shared.item_id(j)));
     let title = match note {
         Some(n) => format!(
             " Loadings · note: {} ",
@@ -37,10 +44,10 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         ),
         None => " Loadings · factor values of the current item ".to_owned(),
     };
-    frame.render_widget(framed(title, app.focus == Pane::Loadings, theme), area);
+    frame.render_widget(framed(title, focused, theme), area);
     let mut body = inner(area);
-    let Some(j) = app.current else { return };
-    if app.focus == Pane::Loadings && body.width >= 60 {
+    let Some(j) = s.current else { return };
+    if focused && body.width >= 60 {
         // Beside the bars: what the highlighted factor stands for.
         let [bars, meaning] = ratatui::layout::Layout::horizontal([
             ratatui::layout::Constraint::Percentage(55),
@@ -50,19 +57,23 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         body = bars;
         render_meaning(app, frame, meaning, theme);
     }
-    let values = app.model.factors.item(j);
+    let values = app.shared.model.factors.item(j);
     let scale = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-    // Curators' factor labels get a column of their own when there are any.
+    // Curators' factor labels get a column of their own when there are any, as wide as
+    // leaves each half of the bars at least MIN_HALF cells (the whole label is in the
+    // meaning beside the bars, and in the help of the highlighted factor).
     let labels = &app.notes.current.factors;
+    let room = (body.width as usize).saturating_sub(14 + 2 * MIN_HALF);
     let label_width = labels
         .iter()
         .filter(|(f, _)| **f <= values.len())
         .map(|(_, l)| l.chars().count())
         .max()
-        .map_or(0, |w| w.min(14) + 1);
+        .map_or(0, |w| w.min(14).min(room.saturating_sub(1)) + 1);
+    let label_width = if label_width < 4 { 0 } else { label_width };
     let half = (body.width as usize).saturating_sub(14 + label_width) / 2;
     let height = body.height as usize;
-    let start = app.factor_selected.saturating_sub(height.saturating_sub(1));
+    let start = s.factor_selected.saturating_sub(height.saturating_sub(1));
     let lines: Vec<Line<'_>> = values
         .iter()
         .enumerate()
@@ -77,7 +88,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
                 String::new()
             };
             let label = format!("f{:<3}{name}{:>+7.3} ", d + 1, v);
-            let label = if d == app.factor_selected && app.focus == Pane::Loadings {
+            let label = if d == s.factor_selected && focused {
                 Span::styled(label, theme.selected())
             } else {
                 Span::raw(label)
@@ -96,21 +107,18 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
 /// The items loading most positively and most negatively on the highlighted factor.
 fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let width = area.width as usize;
-    let (top, bottom) = &app.factor_extremes;
+    let s = &app.items;
+    let (top, bottom) = &s.factor_extremes;
     let row = |&(j, v): &(u32, f64)| {
         Line::raw(format!(
             "{v:>+6.2} {}",
             super::fit(app.title(j), width.saturating_sub(8))
         ))
     };
-    let number = app.factor_selected + 1;
-    let heading = match app.notes.current.factor_label(number) {
-        Some(label) => format!(
-            "factor {number} ({}) — most positive:",
-            sextant::text::escaped(label)
-        ),
-        None => format!("factor {number} — most positive:"),
-    };
+    let heading = format!(
+        "{} — most positive:",
+        factor_name(&app.notes.current, s.factor_selected + 1)
+    );
     let favours = |list: &[String]| {
         if list.is_empty() {
             None
@@ -122,10 +130,10 @@ fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         }
     };
     let mut lines = vec![Line::styled(heading, theme.positive())];
-    lines.extend(favours(&app.factor_favours.0));
+    lines.extend(favours(&s.factor_favours.0));
     lines.extend(top.iter().map(row));
     lines.push(Line::styled("most negative:", theme.negative()));
-    lines.extend(favours(&app.factor_favours.1));
+    lines.extend(favours(&s.factor_favours.1));
     lines.extend(bottom.iter().map(row));
     frame.render_widget(Paragraph::new(lines), area);
 }

@@ -29,15 +29,16 @@ const PALETTE: [Color; 8] = [
 
 /// Draws the map screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let Some(p) = &app.projection else { return };
-    let [[x0, x1], [y0, y1]] = app.map_extent;
-    let half = |lo: f64, hi: f64| ((hi - lo) / 2.0).max(1e-9) / app.map_zoom;
+    let map = &app.map;
+    let Some(p) = &map.projection else { return };
+    let [[x0, x1], [y0, y1]] = map.extent;
+    let half = |lo: f64, hi: f64| ((hi - lo) / 2.0).max(1e-9) / map.zoom;
     let (cx, cy) = (
-        f64::midpoint(x0, x1) + app.map_centre[0],
-        f64::midpoint(y0, y1) + app.map_centre[1],
+        f64::midpoint(x0, x1) + map.centre[0],
+        f64::midpoint(y0, y1) + map.centre[1],
     );
     let (hx, hy) = (half(x0, x1), half(y0, y1));
-    let categories = &app.categories;
+    let categories = &app.shared.categories;
     let step = (p.points.len() / MAX_POINTS).max(1);
     let mut layers: Vec<(Color, Vec<(f64, f64)>)> =
         PALETTE.iter().map(|&c| (c, Vec::new())).collect();
@@ -50,16 +51,17 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         layers[layer].1.push((q[0], q[1]));
     }
     let neighbours: Vec<(f64, f64)> = app
+        .items
         .neighbours
         .iter()
         .map(|n| (p.points[n.item as usize][0], p.points[n.item as usize][1]))
         .collect();
-    let current = app.current.map(|j| p.points[j as usize]);
+    let current = app.items.current.map(|j| p.points[j as usize]);
     let title = format!(
-        " Map · PCA of item vectors · x {:.0}%, y {:.0}% of variance · zoom {:.1}× · ● current, ○ neighbours ",
+        " Map · principal components x {:.0}%, y {:.0}% · zoom {:.1}× · ● current ○ neighbours ",
         100.0 * p.explained_ratio[0],
         100.0 * p.explained_ratio[1],
-        app.map_zoom
+        map.zoom
     );
     let legend = categories
         .iter()

@@ -1,38 +1,80 @@
-//! The member screen: their ratings beside the model's predictions, their suggestions, and
-//! the explanation of the highlighted item (built from this member's own ratings only).
+//! The member screen: their ratings beside the model's predictions (or a what-if
+//! profile's), their suggestions, and the explanation of the highlighted item (built from
+//! this member's own ratings only), placed by `layout::member`.
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
+use sextant::analysis::explain::Explanation;
 
-use super::{fit, framed, inner, window_start};
+use super::{fit, framed, inner, text_row, window_start};
 use crate::tui::app::App;
+use crate::tui::layout;
+use crate::tui::state::member::{MemberPane, MemberView};
+use crate::tui::state::shared::factor_name;
 use crate::tui::theme::Theme;
 
 /// Draws the member screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let Some(m) = &app.member else {
-        let text = vec![
-            Line::raw(""),
-            Line::raw(
-                "  No member open. Press u and type a member id (for the demo, m0001 … m1500).",
-            ),
-            Line::styled(
-                "  Ratings are personal data: look only at what your work needs.",
-                theme.muted(),
-            ),
-        ];
-        frame.render_widget(
-            Paragraph::new(text).block(framed(" Member ".into(), true, theme)),
-            area,
-        );
+        render_empty(app, frame, area, theme);
         return;
     };
-    let [left, right] =
-        Layout::horizontal([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(area);
-    let [upper, lower] =
-        Layout::vertical([Constraint::Percentage(45), Constraint::Percentage(55)]).areas(right);
+    let l = layout::member(area, m.explained_list == MemberPane::Suggestions);
+    if !l.ratings.is_empty() {
+        render_ratings(app, m, frame, l.ratings, theme);
+    }
+    if !l.suggestions.is_empty() {
+        render_suggestions(app, m, frame, l.suggestions, theme);
+    }
+    let focused = m.focus == MemberPane::Why;
+    let title = if focused {
+        " Why · the highlighted item · ↑↓ scroll "
+    } else {
+        " Why · the highlighted item "
+    };
+    frame.render_widget(framed(title.into(), focused, theme), l.why);
+    let body = inner(l.why);
+    if let Some(e) = &m.explanation {
+        let lines: Vec<Line<'static>> = why_lines(app, e, body.width as usize, theme)
+            .into_iter()
+            .skip(m.why_scroll)
+            .collect();
+        frame.render_widget(Paragraph::new(lines), body);
+    }
+}
+
+fn render_empty(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let users = &app.shared.model.ratings.users;
+    let example = if users.is_empty() {
+        String::new()
+    } else {
+        format!(
+            " (this model's ids run from {} to {})",
+            sextant::text::escaped(users.name(0)),
+            sextant::text::escaped(users.name(users.len() as u32 - 1))
+        )
+    };
+    let text = vec![
+        Line::raw(""),
+        Line::raw(format!(
+            "  No member open. Press u and type a member id{example},"
+        )),
+        Line::raw("  or w to start a what-if profile from nobody."),
+        Line::styled(
+            "  Ratings are personal data: look only at what your work needs.",
+            theme.muted(),
+        ),
+    ];
+    frame.render_widget(
+        Paragraph::new(text).block(framed(" Member ".into(), true, theme)),
+        area,
+    );
+}
+
+fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let users = &app.shared.model.ratings.users;
     let train = m.rated.iter().filter(|r| !r.holdout).count();
     let order = if m.by_residual {
         "largest misses first"
@@ -41,26 +83,24 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     };
     let title = match (&m.what_if, m.user) {
         (Some(_), Some(u)) => format!(
-            " What-if from member {} · {} ratings · < > d edit, a add, w leave ",
-            app.model.ratings.users.name(u),
+            " What-if from member {} · {} ratings ",
+            users.name(u),
             m.rated.len()
         ),
-        (Some(_), None) => format!(
-            " What-if · new profile · {} ratings · < > d edit, a add, w leave ",
-            m.rated.len()
-        ),
+        (Some(_), None) => format!(" What-if · new profile · {} ratings ", m.rated.len()),
         (None, Some(u)) => format!(
-            " Member {} · {train} training + {} held-out ratings · {order} ",
-            app.model.ratings.users.name(u),
+            " Member {} · {train} training + {} held out · {order} ",
+            users.name(u),
             m.rated.len() - train
         ),
         (None, None) => " Member ".to_owned(),
     };
-    frame.render_widget(framed(title, !m.in_suggestions, theme), left);
-    let mut body = inner(left);
+    let focused = m.focus == MemberPane::Ratings;
+    frame.render_widget(framed(title, focused, theme), area);
+    let mut body = inner(area);
     if let Some(w) = &m.what_if {
         // The folded-in vector, one small signed bar per factor, above the ratings.
-        let rows = (w.vector.len() as u16 + 1).min(body.height / 2);
+        let rows = (w.vector.len() as u16 + 1).min(body.height / 3);
         let [vector_area, rest] =
             Layout::vertical([Constraint::Length(rows), Constraint::Min(0)]).areas(body);
         body = rest;
@@ -90,7 +130,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         frame.render_widget(Paragraph::new(lines), vector_area);
     }
     let width = body.width as usize;
-    let height = body.height as usize;
+    let height = (body.height as usize).saturating_sub(1);
     let mut lines = vec![Line::styled(
         format!(
             "{:>6} {:>6} {:>4} {:>7}  item  (* held out)",
@@ -98,19 +138,8 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         ),
         theme.muted(),
     )];
-    let selected = if m.in_suggestions {
-        usize::MAX
-    } else {
-        m.selected
-    };
-    let start = window_start(m.selected, m.rated.len(), height.saturating_sub(1));
-    for (k, r) in m
-        .rated
-        .iter()
-        .enumerate()
-        .skip(start)
-        .take(height.saturating_sub(1))
-    {
+    let start = window_start(m.rated_selected, m.rated.len(), height);
+    for (k, r) in m.rated.iter().enumerate().skip(start).take(height) {
         let mark = if r.holdout {
             "*"
         } else if app.has_note(r.item) {
@@ -126,33 +155,30 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             r.residual,
             fit(app.title(r.item), width.saturating_sub(29))
         );
-        lines.push(if k == selected {
-            Line::styled(text, theme.selected())
-        } else {
-            Line::raw(text)
-        });
+        let highlighted = k == m.rated_selected && m.explained_list == MemberPane::Ratings;
+        lines.push(text_row(text, highlighted, theme));
     }
     frame.render_widget(Paragraph::new(lines), body);
+}
 
+fn render_suggestions(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    let focused = m.focus == MemberPane::Suggestions;
     frame.render_widget(
         framed(
-            " Suggestions · unrated items, highest predicted first ".into(),
-            m.in_suggestions,
+            " Suggestions · unrated, highest predicted first ".into(),
+            focused,
             theme,
         ),
-        upper,
+        area,
     );
-    let body = inner(upper);
+    let body = inner(area);
+    let height = (body.height as usize).saturating_sub(1);
     let mut lines = vec![Line::styled(
         format!("{:>3} {:>6} {:>5}  item", "#", "pred", "± sd"),
         theme.muted(),
     )];
-    for (k, s) in m
-        .suggestions
-        .iter()
-        .enumerate()
-        .take((body.height as usize).saturating_sub(1))
-    {
+    let start = window_start(m.suggestion_selected, m.suggestions.len(), height);
+    for (k, s) in m.suggestions.iter().enumerate().skip(start).take(height) {
         let sd = s
             .predictive_sd
             .map_or_else(|| "–".to_owned(), |v| format!("{v:.2}"));
@@ -163,20 +189,29 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             s.predicted,
             fit(app.title(s.item), (body.width as usize).saturating_sub(19))
         );
-        lines.push(if m.in_suggestions && k == m.selected {
-            Line::styled(text, theme.selected())
-        } else {
-            Line::raw(text)
-        });
+        let highlighted = k == m.suggestion_selected && m.explained_list == MemberPane::Suggestions;
+        lines.push(text_row(text, highlighted, theme));
     }
     frame.render_widget(Paragraph::new(lines), body);
+}
 
-    frame.render_widget(
-        framed(" Why · the highlighted item ".into(), false, theme),
-        lower,
-    );
-    let body = inner(lower);
-    let Some(e) = &m.explanation else { return };
+/// Lines of the explanation before the contributions (title, prediction, μ).
+const HEAD: usize = 3;
+
+/// How many lines the explanation `e` takes (for scrolling).
+pub fn why_line_count(e: &Explanation) -> usize {
+    let evidence = if e.evidence.is_empty() {
+        0
+    } else {
+        1 + e.evidence.len()
+    };
+    HEAD + e.contributions.len() + 1 + evidence + 1
+}
+
+/// The explanation as lines of at most `width` characters: the prediction, μ and every
+/// factor's contribution (curators' labels beside the factor), their sum, the member's own
+/// nearest rated items, and the support.
+pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<Line<'static>> {
     let sd = e
         .predictive_sd
         .map_or_else(|| "undetermined".to_owned(), |v| format!("± {v:.2}"));
@@ -184,23 +219,43 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         .actual
         .map_or_else(|| "not rated".to_owned(), |a| format!("rated {a}"));
     let mut lines = vec![
-        Line::from(vec![Span::styled(
-            fit(app.title(e.item), body.width as usize),
-            theme.title(),
-        )]),
-        Line::raw(format!(
-            "predicted {:.2} → {} ({sd}); {actual}",
-            e.predicted, e.rounded
+        Line::styled(fit(app.title(e.item), width), theme.title()),
+        Line::raw(fit(
+            &format!(
+                "predicted {:.3} → {} ({sd}); {actual}",
+                e.predicted, e.rounded
+            ),
+            width,
         )),
-        Line::raw(format!(
-            "  {:+.3}  {}",
-            e.mu,
-            app.model.manifest.center.mu_label()
+        Line::raw(fit(
+            &format!(
+                "  {:+8.3}  {}",
+                e.mu,
+                app.shared.model.manifest.center.mu_label()
+            ),
+            width,
         )),
     ];
-    for c in e.contributions.iter().take(4) {
-        lines.push(Line::raw(format!("  {:+.3}  factor {}", c.value, c.factor)));
+    for c in &e.contributions {
+        lines.push(Line::raw(fit(
+            &format!(
+                "  {:+8.3}  {}",
+                c.value,
+                factor_name(&app.notes.current, c.factor)
+            ),
+            width,
+        )));
     }
+    lines.push(Line::styled(
+        fit(
+            &format!(
+                "= {:+8.3}  the prediction (μ plus every factor)",
+                e.predicted
+            ),
+            width,
+        ),
+        theme.title(),
+    ));
     if !e.evidence.is_empty() {
         lines.push(Line::styled(
             "their own nearest rated items:",
@@ -210,7 +265,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             lines.push(Line::raw(format!(
                 "  rated {} · {}",
                 x.actual,
-                fit(app.title(x.item), (body.width as usize).saturating_sub(12))
+                fit(app.title(x.item), width.saturating_sub(12))
             )));
         }
     }
@@ -223,12 +278,15 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         }
     };
     lines.push(Line::styled(
-        format!(
-            "support: member {}{} · item {}{}",
-            s.user_ratings,
-            low(s.user_low_support),
-            s.item_ratings,
-            low(s.item_low_support)
+        fit(
+            &format!(
+                "support: member {}{} · item {}{}",
+                s.user_ratings,
+                low(s.user_low_support),
+                s.item_ratings,
+                low(s.item_low_support)
+            ),
+            width,
         ),
         if s.user_low_support || s.item_low_support {
             theme.warning()
@@ -236,5 +294,6 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             theme.muted()
         },
     ));
-    frame.render_widget(Paragraph::new(lines), body);
+    debug_assert_eq!(lines.len(), why_line_count(e));
+    lines
 }

@@ -1,19 +1,23 @@
-//! One file per pane; each draws ready-made rows from the `App` and changes nothing.
+//! One file per pane; each draws ready-made rows from `&App` and changes nothing.
 
 pub mod audit;
 pub mod catalogue;
 pub mod fit;
 pub mod help;
+pub mod items;
 pub mod loadings;
 pub mod map;
 pub mod member;
 pub mod neighbours;
 pub mod status_bar;
 
-use ratatui::layout::Rect;
+use ratatui::style::Style;
+use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders};
 
 use super::theme::Theme;
+
+pub use super::layout::inner;
 
 /// A bordered block with a title, highlighted when focused.
 pub fn framed(title: String, focused: bool, theme: Theme) -> Block<'static> {
@@ -28,6 +32,7 @@ pub fn framed(title: String, focused: bool, theme: Theme) -> Block<'static> {
 }
 
 /// First row of a window of `height` rows that keeps `selected` visible, roughly centred.
+/// Drawing and mouse clicks both use it, so a click lands on the row drawn there.
 pub fn window_start(selected: usize, len: usize, height: usize) -> usize {
     if len <= height || height == 0 {
         return 0;
@@ -47,7 +52,30 @@ pub fn fit(text: &str, width: usize) -> String {
     out
 }
 
-/// The inner area of a bordered block.
-pub fn inner(area: Rect) -> Rect {
-    Block::default().borders(Borders::ALL).inner(area)
+/// `text` cut or padded to exactly `width` characters.
+pub fn padded(text: &str, width: usize) -> String {
+    format!("{:<width$}", fit(text, width))
+}
+
+/// A row of spans, highlighted as a whole when `selected`.
+pub fn row(spans: Vec<Span<'static>>, selected: bool, theme: Theme) -> Line<'static> {
+    if selected {
+        Line::from(
+            spans
+                .into_iter()
+                .map(|s| s.patch_style(theme.selected()))
+                .collect::<Vec<_>>(),
+        )
+    } else {
+        Line::from(spans)
+    }
+}
+
+/// A plain line of text, highlighted when `selected`.
+pub fn text_row(text: String, selected: bool, theme: Theme) -> Line<'static> {
+    if selected {
+        Line::styled(text, theme.selected())
+    } else {
+        Line::styled(text, Style::new())
+    }
 }

@@ -1,4 +1,5 @@
-//! The current item's nearest items, with both measures.
+//! The current item's nearest items, with both measures. The title gets the room; the
+//! category column goes first when the pane is narrow.
 
 use ratatui::Frame;
 use ratatui::layout::Rect;
@@ -6,56 +7,55 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
 use sextant::index::Metric;
 
-use super::{fit, framed, inner, window_start};
-use crate::tui::app::{App, Pane};
+use super::{fit, framed, inner, padded, row, window_start};
+use crate::tui::app::App;
+use crate::tui::state::items::ItemsPane;
 use crate::tui::theme::Theme;
+
+/// Fewest characters a title keeps before the category column is dropped.
+const TITLE_ROOM: usize = 24;
 
 /// Draws the neighbours pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let metric = match app.metric {
+    let s = &app.items;
+    let metric = match s.metric {
         Metric::Euclidean => "euclidean",
         Metric::Cosine => "cosine",
     };
-    let title = match app.current {
+    let room = (area.width as usize).saturating_sub(30).max(12);
+    let title = match s.current {
         Some(j) if app.deferred.neighbours => {
-            format!(" Nearest to {} · updating… ", fit(app.title(j), 40))
+            format!(" Nearest to {} · updating… ", fit(app.title(j), room))
         }
         Some(j) => format!(
             " Nearest {} to {} · {metric} ",
-            app.k,
-            fit(app.title(j), 40)
+            s.k,
+            fit(app.title(j), room)
         ),
         None => " Nearest items ".to_owned(),
     };
-    frame.render_widget(framed(title, app.focus == Pane::Neighbours, theme), area);
+    let focused = s.focus == ItemsPane::Neighbours;
+    frame.render_widget(framed(title, focused, theme), area);
     let body = inner(area);
     let width = body.width as usize;
-    let height = body.height as usize;
+    let height = (body.height as usize).saturating_sub(1);
     let mut lines = vec![Line::styled(
         format!("{:>3} {:>8} {:>7}  item", "#", "distance", "cosine"),
         theme.muted(),
     )];
-    let start = window_start(
-        app.neighbour_selected,
-        app.neighbours.len(),
-        height.saturating_sub(1),
-    );
-    for (offset, row) in app
-        .neighbours
-        .iter()
-        .enumerate()
-        .skip(start)
-        .take(height.saturating_sub(1))
-    {
-        let cos = row
+    // "#", distance, cosine and the mark take 22 columns.
+    let with_category = width.saturating_sub(22 + 13) >= TITLE_ROOM;
+    let title_width = width.saturating_sub(22 + if with_category { 13 } else { 0 });
+    let start = window_start(s.neighbour_selected, s.neighbours.len(), height);
+    for (offset, n) in s.neighbours.iter().enumerate().skip(start).take(height) {
+        let cos = n
+            .near
             .cosine
             .map_or_else(|| "–".to_owned(), |c| format!("{c:.3}"));
-        let category = app.category(row.item).unwrap_or("");
-        let title_width = width.saturating_sub(24 + category.len().min(12));
-        let flagged = app.current.is_some_and(|j| app.is_flagged(j, row.item));
+        let flagged = s.current.is_some_and(|j| app.is_flagged(j, n.item));
         let mark = if flagged {
             "✗"
-        } else if app.has_note(row.item) {
+        } else if app.has_note(n.item) {
             "✎"
         } else {
             " "
@@ -64,21 +64,17 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             Span::raw(format!(
                 "{:>3} {:>8.4} {cos:>7} {mark}",
                 offset + 1,
-                row.distance
+                n.near.distance
             )),
-            Span::raw(format!(
-                "{:<title_width$}",
-                fit(app.title(row.item), title_width)
-            )),
-            Span::styled(format!(" {}", fit(category, 12)), theme.category()),
+            Span::raw(padded(app.title(n.item), title_width)),
         ];
-        if offset == app.neighbour_selected && app.focus == Pane::Neighbours {
-            spans = spans
-                .into_iter()
-                .map(|s| s.patch_style(theme.selected()))
-                .collect();
+        if with_category {
+            spans.push(Span::styled(
+                format!(" {}", fit(app.category(n.item).unwrap_or(""), 12)),
+                theme.category(),
+            ));
         }
-        lines.push(Line::from(spans));
+        lines.push(row(spans, focused && offset == s.neighbour_selected, theme));
     }
     frame.render_widget(Paragraph::new(lines), body);
 }

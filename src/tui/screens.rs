@@ -1,0 +1,115 @@
+//! The list of screens: the tab bar, the keys that switch screens and the help's sections
+//! are all generated from [`SCREENS`].
+//!
+//! Adding a screen touches three files: its state (with its own `update`) under
+//! `state/`, its pane under `panes/`, and this one (a row of the table, and one arm in each
+//! of [`render`] and [`update`]).
+
+use ratatui::Frame;
+use ratatui::layout::Rect;
+
+use super::action::Action;
+use super::app::App;
+use super::keymap::Binding;
+use super::theme::Theme;
+
+/// Which screen is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum ScreenId {
+    /// Catalogue, neighbours, loadings.
+    Items,
+    /// One member (or a what-if profile): ratings, suggestions, explanation.
+    Member,
+    /// The items' 2-D map.
+    Map,
+    /// The fit's health.
+    Fit,
+    /// Audit: neighbour coherence, largest misses, odd vector lengths.
+    Audit,
+}
+
+/// One screen: the key that shows it, its name on the tab bar, what it is for, and its
+/// own keys.
+#[derive(Debug, Clone, Copy)]
+pub struct Screen {
+    /// Which screen.
+    pub id: ScreenId,
+    /// The key that shows it.
+    pub key: char,
+    /// Its name on the tab bar and in the help.
+    pub name: &'static str,
+    /// One line on what it shows, for the help.
+    pub description: &'static str,
+    /// The key tables of its own (besides the keys of every screen).
+    pub bindings: &'static [&'static [Binding]],
+}
+
+/// Every screen, in tab order.
+pub const SCREENS: &[Screen] = &[
+    Screen {
+        id: ScreenId::Items,
+        key: '1',
+        name: "items",
+        description: "catalogue, nearest items, factor values",
+        bindings: super::state::items::BINDINGS,
+    },
+    Screen {
+        id: ScreenId::Member,
+        key: '2',
+        name: "member",
+        description: "a member's ratings, suggestions and why; what-if profiles",
+        bindings: super::state::member::BINDINGS,
+    },
+    Screen {
+        id: ScreenId::Map,
+        key: '3',
+        name: "map",
+        description: "2-D map of the items (principal components)",
+        bindings: super::state::map::BINDINGS,
+    },
+    Screen {
+        id: ScreenId::Fit,
+        key: '4',
+        name: "fit",
+        description: "fit health: convergence, accuracy, residuals",
+        bindings: super::state::fit::BINDINGS,
+    },
+    Screen {
+        id: ScreenId::Audit,
+        key: '5',
+        name: "audit",
+        description: "neighbour coherence, largest misses, odd vectors",
+        bindings: super::state::audit::BINDINGS,
+    },
+];
+
+/// The table row of `id`.
+pub fn screen(id: ScreenId) -> &'static Screen {
+    SCREENS
+        .iter()
+        .find(|s| s.id == id)
+        .expect("every screen has a row in SCREENS")
+}
+
+/// Draws screen `id` into `area`.
+pub fn render(id: ScreenId, app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+    use super::panes;
+    match id {
+        ScreenId::Items => panes::items::render(app, frame, area, theme),
+        ScreenId::Member => panes::member::render(app, frame, area, theme),
+        ScreenId::Map => panes::map::render(app, frame, area, theme),
+        ScreenId::Fit => panes::fit::render(app, frame, area, theme),
+        ScreenId::Audit => panes::audit::render(app, frame, area, theme),
+    }
+}
+
+/// Hands `action` to screen `id`'s own update (for actions of its own context).
+pub fn update(id: ScreenId, app: &mut App, action: Action) {
+    match id {
+        ScreenId::Items => app.update_items(action),
+        ScreenId::Member => app.update_member(action),
+        ScreenId::Map => app.update_map(action),
+        ScreenId::Fit => app.update_fit(action),
+        ScreenId::Audit => app.update_audit(action),
+    }
+}

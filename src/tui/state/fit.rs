@@ -1,0 +1,30 @@
+//! The fit screen's state: the training residuals in bins, computed the first time the
+//! screen is shown. The screen has no keys of its own.
+
+use sextant::analysis::metrics::residual_histogram;
+
+use crate::tui::action::Action;
+use crate::tui::app::App;
+use crate::tui::keymap::Binding;
+
+/// The fit screen has no lists, so no keys of its own.
+pub const BINDINGS: &[&[Binding]] = &[];
+
+/// The fit screen's state.
+#[derive(Debug, Clone, Default)]
+pub struct FitView {
+    /// Training residuals in bins (centre, count), once computed.
+    pub histogram: Vec<(f64, u64)>,
+}
+
+impl App {
+    /// The fit screen's own actions.
+    pub fn update_fit(&mut self, action: Action) {
+        if let Action::Show(_) = action
+            && self.fit.histogram.is_empty()
+        {
+            let m = &self.shared.model;
+            self.fit.histogram = residual_histogram(&m.factors, &m.ratings, 21, 3.0);
+        }
+    }
+}
