@@ -142,7 +142,9 @@ fn explain_formats_agree_and_add_up() {
             .sum::<f64>();
     assert!((sum - j["predicted"].as_f64().unwrap()).abs() < 1e-12);
     let csv = csv_rows(&["explain", &m, "m0001", "r001"]);
-    assert_eq!(csv[0], ["factor", "value"]);
+    assert_eq!(csv[0], ["factor", "value", "label"]);
+    // Unlabelled factors: null in JSON, empty in CSV.
+    assert!(contributions.iter().all(|c| c["label"].is_null()));
     for (row, c) in csv[1..].iter().zip(contributions) {
         assert_eq!(
             row[0].parse::<u64>().unwrap(),
@@ -247,4 +249,37 @@ fn neighbours_of_every_item_equal_the_single_lists() {
             assert_eq!(got, expected, "{metric} {item}");
         }
     }
+}
+
+#[test]
+fn explain_names_labelled_factors_in_every_format() {
+    let dir = tempfile::tempdir().unwrap();
+    let model = dir.path().join("m");
+    common::copy_dir(&repo("demo-data/model"), &model);
+    let m = model.display().to_string();
+    let top = json(&["explain", &m, "m0001", "r001"])["contributions"][0]["factor"]
+        .as_u64()
+        .unwrap()
+        .to_string();
+    let out = sextant(&["notes", &m, "--factor", &top, "hearty vs light"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let j = json(&["explain", &m, "m0001", "r001"]);
+    let first = &j["contributions"][0];
+    assert_eq!(first["label"], "hearty vs light");
+    assert!(j["contributions"][1]["label"].is_null());
+    let csv = csv_rows(&["explain", &m, "m0001", "r001"]);
+    assert_eq!(csv[1][2], "hearty vs light");
+    let table = sextant(&["explain", &m, "m0001", "r001"]);
+    let text = String::from_utf8_lossy(&table.stdout);
+    assert!(
+        text.contains(&format!("factor {top} (hearty vs light)")),
+        "{text}"
+    );
+    let plain = sextant(&["explain", &m, "m0001", "r001", "--plain"]);
+    let text = String::from_utf8_lossy(&plain.stdout);
+    assert!(text.contains("\"hearty vs light\""), "{text}");
 }

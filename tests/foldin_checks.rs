@@ -11,6 +11,7 @@ use sextant::analysis::plain::plain_explanation;
 use sextant::analysis::suggest;
 use sextant::index::{InnerProductIndex, Path};
 use sextant::model::load_model;
+use sextant::model::notes::Annotations;
 
 #[test]
 fn folding_in_equals_a_numpy_ridge_solve() {
@@ -140,7 +141,7 @@ fn a_plain_explanation_uses_only_the_members_own_ratings() {
         let rated = training_ratings(&model, user);
         for item in [5u32, 42, 300] {
             let e = sextant::analysis::explain(&model, user, item, 5, &counts);
-            let text = plain_explanation(&model, &e);
+            let text = plain_explanation(&model, &e, &Annotations::default());
             // Every catalogue title it names is the item itself or one the member rated.
             let titles = model.meta.as_ref().unwrap();
             for j in 0..model.factors.item_count() as u32 {

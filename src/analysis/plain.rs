@@ -6,6 +6,7 @@ use super::explain::Explanation;
 use crate::data::RatingScale;
 use crate::data::factors::format_float;
 use crate::model::Model;
+use crate::model::notes::Annotations;
 
 /// How many of the member's nearest rated items are named.
 const NAMED: usize = 2;
@@ -43,8 +44,10 @@ fn list(names: &[String]) -> String {
 }
 
 /// The plain explanation of `e` (an explanation of one item for one member or profile).
-/// Uses the member's own ratings only: the evidence in `e` comes from them.
-pub fn plain_explanation(model: &Model, e: &Explanation) -> String {
+/// Uses the member's own ratings only: the evidence in `e` comes from them. When the
+/// factor that moves the estimate most carries a curator's label in `notes`, a sentence
+/// names it in the curator's words.
+pub fn plain_explanation(model: &Model, e: &Explanation, notes: &Annotations) -> String {
     let scale = &model.manifest.scale;
     let item = name(model, e.item);
     let mut sentences = Vec::new();
@@ -73,6 +76,16 @@ pub fn plain_explanation(model: &Model, e: &Explanation) -> String {
             list(&items)
         ));
     }
+    if let Some(top) = e.contributions.first()
+        && let Some(label) = notes.factor_label(top.factor)
+        && top.value.abs() >= 0.05
+    {
+        sentences.push(format!(
+            "What moves this estimate most is \"{label}\": it {} it by {:.1}.",
+            if top.value > 0.0 { "raises" } else { "lowers" },
+            top.value.abs()
+        ));
+    }
     let rated = e.support.user_ratings;
     if e.support.user_low_support {
         sentences.push(format!(
@@ -88,4 +101,30 @@ pub fn plain_explanation(model: &Model, e: &Explanation) -> String {
         ));
     }
     sentences.join(" ")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_labelled_factor_is_named_in_the_curators_words() {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
+        let model = crate::model::load_model(&dir).expect("demo model loads");
+        let counts = crate::analysis::explain::item_support(&model);
+        let e = crate::analysis::explain(&model, 0, 5, 2, &counts);
+        let top = e.contributions[0];
+        let mut notes = Annotations::default();
+        let bare = plain_explanation(&model, &e, &notes);
+        assert!(!bare.contains("moves this estimate"), "{bare}");
+        notes
+            .set_factor_label(top.factor, "hearty vs light")
+            .expect("a plain label is kept");
+        let named = plain_explanation(&model, &e, &notes);
+        assert!(named.contains("\"hearty vs light\""), "{named}");
+        assert!(
+            named.contains(if top.value > 0.0 { "raises" } else { "lowers" }),
+            "{named}"
+        );
+    }
 }

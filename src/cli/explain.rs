@@ -6,7 +6,7 @@ use std::path::PathBuf;
 use clap::Args;
 use serde::Serialize;
 use sextant::analysis::explain::{explain, item_support};
-use sextant::model::load_model;
+use sextant::model::notes::load_with_notes;
 
 use super::lookup::{csv_number, item_label, resolve};
 use super::output::{self, Format};
@@ -37,6 +37,8 @@ pub struct ExplainArgs {
 #[derive(Serialize)]
 struct ContributionRow {
     factor: usize,
+    /// The curators' label of the factor (`annotations.ron`), null when it has none.
+    label: Option<String>,
     value: f64,
 }
 
@@ -71,12 +73,13 @@ struct Report<'a> {
 }
 
 pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
-    let model = load_model(&args.model)?;
+    let (model, notes) = load_with_notes(&args.model)?;
+    let labels = &notes.current;
     let user = resolve(&model.ratings.users, &args.user, "member")?;
     let item = resolve(&model.ratings.items, &args.item, "item")?;
     let e = explain(&model, user, item, args.evidence, &item_support(&model));
     if args.plain {
-        let text = sextant::analysis::plain::plain_explanation(&model, &e);
+        let text = sextant::analysis::plain::plain_explanation(&model, &e, labels);
         return output::print(&(text + "\n"), Format::Table);
     }
     let items = &model.ratings.items;
@@ -93,6 +96,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
             .iter()
             .map(|c| ContributionRow {
                 factor: c.factor,
+                label: labels.factor_label(c.factor).map(str::to_owned),
                 value: c.value,
             })
             .collect(),
@@ -116,11 +120,15 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
     let text = match args.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => {
-            let mut out = String::from("factor,value\n");
+            let mut out = String::from("factor,value,label\n");
             for c in &report.contributions {
                 output::csv_row(
                     &mut out,
-                    &[&c.factor.to_string(), &csv_number(Some(c.value))],
+                    &[
+                        &c.factor.to_string(),
+                        &csv_number(Some(c.value)),
+                        c.label.as_deref().unwrap_or(""),
+                    ],
                 );
             }
             out
@@ -160,9 +168,13 @@ fn table(
         model.manifest.center.mu_label()
     );
     for c in &r.contributions {
+        let label = c
+            .label
+            .as_deref()
+            .map_or_else(String::new, |l| format!(" ({l})"));
         let _ = writeln!(
             out,
-            "  {:>10}  factor {}",
+            "  {:>10}  factor {}{label}",
             format!("{:+.3}", c.value),
             c.factor
         );

@@ -245,7 +245,8 @@ impl App {
             "explanation-{who}-{}.txt",
             file_safe(self.shared.model.ratings.items.name(e.item))
         );
-        let text = sextant::analysis::plain::plain_explanation(&self.shared.model, e);
+        let text =
+            sextant::analysis::plain::plain_explanation(&self.shared.model, e, &self.notes.current);
         let lines: Vec<_> = text.split('\n').map(sextant::text::escaped).collect();
         let text = lines.join("\n") + "\n";
         Some((name, text))
