@@ -300,11 +300,11 @@ fn find(table: &[Binding], key: KeyEvent) -> Option<Action> {
 pub fn tables(context: Context) -> Vec<(&'static str, &'static [Binding])> {
     match context {
         Context::Screen(id) => {
-            let mut tables: Vec<(&'static str, &'static [Binding])> = screen(id)
-                .bindings
-                .iter()
-                .map(|&t| (screen(id).name, t))
-                .collect();
+            let here = screen(id);
+            let mut tables = vec![(here.name, here.bindings)];
+            if here.lists {
+                tables.push(("lists", LISTS));
+            }
             tables.push(("every screen", EVERY_SCREEN));
             tables.push(("anywhere", GLOBAL));
             tables
@@ -320,10 +320,8 @@ pub fn action_for(context: Context, key: KeyEvent) -> Option<Action> {
         return Some(action);
     }
     match context {
-        Context::Screen(id) => screen(id)
-            .bindings
-            .iter()
-            .find_map(|t| find(t, key))
+        Context::Screen(id) => find(screen(id).bindings, key)
+            .or_else(|| screen(id).lists.then(|| find(LISTS, key)).flatten())
             .or_else(|| find(EVERY_SCREEN, key))
             .or_else(|| match key.code {
                 KeyCode::Char(c) if key.modifiers == NONE => SCREENS
@@ -351,7 +349,7 @@ pub fn action_for(context: Context, key: KeyEvent) -> Option<Action> {
 pub fn hints(context: Context) -> Vec<(&'static str, &'static str)> {
     let mut tables = tables(context);
     if let Context::Screen(_) = context {
-        tables.retain(|(_, t)| !std::ptr::eq(*t, EVERY_SCREEN));
+        tables.retain(|(name, _)| *name != "every screen");
         tables.insert(0, ("every screen", EVERY_SCREEN));
     }
     let mut hints: Vec<(&'static str, &'static str)> = tables
@@ -377,8 +375,10 @@ mod tests {
             ("typing".into(), TYPING),
         ];
         for s in SCREENS {
-            let mut own: Vec<&'static [Binding]> = s.bindings.to_vec();
-            own.push(EVERY_SCREEN);
+            let mut own: Vec<&'static [Binding]> = vec![s.bindings, EVERY_SCREEN];
+            if s.lists {
+                own.push(LISTS);
+            }
             for t in own {
                 all.push((s.name.to_owned(), t));
             }

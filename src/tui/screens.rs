@@ -40,8 +40,10 @@ pub struct Screen {
     pub name: &'static str,
     /// One line on what it shows, for the help.
     pub description: &'static str,
-    /// The key tables of its own (besides the keys of every screen).
-    pub bindings: &'static [&'static [Binding]],
+    /// Whether it has lists (and so the keys of [`LISTS`](super::keymap::LISTS)).
+    pub lists: bool,
+    /// Its own keys (besides the keys of every screen).
+    pub bindings: &'static [Binding],
 }
 
 /// Every screen, in tab order.
@@ -51,6 +53,7 @@ pub const SCREENS: &[Screen] = &[
         key: '1',
         name: "items",
         description: "catalogue, nearest items, factor values",
+        lists: true,
         bindings: super::state::items::BINDINGS,
     },
     Screen {
@@ -58,6 +61,7 @@ pub const SCREENS: &[Screen] = &[
         key: '2',
         name: "member",
         description: "a member's ratings, suggestions and why; what-if profiles",
+        lists: true,
         bindings: super::state::member::BINDINGS,
     },
     Screen {
@@ -65,6 +69,7 @@ pub const SCREENS: &[Screen] = &[
         key: '3',
         name: "map",
         description: "2-D map of the items (principal components)",
+        lists: false,
         bindings: super::state::map::BINDINGS,
     },
     Screen {
@@ -72,6 +77,7 @@ pub const SCREENS: &[Screen] = &[
         key: '4',
         name: "fit",
         description: "fit health: convergence, accuracy, residuals",
+        lists: false,
         bindings: super::state::fit::BINDINGS,
     },
     Screen {
@@ -79,6 +85,7 @@ pub const SCREENS: &[Screen] = &[
         key: '5',
         name: "audit",
         description: "neighbour coherence, largest misses, odd vectors",
+        lists: true,
         bindings: super::state::audit::BINDINGS,
     },
 ];

@@ -78,8 +78,8 @@ fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect,
         Line::styled(
             fit(
                 &format!(
-                    "! = unusually few: P at or below {} (false-discovery rate 5%)",
-                    cut.map_or_else(|| "– (none)".to_owned(), |p| format!("{p:.2e}"))
+                    "! unusually few (false-discovery rate 5%): {}",
+                    cut.map_or_else(|| "none here".to_owned(), |p| format!("P ≤ {p:.2e}"))
                 ),
                 width,
             ),
@@ -91,7 +91,7 @@ fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect,
     let title_width = width.saturating_sub(6 + 9 + 1 + 3 + other_width);
     lines.push(Line::styled(
         format!(
-            "{:>5} {:>8}  {}   neighbours mostly",
+            "{:>5} {:>8}  {}   mostly",
             "same",
             "P",
             padded("item", title_width)
@@ -106,11 +106,15 @@ fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect,
             .map_or("–", |n| a.categories.names[n as usize].as_str());
         let unusual = cut.is_some_and(|cut| i.p_low <= cut);
         let mark = if app.has_note(i.item) { "✎" } else { " " };
+        let p = if i.p_low >= 1e-3 {
+            format!("{:.3}", i.p_low)
+        } else {
+            format!("{:.1e}", i.p_low)
+        };
         let text = format!(
-            "{:>2}/{:<2} {:>8.1e}{}{mark}{} → {}",
+            "{:>2}/{:<2} {p:>8}{}{mark}{} → {}",
             i.same,
             i.neighbours,
-            i.p_low,
             if unusual { "!" } else { " " },
             padded(app.title(i.item), title_width),
             fit(other, other_width),

@@ -66,15 +66,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
                 .data(&gaps),
         ])
         .block(framed(
-            format!(
-                " Convergence · {} iterations{} · log₁₀ gap to the final log joint ",
-                trace.len(),
-                if m.converged {
-                    ", converged"
-                } else {
-                    ", NOT converged"
-                }
-            ),
+            " Log joint: gap to the final (log) ".to_owned(),
             false,
             theme,
         ))
@@ -160,14 +152,33 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         ),
         Line::raw(row("train", Some(&m.metrics.train))),
         Line::raw(row("held out", m.metrics.holdout.as_ref())),
-        Line::raw(""),
+        Line::styled(
+            if m.trace.is_empty() {
+                "imported: no fitting trace".to_owned()
+            } else {
+                format!(
+                    "{} iterations, {}",
+                    m.trace.len(),
+                    if m.converged {
+                        "converged"
+                    } else {
+                        "NOT converged (raise --max-iters)"
+                    }
+                )
+            },
+            if m.converged || m.trace.is_empty() {
+                Style::new()
+            } else {
+                theme.warning()
+            },
+        ),
         Line::raw(format!(
             "rank {} · λ {} · σ² {} · μ {:.3}",
             m.rank, m.lambda, m.sigma2, m.mu
         )),
         Line::styled(
             format!(
-                "thin (fewer than {} ratings): {} members, {} items",
+                "thin (< {} ratings): {} members, {} items",
                 m.rank, m.metrics.low_support_users, m.metrics.low_support_items
             ),
             if m.metrics.low_support_users + m.metrics.low_support_items > 0 {

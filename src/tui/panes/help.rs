@@ -10,7 +10,7 @@ use ratatui::widgets::{Clear, Paragraph};
 
 use super::framed;
 use crate::tui::app::App;
-use crate::tui::keymap::{Binding, EVERY_SCREEN, GLOBAL, HELP, TYPING};
+use crate::tui::keymap::{Binding, EVERY_SCREEN, GLOBAL, HELP, LISTS, TYPING};
 use crate::tui::screens::{SCREENS, ScreenId, screen};
 use crate::tui::theme::Theme;
 
@@ -22,7 +22,7 @@ const CAUTIONS: &[&str] = &[
 
 /// The overlay's area in a window `area`.
 pub fn popup(area: Rect) -> Rect {
-    let width = area.width.saturating_sub(4).min(90);
+    let width = area.width.saturating_sub(2).min(90);
     let height = area.height.saturating_sub(2);
     Rect {
         x: area.x + (area.width - width) / 2,
@@ -91,21 +91,25 @@ pub fn lines(shown: ScreenId, width: u16, theme: Theme) -> Vec<Line<'static>> {
     let inside = popup(Rect::new(0, 0, width, 24)).width.saturating_sub(2) as usize;
     let mut lines = Vec::new();
     let here = screen(shown);
-    for table in here.bindings {
-        section(
-            &mut lines,
-            format!("On the {} screen", here.name),
-            table,
-            inside,
-            theme,
-        );
-    }
     if here.bindings.is_empty() {
         lines.push(Line::styled(
             format!("The {} screen has no keys of its own.", here.name),
             theme.muted(),
         ));
         lines.push(Line::raw(""));
+    } else {
+        section(
+            &mut lines,
+            format!("On the {} screen", here.name),
+            here.bindings,
+            inside,
+            theme,
+        );
+    }
+    let with_lists: Vec<&str> = SCREENS.iter().filter(|s| s.lists).map(|s| s.name).collect();
+    let lists_heading = format!("In lists ({} screens)", with_lists.join(", "));
+    if here.lists {
+        section(&mut lines, lists_heading.clone(), LISTS, inside, theme);
     }
     section(
         &mut lines,
@@ -116,10 +120,8 @@ pub fn lines(shown: ScreenId, width: u16, theme: Theme) -> Vec<Line<'static>> {
     );
     lines.push(Line::styled("Screens", theme.title()));
     for s in SCREENS {
-        for (k, part) in wrap(s.description, inside.saturating_sub(KEY_WIDTH + 2 + 9))
-            .into_iter()
-            .enumerate()
-        {
+        let parts = wrap(s.description, inside.saturating_sub(KEY_WIDTH + 2 + 9));
+        for (k, part) in parts.into_iter().enumerate() {
             let (key, name) = if k == 0 {
                 (s.key.to_string(), s.name)
             } else {
@@ -132,20 +134,20 @@ pub fn lines(shown: ScreenId, width: u16, theme: Theme) -> Vec<Line<'static>> {
         }
     }
     lines.push(Line::raw(""));
-    for s in SCREENS.iter().filter(|s| s.id != shown) {
-        for table in s
-            .bindings
-            .iter()
-            .filter(|t| !here.bindings.iter().any(|h| std::ptr::eq(*h, **t)))
-        {
-            section(
-                &mut lines,
-                format!("On the {} screen", s.name),
-                table,
-                inside,
-                theme,
-            );
-        }
+    for s in SCREENS
+        .iter()
+        .filter(|s| s.id != shown && !s.bindings.is_empty())
+    {
+        section(
+            &mut lines,
+            format!("On the {} screen", s.name),
+            s.bindings,
+            inside,
+            theme,
+        );
+    }
+    if !here.lists {
+        section(&mut lines, lists_heading, LISTS, inside, theme);
     }
     section(&mut lines, "Anywhere".into(), GLOBAL, inside, theme);
     section(&mut lines, "In this help".into(), HELP, inside, theme);

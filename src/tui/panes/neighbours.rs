@@ -13,7 +13,7 @@ use crate::tui::state::items::ItemsPane;
 use crate::tui::theme::Theme;
 
 /// Fewest characters a title keeps before the category column is dropped.
-const TITLE_ROOM: usize = 24;
+const TITLE_ROOM: usize = 20;
 
 /// Draws the neighbours pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {

@@ -10,7 +10,7 @@ use sextant::index::Metric;
 use super::shared::Shared;
 use crate::tui::action::Action;
 use crate::tui::app::App;
-use crate::tui::keymap::{Binding, LISTS, bind};
+use crate::tui::keymap::{Binding, bind};
 use crate::tui::layout;
 use crate::tui::panes::window_start;
 
@@ -25,8 +25,8 @@ pub const OWN: &[Binding] = &[bind(
     "curator's note on the highlighted item",
 )];
 
-/// Every key table of the audit screen.
-pub const BINDINGS: &[&[Binding]] = &[LISTS, OWN];
+/// The audit screen's own keys (besides those of lists).
+pub const BINDINGS: &[Binding] = OWN;
 
 /// Most items the explorer's coherence check examines (a larger catalogue is sampled;
 /// `sextant audit` examines every item).

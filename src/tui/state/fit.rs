@@ -8,7 +8,7 @@ use crate::tui::app::App;
 use crate::tui::keymap::Binding;
 
 /// The fit screen has no lists, so no keys of its own.
-pub const BINDINGS: &[&[Binding]] = &[];
+pub const BINDINGS: &[Binding] = &[];
 
 /// The fit screen's state.
 #[derive(Debug, Clone, Default)]

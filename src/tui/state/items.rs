@@ -10,7 +10,7 @@ use super::catalogue::Catalogue;
 use super::shared::Shared;
 use crate::tui::action::{Action, Move};
 use crate::tui::app::App;
-use crate::tui::keymap::{Binding, LISTS, bind, chars};
+use crate::tui::keymap::{Binding, bind, chars};
 use crate::tui::layout;
 use crate::tui::panes::window_start;
 
@@ -104,8 +104,8 @@ pub const OWN: &[Binding] = &[
     ),
 ];
 
-/// Every key table of the item screen.
-pub const BINDINGS: &[&[Binding]] = &[LISTS, OWN];
+/// The item screen's own keys (besides those of lists).
+pub const BINDINGS: &[Binding] = OWN;
 
 /// Panes of the item screen, in focus order.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -50,8 +50,8 @@ pub const OWN: &[Binding] = &[
     ),
 ];
 
-/// Every key table of the map screen.
-pub const BINDINGS: &[&[Binding]] = &[OWN];
+/// The map screen's keys.
+pub const BINDINGS: &[Binding] = OWN;
 
 /// The map's state.
 #[derive(Debug, Clone, Default)]

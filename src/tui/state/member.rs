@@ -10,7 +10,7 @@ use super::shared::Shared;
 use super::what_if::WhatIf;
 use crate::tui::action::{Action, Move};
 use crate::tui::app::App;
-use crate::tui::keymap::{Binding, LISTS, bind, chars};
+use crate::tui::keymap::{Binding, bind, chars};
 use crate::tui::layout;
 use crate::tui::panes::window_start;
 use crate::tui::screens::ScreenId;
@@ -70,8 +70,8 @@ pub const OWN: &[Binding] = &[
     ),
 ];
 
-/// Every key table of the member screen.
-pub const BINDINGS: &[&[Binding]] = &[LISTS, OWN];
+/// The member screen's own keys (besides those of lists).
+pub const BINDINGS: &[Binding] = OWN;
 
 /// One of the member's ratings, ready to draw.
 #[derive(Debug, Clone, Copy, PartialEq)]

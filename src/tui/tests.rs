@@ -1,0 +1,636 @@
+//! The explorer driven through its own key and mouse handling, checked on the state and
+//! on an off-screen terminal.
+
+use ratatui::Terminal;
+use ratatui::backend::TestBackend;
+use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+
+use super::action::Action;
+use super::app::{App, Mode};
+use super::screens::ScreenId;
+use super::state::items::ItemsPane;
+use super::state::member::MemberPane;
+use super::theme::Theme;
+use super::{handle_key, render};
+
+pub(super) fn demo_app() -> App {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
+    App::new(
+        sextant::model::load_model(&dir).expect("demo model loads"),
+        "demo",
+    )
+}
+
+pub(super) fn press(app: &mut App, code: KeyCode) {
+    handle_key(app, KeyEvent::new(code, KeyModifiers::NONE));
+}
+
+pub(super) fn screen(app: &mut App, width: u16, height: u16) -> String {
+    app.update(Action::Resize(width, height));
+    let mut terminal = Terminal::new(TestBackend::new(width, height)).expect("test backend");
+    terminal
+        .draw(|frame| render(app, frame, Theme::plain()))
+        .expect("draw");
+    let buffer = terminal.backend().buffer().clone();
+    (0..height)
+        .map(|y| {
+            (0..width)
+                .map(|x| buffer[(x, y)].symbol().to_owned())
+                .collect::<String>()
+        })
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
+#[test]
+fn control_characters_in_titles_and_notes_are_shown_escaped() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/model");
+    let mut model = sextant::model::load_model(&dir).expect("demo model loads");
+    let meta = model.meta.as_mut().expect("the demo has metadata");
+    for row in meta.rows.iter_mut().flatten() {
+        row.title = Some(format!("\x1b[2J{}\x07", row.title.as_deref().unwrap_or("")));
+        row.category = Some("soups\x1b]0;owned\x07".into());
+    }
+    let mut app = App::new(model, "demo");
+    let first = app.items.catalogue.visible[0];
+    let id = app.shared.model.ratings.items.name(first).to_owned();
+    app.notes
+        .current
+        .set_item_note(&id, "two\nlines")
+        .expect("line breaks are kept");
+    let text = screen(&mut app, 120, 30);
+    assert!(
+        !text.contains('\x1b') && !text.contains('\x07'),
+        "raw control characters reached the screen"
+    );
+    assert!(text.contains("\\x1b[2J"), "{text}");
+    assert!(text.contains("note: two\\nlines"), "{text}");
+}
+
+#[test]
+fn every_pane_shows_what_a_person_reads_at_80_by_24() {
+    let mut app = demo_app();
+    let text = screen(&mut app, 80, 24);
+    let lines: Vec<&str> = text.lines().collect();
+    // At 80 columns the header keeps the tabs and the numbers whole, and drops the
+    // less important facts (the counts, the program's name) first.
+    let rmse = app
+        .shared
+        .model
+        .manifest
+        .metrics
+        .holdout
+        .expect("held out")
+        .rmse;
+    assert_eq!(
+        lines[0].trim_end(),
+        format!(
+            " [1 items] 2 member  3 map  4 fit  5 audit  · rank {} · held-out RMSE {rmse:.3}",
+            app.shared.model.factors.rank
+        ),
+    );
+    assert!(
+        lines[1].contains("Catalogue · 400 items · by title"),
+        "{}",
+        lines[1]
+    );
+    // The first item by title is highlighted and is the current item.
+    let first = app.items.catalogue.visible[0];
+    assert_eq!(app.items.current, Some(first));
+    assert!(
+        lines[2].contains(app.shared.model.ratings.items.name(first)),
+        "{}",
+        lines[2]
+    );
+    assert!(
+        text.contains(&format!("Nearest 10 to {}", app.title(first))),
+        "{text}"
+    );
+    assert!(text.contains("# distance  cosine"), "{text}");
+    // Neighbour rows carry the distance of the first neighbour.
+    let d = format!("{:.4}", app.items.neighbours[0].near.distance);
+    assert!(text.contains(&d), "{d} in {text}");
+    assert!(
+        lines[23].contains("q/Esc quit") && lines[23].contains("? help"),
+        "{}",
+        lines[23]
+    );
+    // Titles keep at least 20 characters at 80 columns, in both lists.
+    let title_cell = |line: &str, title: &str| line.contains(&title[..title.len().min(20)]);
+    let long = app
+        .items
+        .catalogue
+        .visible
+        .iter()
+        .find(|&&j| app.title(j).len() > 20);
+    if let Some(&j) = long {
+        app.update(super::action::Action::Select(super::action::Move::First));
+        let at = app
+            .items
+            .catalogue
+            .visible
+            .iter()
+            .position(|&v| v == j)
+            .expect("visible");
+        for _ in 0..at {
+            press(&mut app, KeyCode::Down);
+        }
+        let text = screen(&mut app, 80, 24);
+        assert!(text.lines().any(|l| title_cell(l, app.title(j))), "{text}");
+    }
+    // The neighbours share the lower half with the loadings, one at a time.
+    press(&mut app, KeyCode::Tab);
+    press(&mut app, KeyCode::Tab);
+    let text = screen(&mut app, 80, 24);
+    assert!(text.contains("Loadings"), "{text}");
+    assert!(text.contains("f1 "), "{text}");
+}
+
+#[test]
+fn search_open_back_and_forward() {
+    let mut app = demo_app();
+    press(&mut app, KeyCode::Char('/'));
+    assert_eq!(app.mode, Mode::Search);
+    for c in "lentil".chars() {
+        press(&mut app, KeyCode::Char(c));
+    }
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(app.mode, Mode::Normal);
+    assert!(
+        app.items.catalogue.visible.len() >= 2
+            && app
+                .items
+                .catalogue
+                .visible
+                .iter()
+                .all(|&j| app.title(j).to_lowercase().contains("lentil"))
+    );
+    let start = app.items.current.expect("an item is shown");
+    assert_eq!(
+        start, app.items.catalogue.visible[0],
+        "the first match is shown"
+    );
+    press(&mut app, KeyCode::Tab);
+    assert_eq!(app.items.focus, ItemsPane::Neighbours);
+    press(&mut app, KeyCode::Down);
+    let target = app.items.neighbours[1].item;
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(app.items.current, Some(target));
+    press(&mut app, KeyCode::Char('['));
+    assert_eq!(app.items.current, Some(start));
+    press(&mut app, KeyCode::Char(']'));
+    assert_eq!(app.items.current, Some(target));
+    press(&mut app, KeyCode::Char('m'));
+    assert!(screen(&mut app, 100, 30).contains("· cosine"));
+    press(&mut app, KeyCode::Char('?'));
+    let help = screen(&mut app, 100, 30);
+    assert!(help.contains("On the items screen"), "{help}");
+    press(&mut app, KeyCode::End);
+    let help = screen(&mut app, 100, 30);
+    assert!(help.contains("sends nothing anywhere"), "{help}");
+    press(&mut app, KeyCode::Esc);
+    assert_eq!(app.mode, Mode::Normal);
+    assert!(!app.quit);
+    press(&mut app, KeyCode::Char('q'));
+    assert!(app.quit);
+}
+
+#[test]
+fn member_map_and_fit_screens_show_their_numbers() {
+    let mut app = demo_app();
+    press(&mut app, KeyCode::Char('u'));
+    assert_eq!(app.mode, Mode::Prompt);
+    for c in "m0001".chars() {
+        press(&mut app, KeyCode::Char(c));
+    }
+    press(&mut app, KeyCode::Enter);
+    let m = app.member.as_ref().expect("member open");
+    assert_eq!(
+        app.shared.model.ratings.users.name(m.user.unwrap()),
+        "m0001"
+    );
+    assert!(
+        m.rated
+            .windows(2)
+            .all(|w| w[0].residual.abs() >= w[1].residual.abs()),
+        "largest misses first"
+    );
+    let e = m
+        .explanation
+        .clone()
+        .expect("explanation of the highlighted rating");
+    assert_eq!(e.item, m.rated[0].item);
+    let text = screen(&mut app, 110, 32);
+    assert!(text.contains("Member m0001"), "{text}");
+    assert!(text.contains("Suggestions"), "{text}");
+    assert!(
+        text.contains(&format!("predicted {:.3}", e.predicted)),
+        "{text}"
+    );
+    press(&mut app, KeyCode::Tab);
+    press(&mut app, KeyCode::Down);
+    let m = app.member.as_ref().expect("member open");
+    assert_eq!(m.focus, MemberPane::Suggestions);
+    assert_eq!(
+        m.explanation.as_ref().map(|e| e.item),
+        Some(m.suggestions[1].item)
+    );
+    // An unknown member is reported, and the app keeps running.
+    press(&mut app, KeyCode::Char('u'));
+    for c in "m01".chars() {
+        press(&mut app, KeyCode::Char(c));
+    }
+    press(&mut app, KeyCode::Enter);
+    assert!(
+        app.status.starts_with("no member 'm01'; closest:"),
+        "{}",
+        app.status
+    );
+    press(&mut app, KeyCode::Char('4'));
+    let text = screen(&mut app, 110, 32);
+    assert!(text.contains("326 iterations, converged"), "{text}");
+    assert!(
+        text.contains(&format!(
+            "{:.4}",
+            app.shared.model.manifest.metrics.train.rmse
+        )),
+        "{text}"
+    );
+    press(&mut app, KeyCode::Char('3'));
+    let ratio = app
+        .map
+        .projection
+        .as_ref()
+        .expect("projection computed on first view")
+        .explained_ratio[0];
+    let text = screen(&mut app, 110, 32);
+    assert!(text.contains(&format!("x {:.0}%", 100.0 * ratio)), "{text}");
+    press(&mut app, KeyCode::Char('+'));
+    assert!(app.map.zoom > 1.0);
+    press(&mut app, KeyCode::Char('1'));
+    assert!(screen(&mut app, 110, 32).contains("Catalogue"));
+}
+
+pub(super) fn type_text(app: &mut App, text: &str) {
+    for c in text.chars() {
+        press(app, KeyCode::Char(c));
+    }
+    press(app, KeyCode::Enter);
+}
+
+#[test]
+fn curator_notes_are_shown_and_saved_with_the_model() {
+    use sextant::model::notes::{Notes, read_notes};
+    let dir = tempfile::tempdir().expect("temp dir");
+    let mut app = demo_app();
+    app.notes = Notes::open(dir.path()).expect("no notes yet");
+    let item = app.items.current.expect("an item is shown");
+    let id = app.shared.model.ratings.items.name(item).to_owned();
+    press(&mut app, KeyCode::Char('n'));
+    assert_eq!(app.mode, Mode::Prompt);
+    type_text(&mut app, "title says soup, tastes like a stew");
+    assert!(app.status.ends_with("— saved"), "{}", app.status);
+    assert_eq!(
+        read_notes(dir.path()).expect("saved").item_note(&id),
+        Some("title says soup, tastes like a stew")
+    );
+    let text = screen(&mut app, 110, 32);
+    assert!(text.contains(&format!("{id}✎")), "{text}");
+    assert!(text.contains("note: title says soup"), "{text}");
+    // Flag the first neighbour as wrong, then label factor 2.
+    press(&mut app, KeyCode::Tab);
+    let other = app.items.neighbours[0].item;
+    press(&mut app, KeyCode::Char('f'));
+    assert!(app.is_flagged(item, other));
+    assert!(screen(&mut app, 110, 32).contains('✗'));
+    press(&mut app, KeyCode::Tab);
+    press(&mut app, KeyCode::Down);
+    press(&mut app, KeyCode::Char('L'));
+    type_text(&mut app, "sweet vs savoury");
+    let text = screen(&mut app, 140, 32);
+    assert!(text.contains("factor 2 (sweet vs savoury)"), "{text}");
+    // Demo factor 2 gathers preserves at one end and salads at the other.
+    assert!(text.contains("over-represented: preserves"), "{text}");
+    let saved = read_notes(dir.path()).expect("saved");
+    assert_eq!(saved.factor_label(2), Some("sweet vs savoury"));
+    assert_eq!(saved.len(), 3);
+    // Unflag; an empty note removes the note.
+    press(&mut app, KeyCode::BackTab);
+    press(&mut app, KeyCode::Char('f'));
+    press(&mut app, KeyCode::Char('n'));
+    for _ in 0..60 {
+        press(&mut app, KeyCode::Backspace);
+    }
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(read_notes(dir.path()).expect("saved").len(), 1);
+    // Without a directory (the bundled demo) notes stay in memory, and it says so.
+    let mut demo = demo_app();
+    press(&mut demo, KeyCode::Char('n'));
+    type_text(&mut demo, "x");
+    assert!(
+        demo.status.contains("kept in memory only"),
+        "{}",
+        demo.status
+    );
+    assert!(demo.has_note(demo.items.current.expect("item")));
+}
+
+#[test]
+fn an_explorer_saving_after_a_refit_says_so_and_loses_nothing() {
+    use sextant::model::notes::{Notes, read_notes};
+    let dir = tempfile::tempdir().expect("temp dir");
+    let model_dir = dir.path().join("m");
+    let mut app = demo_app();
+    sextant::model::save_model(&model_dir, &app.shared.model).expect("saved");
+    app.notes = Notes::open(&model_dir).expect("opened");
+    // Another explorer notes something; then the model is refitted (saved again with a
+    // changed manifest) while this one is open.
+    let mut other = Notes::open(&model_dir).expect("opened");
+    other
+        .current
+        .set_factor_label(1, "from the other window")
+        .unwrap();
+    other.save().expect("saved");
+    let mut refit = app.shared.model.clone();
+    refit.manifest.seed = 99;
+    sextant::model::save_model(&model_dir, &refit).expect("refitted");
+    press(&mut app, KeyCode::Char('n'));
+    type_text(&mut app, "after the refit");
+    assert!(
+        app.status.contains("refitted since this window opened it"),
+        "{}",
+        app.status
+    );
+    let saved = read_notes(&model_dir).expect("readable");
+    assert_eq!(saved.factor_label(1), Some("from the other window"));
+    assert_eq!(saved.len(), 2);
+}
+
+#[test]
+fn a_what_if_profile_follows_every_edit() {
+    let mut app = demo_app();
+    press(&mut app, KeyCode::Char('u'));
+    type_text(&mut app, "m0001");
+    press(&mut app, KeyCode::Char('w'));
+    let m = app.member.clone().expect("what-if open");
+    let w = m.what_if.clone().expect("a what-if");
+    let user = app.shared.model.ratings.users.get("m0001").expect("member");
+    let own = sextant::analysis::explain::training_ratings(&app.shared.model, user);
+    assert_eq!(w.ratings, own);
+    let folded = sextant::analysis::foldin::fold_in(&app.shared.model, &own).expect("fold in");
+    assert_eq!(w.vector, folded);
+    assert_eq!(m.rated.len(), own.len());
+    let text = screen(&mut app, 110, 40);
+    assert!(text.contains("What-if from member m0001"), "{text}");
+    assert!(text.contains("profile vector"), "{text}");
+    // Raise the highlighted rating: the vector and the explanation move at once.
+    let item = m.rated[0].item;
+    let before = m.rated[0].actual;
+    press(&mut app, KeyCode::Char('>'));
+    let m2 = app.member.clone().expect("still open");
+    let w2 = m2.what_if.clone().expect("what-if");
+    let after = w2.ratings.iter().find(|r| r.0 == item).expect("kept").1;
+    assert_eq!(after, (before + 1.0).min(5.0));
+    if after != before {
+        assert_ne!(w2.vector, w.vector);
+    }
+    assert_eq!(m2.explanation.as_ref().map(|e| e.item), Some(item));
+    // Add the top suggestion: it leaves the suggestions and joins the ratings.
+    press(&mut app, KeyCode::Tab);
+    let top = app.member.as_ref().expect("open").suggestions[0].item;
+    press(&mut app, KeyCode::Char('a'));
+    let m3 = app.member.clone().expect("open");
+    assert_eq!(m3.rated.len(), own.len() + 1);
+    assert!(m3.suggestions.iter().all(|s| s.item != top));
+    // Remove it again; then leave the what-if, back to the member as fitted.
+    press(&mut app, KeyCode::Char('d'));
+    assert_eq!(app.member.as_ref().expect("open").rated.len(), own.len());
+    assert!(
+        app.plain_text()
+            .expect("explained")
+            .0
+            .starts_with("explanation-what-if-")
+    );
+    press(&mut app, KeyCode::Char('w'));
+    let m4 = app.member.as_ref().expect("member again");
+    assert!(m4.what_if.is_none());
+    assert_eq!(m4.user, Some(user));
+    // From nobody: add the current item on the items screen.
+    let mut fresh = demo_app();
+    let current = fresh.items.current.expect("item");
+    press(&mut fresh, KeyCode::Char('a'));
+    let m5 = fresh.member.as_ref().expect("what-if from nobody");
+    assert_eq!(m5.user, None);
+    assert_eq!(m5.what_if.as_ref().expect("what-if").ratings.len(), 1);
+    assert_eq!(m5.rated[0].item, current);
+    assert_eq!(m5.suggestions.len(), 10);
+    // Adding from the catalogue stays on the item screen, so several can be added.
+    assert_eq!(fresh.shown, ScreenId::Items);
+    assert!(
+        fresh.status.contains("to the what-if profile"),
+        "{}",
+        fresh.status
+    );
+    press(&mut fresh, KeyCode::Down);
+    press(&mut fresh, KeyCode::Char('a'));
+    assert_eq!(fresh.shown, ScreenId::Items);
+    assert_eq!(
+        fresh
+            .member
+            .as_ref()
+            .and_then(|m| m.what_if.as_ref())
+            .map(|w| w.ratings.len()),
+        Some(2)
+    );
+    press(&mut fresh, KeyCode::Char('2'));
+    assert!(screen(&mut fresh, 110, 40).contains("What-if · new profile"));
+}
+
+#[test]
+fn the_plain_explanation_names_the_member_and_item() {
+    let mut app = demo_app();
+    press(&mut app, KeyCode::Char('u'));
+    type_text(&mut app, "m0001");
+    let (name, text) = app.plain_text().expect("an explanation is shown");
+    let item = app
+        .member
+        .as_ref()
+        .and_then(super::state::member::MemberView::highlighted)
+        .expect("highlighted");
+    assert_eq!(
+        name,
+        format!(
+            "explanation-m0001-{}.txt",
+            app.shared.model.ratings.items.name(item)
+        )
+    );
+    assert!(text.contains(app.title(item)), "{text}");
+}
+
+#[test]
+fn the_audit_screen_lists_the_least_coherent_items_and_opens_them() {
+    let mut app = demo_app();
+    press(&mut app, KeyCode::Char('5'));
+    let a = app.audit.clone().expect("computed on first view");
+    let c = a.coherence.as_ref().expect("the demo has categories");
+    assert!(!a.sampled);
+    let text = screen(&mut app, 120, 36);
+    assert!(
+        text.contains(&format!("same-category share {:.3}", c.mean)),
+        "{text}"
+    );
+    assert!(text.contains("Largest misses · held-out ratings"), "{text}");
+    assert!(text.contains(app.title(a.least[0].item)), "{text}");
+    press(&mut app, KeyCode::Down);
+    let second = app.audit.as_ref().expect("audit").least[1].item;
+    press(&mut app, KeyCode::Enter);
+    assert_eq!(app.shown, ScreenId::Items);
+    assert_eq!(app.items.current, Some(second));
+    press(&mut app, KeyCode::Char('['));
+    assert_ne!(app.items.current, Some(second));
+}
+
+#[test]
+fn mouse_clicks_select_rows_and_the_wheel_scrolls() {
+    use ratatui::crossterm::event::{MouseButton, MouseEvent, MouseEventKind};
+    let mut app = demo_app();
+    screen(&mut app, 80, 24);
+    let mouse = |kind, column, row| MouseEvent {
+        kind,
+        column,
+        row,
+        modifiers: KeyModifiers::NONE,
+    };
+    // Catalogue rows start one line below the pane's top border.
+    let top = app.items_layout().catalogue.y;
+    super::handle_mouse(
+        &mut app,
+        mouse(MouseEventKind::Down(MouseButton::Left), 3, top + 4),
+    );
+    assert_eq!(app.items.catalogue.selected, 3);
+    assert_eq!(app.items.current, Some(app.items.catalogue.visible[3]));
+    super::handle_mouse(&mut app, mouse(MouseEventKind::ScrollDown, 3, top + 4));
+    assert_eq!(app.items.catalogue.selected, 4);
+    // A click on the second neighbour row (below the column header) selects it.
+    let n = app.items_layout().neighbours;
+    super::handle_mouse(
+        &mut app,
+        mouse(MouseEventKind::Down(MouseButton::Left), n.x + 5, n.y + 3),
+    );
+    assert_eq!(app.items.focus, ItemsPane::Neighbours);
+    assert_eq!(app.items.neighbour_selected, 1);
+}
+
+#[test]
+fn the_loadings_pane_shows_what_a_factor_stands_for() {
+    let mut app = demo_app();
+    press(&mut app, KeyCode::Tab);
+    press(&mut app, KeyCode::Tab);
+    assert_eq!(app.items.focus, ItemsPane::Loadings);
+    press(&mut app, KeyCode::Down);
+    assert_eq!(app.items.factor_selected, 1);
+    let (top, bottom) = app.items.factor_extremes.clone();
+    assert_eq!(top.len(), 4);
+    let column = |j: u32| app.shared.model.factors.item(j)[1];
+    let max = (0..app.shared.model.ratings.items.len() as u32)
+        .map(column)
+        .fold(f64::MIN, f64::max);
+    assert_eq!(top[0].1, max);
+    assert!(bottom[0].1 <= bottom[1].1);
+    let text = screen(&mut app, 120, 40);
+    assert!(text.contains("factor 2 — most positive:"), "{text}");
+    assert!(text.contains(app.title(top[0].0)), "{text}");
+}
+
+#[test]
+fn searches_wait_for_a_pause_when_deferred() {
+    let mut app = demo_app();
+    app.deferred.enabled = true;
+    let before = app.items.neighbours.clone();
+    press(&mut app, KeyCode::Down);
+    press(&mut app, KeyCode::Down);
+    assert!(app.deferred.neighbours);
+    assert_eq!(app.items.neighbours, before, "no search while keys arrive");
+    assert!(screen(&mut app, 100, 30).contains("updating…"));
+    press(&mut app, KeyCode::Char('/'));
+    press(&mut app, KeyCode::Char('z'));
+    assert!(app.deferred.filter);
+    app.settle();
+    assert!(!app.deferred.neighbours && !app.deferred.filter);
+    assert!(
+        app.items
+            .catalogue
+            .visible
+            .iter()
+            .all(|&j| app.title(j).to_lowercase().contains('z'))
+    );
+    assert_ne!(app.items.neighbours, before);
+}
+
+#[test]
+fn a_tiny_window_says_so() {
+    let mut app = demo_app();
+    assert!(screen(&mut app, 40, 8).contains("window too small"));
+}
+
+#[test]
+fn thousands_of_random_keys_and_sizes_never_panic() {
+    let mut app = demo_app();
+    let mut rng = sextant::rng::Rng::new(2024);
+    let keys = [
+        KeyCode::Up,
+        KeyCode::Down,
+        KeyCode::Left,
+        KeyCode::Right,
+        KeyCode::PageUp,
+        KeyCode::PageDown,
+        KeyCode::Home,
+        KeyCode::End,
+        KeyCode::Enter,
+        KeyCode::Tab,
+        KeyCode::BackTab,
+        KeyCode::Backspace,
+        KeyCode::Esc,
+        KeyCode::Char('/'),
+        KeyCode::Char('?'),
+        KeyCode::Char('['),
+        KeyCode::Char(']'),
+        KeyCode::Char('m'),
+        KeyCode::Char('+'),
+        KeyCode::Char('-'),
+        KeyCode::Char('o'),
+        KeyCode::Char('x'),
+        KeyCode::Char('g'),
+        KeyCode::Char('G'),
+        KeyCode::Char('s'),
+        KeyCode::Char('é'),
+        KeyCode::F(5),
+        // Screens and the working tools ('p' is left out: it writes a file).
+        KeyCode::Char('1'),
+        KeyCode::Char('2'),
+        KeyCode::Char('3'),
+        KeyCode::Char('4'),
+        KeyCode::Char('5'),
+        KeyCode::Char('n'),
+        KeyCode::Char('f'),
+        KeyCode::Char('L'),
+        KeyCode::Char('w'),
+        KeyCode::Char('a'),
+        KeyCode::Char('>'),
+        KeyCode::Char('<'),
+        KeyCode::Char('d'),
+        KeyCode::Delete,
+    ];
+    for step in 0..4000 {
+        let code = keys[rng.below(keys.len() as u64) as usize];
+        if code == KeyCode::Esc && app.mode == Mode::Normal {
+            continue; // Esc would quit; the point is to keep going.
+        }
+        handle_key(&mut app, KeyEvent::new(code, KeyModifiers::NONE));
+        app.quit = false;
+        if step % 50 == 0 {
+            let (w, h) = (1 + rng.below(160) as u16, 1 + rng.below(60) as u16);
+            screen(&mut app, w, h);
+        }
+    }
+}
