@@ -75,6 +75,7 @@ fn main() {
         ])
         .output()
         .expect("run `cargo build --release` first: the benchmark drives target/release/sextant");
+    let idle = idle_cpu(&binary, &dir);
     if std::env::var_os("SEXTANT_BENCH_KEEP").is_none() {
         let _ = std::fs::remove_dir_all(&dir);
     }
@@ -87,4 +88,72 @@ fn main() {
         "{items} items, {users} members, rank {rank}: {}",
         String::from_utf8_lossy(&output.stdout).trim()
     );
+    match idle {
+        Some((ticks, seconds)) => println!(
+            "idle explorer: {ticks} clock ticks of CPU in {seconds} s ({:.2}% of a core)",
+            ticks as f64 / (seconds as f64 * 100.0) * 100.0
+        ),
+        None => println!("idle explorer: not measured (needs tmux and /proc)"),
+    }
+}
+
+/// CPU time the explorer uses over 10 s of doing nothing, opened on `dir` in a tmux
+/// session: (clock ticks, seconds). A tick is 10 ms.
+fn idle_cpu(binary: &std::path::Path, dir: &std::path::Path) -> Option<(u64, u64)> {
+    const SECONDS: u64 = 10;
+    let session = format!("sextant-bench-idle-{}", std::process::id());
+    let command = format!("'{}' explore '{}'", binary.display(), dir.display());
+    let started = Command::new("tmux")
+        .args([
+            "new-session",
+            "-d",
+            "-x",
+            "120",
+            "-y",
+            "40",
+            "-s",
+            &session,
+            &command,
+        ])
+        .status()
+        .ok()?;
+    if !started.success() {
+        return None;
+    }
+    let ticks = || -> Option<u64> {
+        let pane = Command::new("tmux")
+            .args(["list-panes", "-t", &session, "-F", "#{pane_pid}"])
+            .output()
+            .ok()?;
+        let pid = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+        let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).ok()?;
+        let fields: Vec<&str> = stat.rsplit(") ").next()?.split(' ').collect();
+        Some(fields[11].parse::<u64>().ok()? + fields[12].parse::<u64>().ok()?)
+    };
+    // Wait for the first frame (loading a million items takes a few seconds).
+    let start = std::time::Instant::now();
+    loop {
+        let screen = Command::new("tmux")
+            .args(["capture-pane", "-p", "-t", &session])
+            .output()
+            .ok()?;
+        if String::from_utf8_lossy(&screen.stdout).contains("Catalogue") {
+            break;
+        }
+        if start.elapsed().as_secs() > 120 {
+            let _ = Command::new("tmux")
+                .args(["kill-session", "-t", &session])
+                .status();
+            return None;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(200));
+    }
+    std::thread::sleep(std::time::Duration::from_secs(1));
+    let before = ticks();
+    std::thread::sleep(std::time::Duration::from_secs(SECONDS));
+    let after = ticks();
+    let _ = Command::new("tmux")
+        .args(["kill-session", "-t", &session])
+        .status();
+    Some((after? - before?, SECONDS))
 }

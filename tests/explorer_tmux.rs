@@ -11,6 +11,10 @@ struct Session(String);
 
 impl Session {
     fn start(name: &str, command: &str) -> Self {
+        Self::start_sized(name, command, 120, 40)
+    }
+
+    fn start_sized(name: &str, command: &str, width: u16, height: u16) -> Self {
         let _ = Command::new("tmux")
             .args(["kill-session", "-t", name])
             .output();
@@ -19,9 +23,9 @@ impl Session {
                 "new-session",
                 "-d",
                 "-x",
-                "120",
+                &width.to_string(),
                 "-y",
-                "40",
+                &height.to_string(),
                 "-s",
                 name,
                 command,
@@ -248,4 +252,109 @@ fn an_idle_explorer_sleeps() {
     let used = cpu_ticks(&pid) - before;
     // A tick is 10 ms: a loop that woke to poll would use several in three seconds.
     assert!(used <= 1, "idle explorer used {used} clock ticks in 3 s");
+}
+
+/// The shell command that runs the explorer, then reports its exit code and the
+/// terminal's modes, and stays open so the test can read them.
+fn reporting(binary: &str) -> String {
+    let script = format!(
+        "'{binary}'; echo EXITED \\$?; stty -a | tr ' ' '\\n' | grep -x -e echo -e icanon | tr '\\n' ' '; echo; sleep 30"
+    );
+    format!("sh -c \"{}\"", script.replace('"', "\\\""))
+}
+
+#[test]
+fn ctrl_c_quits_from_the_help_and_from_a_prompt() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    for (name, keys) in [
+        ("help", &["?"][..]),
+        ("prompt", &["u", "m", "0"][..]),
+        ("search", &["/", "s", "o"][..]),
+    ] {
+        let session = Session::start(&format!("sextant-ctrl-c-{name}"), &reporting(binary));
+        session.wait_for("Catalogue · 400 items");
+        session.keys(keys);
+        session.keys(&["C-c"]);
+        let after = session.wait_for("icanon");
+        assert!(after.contains("EXITED 0"), "{name}: {after}");
+    }
+}
+
+#[test]
+fn enter_on_a_largest_miss_opens_that_member_at_that_item() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    let session = Session::start("sextant-miss", &format!("'{binary}'"));
+    session.wait_for("Catalogue · 400 items");
+    session.keys(&["5"]);
+    let audit = session.wait_for("Largest misses");
+    // The first miss row: rated, predicted, residual, member, item.
+    let row = audit
+        .lines()
+        .skip_while(|l| !l.contains("resid  member"))
+        .nth(1)
+        .expect("a miss row");
+    let fields: Vec<&str> = row.split('│').collect();
+    let cells: Vec<&str> = fields
+        .iter()
+        .find(|f| f.contains(" m"))
+        .expect("the misses pane")
+        .split_whitespace()
+        .collect();
+    let member = cells[3].to_owned();
+    let title_start = cells[4];
+    session.keys(&["Tab", "Enter"]);
+    let screen = session.wait_for(&format!("Member {member}"));
+    // The Why pane explains the missed item, highlighted in the ratings.
+    let why = screen
+        .lines()
+        .skip_while(|l| !l.contains("Why"))
+        .nth(1)
+        .unwrap_or_default();
+    assert!(
+        why.contains(title_start),
+        "{title_start} in {why}\n{screen}"
+    );
+}
+
+#[test]
+fn a_walk_through_every_screen_at_80_by_24() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    let session = Session::start_sized("sextant-walk", &reporting(binary), 80, 24);
+    let first = session.wait_for("Catalogue · 400 items");
+    // Numbers are never cut: the header keeps the held-out RMSE whole.
+    assert!(
+        first
+            .lines()
+            .next()
+            .unwrap()
+            .contains("held-out RMSE 0.734"),
+        "{first}"
+    );
+    session.keys(&["/", "s", "o", "u", "p", "Enter", "Tab", "j", "Enter"]);
+    session.wait_for("match 'soup'");
+    // Focus is on the neighbours after Enter: one Tab reaches the loadings.
+    session.keys(&["Tab"]);
+    session.wait_for("Loadings");
+    session.keys(&["u", "m", "0", "0", "0", "1", "Enter"]);
+    session.wait_for("Member m0001");
+    session.keys(&["Tab", "Tab", "G"]);
+    session.wait_for("support: member");
+    session.keys(&["w"]);
+    session.wait_for("What-if from member m0001");
+    session.keys(&["w", "3"]);
+    session.wait_for("Map · principal components");
+    session.keys(&["+", "Left"]);
+    session.wait_for("zoom 1.5×");
+    session.keys(&["4"]);
+    session.wait_for("326 iterations, converged");
+    session.keys(&["5"]);
+    session.wait_for("Coherence");
+    session.keys(&["Tab", "Tab"]);
+    session.wait_for("Vector lengths");
+    session.keys(&["?", "End"]);
+    let help = session.wait_for("Cautions");
+    assert!(help.contains("sends nothing anywhere"), "{help}");
+    session.keys(&["Escape", "q"]);
+    let after = session.wait_for("icanon");
+    assert!(after.contains("EXITED 0"), "{after}");
 }

@@ -80,6 +80,8 @@ pub struct App {
     pub size: (u16, u16),
     /// Work that waits until input pauses.
     pub deferred: Deferred,
+    /// Where `p` writes plain explanations (the working directory).
+    pub plain_dir: std::path::PathBuf,
 }
 
 impl App {
@@ -105,6 +107,7 @@ impl App {
             quit_armed: false,
             size: (120, 40),
             deferred: Deferred::default(),
+            plain_dir: std::path::PathBuf::from("."),
         };
         app.select_in_catalogue(0);
         app

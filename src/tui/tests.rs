@@ -447,6 +447,42 @@ fn a_what_if_profile_follows_every_edit() {
 }
 
 #[test]
+fn p_asks_before_replacing_a_file_and_writes_the_highlighted_item() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let mut app = demo_app();
+    app.plain_dir = dir.path().to_path_buf();
+    press(&mut app, KeyCode::Char('u'));
+    type_text(&mut app, "m0001");
+    // A what-if entered and left: p still explains the item highlighted now.
+    press(&mut app, KeyCode::Char('w'));
+    press(&mut app, KeyCode::Char('w'));
+    press(&mut app, KeyCode::Down);
+    let item = app
+        .member
+        .as_ref()
+        .and_then(super::state::member::MemberView::highlighted)
+        .expect("highlighted");
+    let name = format!(
+        "explanation-m0001-{}.txt",
+        app.shared.model.ratings.items.name(item)
+    );
+    press(&mut app, KeyCode::Char('p'));
+    let path = dir.path().join(&name);
+    let first = std::fs::read_to_string(&path).expect("written");
+    assert!(first.contains(app.title(item)), "{first}");
+    // Again: it asks; anything but y keeps the file.
+    std::fs::write(&path, "kept").expect("overwritten by the test");
+    press(&mut app, KeyCode::Char('p'));
+    assert_eq!(app.mode, Mode::Prompt);
+    press(&mut app, KeyCode::Char('n'));
+    assert_eq!(app.mode, Mode::Normal);
+    assert_eq!(std::fs::read_to_string(&path).expect("file"), "kept");
+    press(&mut app, KeyCode::Char('p'));
+    press(&mut app, KeyCode::Char('y'));
+    assert_eq!(std::fs::read_to_string(&path).expect("file"), first);
+}
+
+#[test]
 fn the_plain_explanation_names_the_member_and_item() {
     let mut app = demo_app();
     press(&mut app, KeyCode::Char('u'));
@@ -573,64 +609,146 @@ fn a_tiny_window_says_so() {
     assert!(screen(&mut app, 40, 8).contains("window too small"));
 }
 
+/// Every key of every table, in every context, plus a few no table binds. Left out: `p`
+/// (writes a file into the working directory) and `S` (saves notes into one).
+fn every_key() -> Vec<KeyEvent> {
+    use super::keymap::{EVERY_SCREEN, GLOBAL, HELP, LISTS, TYPING};
+    let mut tables = vec![GLOBAL, EVERY_SCREEN, LISTS, HELP, TYPING];
+    tables.extend(super::screens::SCREENS.iter().map(|s| s.bindings));
+    let mut keys: Vec<KeyEvent> = tables
+        .iter()
+        .flat_map(|t| t.iter())
+        .flat_map(|b| b.keys.iter())
+        .filter(|(code, _)| !matches!(code, KeyCode::Char('p' | 'S')))
+        .map(|&(code, mods)| KeyEvent::new(code, mods))
+        .collect();
+    for c in ['1', '2', '3', '4', '5', 'é', 's', ' ', 'Z'] {
+        keys.push(KeyEvent::new(KeyCode::Char(c), KeyModifiers::NONE));
+    }
+    keys.push(KeyEvent::new(KeyCode::F(5), KeyModifiers::NONE));
+    keys.push(KeyEvent::new(KeyCode::Char('x'), KeyModifiers::ALT));
+    keys.sort_by_key(|k| format!("{k:?}"));
+    keys.dedup();
+    keys
+}
+
 #[test]
-fn thousands_of_random_keys_and_sizes_never_panic() {
+fn thousands_of_random_keys_clicks_and_sizes_in_every_context_never_panic() {
+    use ratatui::crossterm::event::{MouseButton, MouseEvent, MouseEventKind};
     let mut app = demo_app();
     let mut rng = sextant::rng::Rng::new(2024);
-    let keys = [
-        KeyCode::Up,
-        KeyCode::Down,
-        KeyCode::Left,
-        KeyCode::Right,
-        KeyCode::PageUp,
-        KeyCode::PageDown,
-        KeyCode::Home,
-        KeyCode::End,
-        KeyCode::Enter,
-        KeyCode::Tab,
-        KeyCode::BackTab,
-        KeyCode::Backspace,
-        KeyCode::Esc,
-        KeyCode::Char('/'),
-        KeyCode::Char('?'),
-        KeyCode::Char('['),
-        KeyCode::Char(']'),
-        KeyCode::Char('m'),
-        KeyCode::Char('+'),
-        KeyCode::Char('-'),
-        KeyCode::Char('o'),
-        KeyCode::Char('x'),
-        KeyCode::Char('g'),
-        KeyCode::Char('G'),
-        KeyCode::Char('s'),
-        KeyCode::Char('é'),
-        KeyCode::F(5),
-        // Screens and the working tools ('p' is left out: it writes a file).
-        KeyCode::Char('1'),
-        KeyCode::Char('2'),
-        KeyCode::Char('3'),
-        KeyCode::Char('4'),
-        KeyCode::Char('5'),
-        KeyCode::Char('n'),
-        KeyCode::Char('f'),
-        KeyCode::Char('L'),
-        KeyCode::Char('w'),
-        KeyCode::Char('a'),
-        KeyCode::Char('>'),
-        KeyCode::Char('<'),
-        KeyCode::Char('d'),
-        KeyCode::Delete,
-    ];
-    for step in 0..4000 {
-        let code = keys[rng.below(keys.len() as u64) as usize];
-        if code == KeyCode::Esc && app.mode == Mode::Normal {
-            continue; // Esc would quit; the point is to keep going.
+    let keys = every_key();
+    let mut contexts = std::collections::HashSet::new();
+    for step in 0..6000 {
+        contexts.insert(format!("{:?}", app.context()));
+        if step % 7 == 0 {
+            let kind = match rng.below(3) {
+                0 => MouseEventKind::ScrollDown,
+                1 => MouseEventKind::ScrollUp,
+                _ => MouseEventKind::Down(MouseButton::Left),
+            };
+            let (column, row) = (
+                rng.below(u64::from(app.size.0)) as u16,
+                rng.below(u64::from(app.size.1)) as u16,
+            );
+            super::handle_mouse(
+                &mut app,
+                MouseEvent {
+                    kind,
+                    column,
+                    row,
+                    modifiers: KeyModifiers::NONE,
+                },
+            );
+        } else {
+            handle_key(&mut app, keys[rng.below(keys.len() as u64) as usize]);
         }
-        handle_key(&mut app, KeyEvent::new(code, KeyModifiers::NONE));
+        // Keep going: quitting is not the point here.
         app.quit = false;
-        if step % 50 == 0 {
+        if step % 40 == 0 {
             let (w, h) = (1 + rng.below(160) as u16, 1 + rng.below(60) as u16);
             screen(&mut app, w, h);
+        }
+    }
+    // Every screen, the help, the filter and a prompt were reached.
+    for context in ["Help", "Search", "Prompt"] {
+        assert!(
+            contexts.contains(context),
+            "{context} never reached: {contexts:?}"
+        );
+    }
+    for s in super::screens::SCREENS {
+        let name = format!("Screen({:?})", s.id);
+        assert!(
+            contexts.contains(&name),
+            "{name} never reached: {contexts:?}"
+        );
+    }
+}
+
+/// What each screen shows, as text to compare.
+fn screen_states(app: &App) -> Vec<(ScreenId, String)> {
+    let items = &app.items;
+    vec![
+        (
+            ScreenId::Items,
+            format!(
+                "{:?} {} {:?} {} {} {:?} {:?} {} {}",
+                items.current,
+                items.catalogue.selected,
+                items.catalogue.filter,
+                items.neighbour_selected,
+                items.factor_selected,
+                items.focus,
+                items.metric,
+                items.k,
+                items.catalogue.visible.len()
+            ),
+        ),
+        (ScreenId::Member, format!("{:?}", app.member)),
+        (
+            ScreenId::Map,
+            format!("{:?} {:?}", app.map.zoom, app.map.centre),
+        ),
+        (
+            ScreenId::Audit,
+            format!("{:?}", app.audit.as_ref().map(|a| (a.focus, a.selected))),
+        ),
+    ]
+}
+
+#[test]
+fn keys_never_act_on_a_screen_that_is_not_shown() {
+    let keys = every_key();
+    for shown in super::screens::SCREENS {
+        for &key in &keys {
+            // The demo with every screen visited and something open on each.
+            let mut app = demo_app();
+            for k in ['5', '3', '4', '2'] {
+                press(&mut app, KeyCode::Char(k));
+            }
+            press(&mut app, KeyCode::Char('u'));
+            type_text(&mut app, "m0001");
+            press(&mut app, KeyCode::Char(shown.key));
+            let before = screen_states(&app);
+            handle_key(&mut app, key);
+            if app.shown != shown.id {
+                continue; // The key switched screens (a screen key, Enter, w, u…).
+            }
+            // Adding the current item to the what-if is the item screen's own tool.
+            let allowed = |id: ScreenId| {
+                id == shown.id
+                    || (shown.id == ScreenId::Items
+                        && id == ScreenId::Member
+                        && key.code == KeyCode::Char('a'))
+            };
+            for ((id, a), (_, b)) in before.iter().zip(screen_states(&app)) {
+                assert!(
+                    allowed(*id) || *a == b,
+                    "{key:?} on the {} screen changed the {id:?} screen",
+                    shown.name
+                );
+            }
         }
     }
 }

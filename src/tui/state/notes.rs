@@ -252,19 +252,19 @@ impl App {
         Some((name, text))
     }
 
-    /// Writes the plain explanation of the highlighted item to a file in the current
-    /// directory; asks first when the file exists, unless `replace`.
+    /// Writes the plain explanation of the highlighted item to a file in
+    /// [`App::plain_dir`]; asks first when the file exists, unless `replace`.
     pub(crate) fn write_plain(&mut self, replace: bool) {
         let Some((name, text)) = self.plain_text() else {
             self.status = "open a member (u) and highlight an item to explain first".into();
             return;
         };
-        if !replace && std::fs::symlink_metadata(&name).is_ok() {
+        let path = self.plain_dir.join(&name);
+        if !replace && std::fs::symlink_metadata(&path).is_ok() {
             self.start_prompt(Prompt::ReplacePlain(name), String::new());
             return;
         }
-        let written =
-            sextant::files::output::write_file(std::path::Path::new(&name), text.as_bytes());
+        let written = sextant::files::output::write_file(&path, text.as_bytes());
         self.status = match written {
             Ok(()) => {
                 format!("wrote the plain explanation to {name} (the member's own ratings only)")
