@@ -8,12 +8,7 @@ use sextant::model::notes::Notes;
 
 use super::action::{Action, Move};
 use super::keymap::Context;
-use super::screens::{self, ScreenId};
-use super::state::audit::AuditView;
-use super::state::fit::FitView;
-use super::state::items::ItemsScreen;
-use super::state::map::MapView;
-use super::state::member::MemberView;
+use super::screens::{self, ScreenId, Screens};
 use super::state::shared::Shared;
 
 /// What keys currently do.
@@ -54,16 +49,8 @@ pub struct App {
     pub shown: ScreenId,
     /// Keys' meaning.
     pub mode: Mode,
-    /// The item screen.
-    pub items: ItemsScreen,
-    /// The member screen (a member or a what-if profile), once one is open.
-    pub member: Option<MemberView>,
-    /// The map screen.
-    pub map: MapView,
-    /// The fit screen.
-    pub fit: FitView,
-    /// The audit screen, once shown.
-    pub audit: Option<AuditView>,
+    /// Every screen's own state.
+    pub screens: Screens,
     /// First line of the help shown.
     pub help_scroll: usize,
     /// What the text being typed is for.
@@ -88,17 +75,13 @@ impl App {
     /// The explorer on `model`, with the first item of the catalogue current.
     pub fn new(model: Model, label: impl Into<String>) -> Self {
         let shared = Shared::new(model, label.into());
-        let items = ItemsScreen::new(&shared);
+        let screens = Screens::new(&shared);
         let mut app = Self {
             shared,
             notes: Notes::in_memory(),
             shown: ScreenId::Items,
             mode: Mode::Normal,
-            items,
-            member: None,
-            map: MapView::default(),
-            fit: FitView::default(),
-            audit: None,
+            screens,
             help_scroll: 0,
             prompt: Prompt::Member,
             prompt_input: String::new(),
@@ -197,7 +180,7 @@ impl App {
     }
 
     fn search_edit(&mut self, action: Action) {
-        let mut filter = self.items.catalogue.filter.clone();
+        let mut filter = self.screens.items.catalogue.filter.clone();
         match action {
             Action::Type(c) => {
                 filter.push(c);
@@ -269,7 +252,7 @@ impl App {
     pub fn settle(&mut self) {
         if self.deferred.factor {
             self.deferred.factor = false;
-            self.items.refresh_factor(&self.shared);
+            self.screens.items.refresh_factor(&self.shared);
         }
         if self.deferred.filter {
             self.deferred.filter = false;

@@ -2,8 +2,8 @@
 //! are all generated from [`SCREENS`].
 //!
 //! Adding a screen touches three files: its state (with its own `update`) under
-//! `state/`, its pane under `panes/`, and this one (a row of the table, and one arm in each
-//! of [`render`] and [`update`]).
+//! `state/`, its pane under `panes/`, and this one (a variant of [`ScreenId`], a field of
+//! [`Screens`], a row of the table, and one arm in each of [`render`] and [`update`]).
 
 use ratatui::Frame;
 use ratatui::layout::Rect;
@@ -11,7 +11,40 @@ use ratatui::layout::Rect;
 use super::action::Action;
 use super::app::App;
 use super::keymap::Binding;
+use super::state::audit::AuditView;
+use super::state::fit::FitView;
+use super::state::items::ItemsScreen;
+use super::state::map::MapView;
+use super::state::member::MemberView;
+use super::state::shared::Shared;
 use super::theme::Theme;
+
+/// Every screen's own state, owned by the `App`.
+pub struct Screens {
+    /// The item screen.
+    pub items: ItemsScreen,
+    /// The member screen (a member or a what-if profile), once one is open.
+    pub member: Option<MemberView>,
+    /// The map screen.
+    pub map: MapView,
+    /// The fit screen.
+    pub fit: FitView,
+    /// The audit screen, once shown.
+    pub audit: Option<AuditView>,
+}
+
+impl Screens {
+    /// Every screen as it starts.
+    pub fn new(shared: &Shared) -> Self {
+        Self {
+            items: ItemsScreen::new(shared),
+            member: None,
+            map: MapView::default(),
+            fit: FitView::default(),
+            audit: None,
+        }
+    }
+}
 
 /// Which screen is shown.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]

@@ -52,7 +52,7 @@ fn control_characters_in_titles_and_notes_are_shown_escaped() {
         row.category = Some("soups\x1b]0;owned\x07".into());
     }
     let mut app = App::new(model, "demo");
-    let first = app.items.catalogue.visible[0];
+    let first = app.screens.items.catalogue.visible[0];
     let id = app.shared.model.ratings.items.name(first).to_owned();
     app.notes
         .current
@@ -95,8 +95,8 @@ fn every_pane_shows_what_a_person_reads_at_80_by_24() {
         lines[1]
     );
     // The first item by title is highlighted and is the current item.
-    let first = app.items.catalogue.visible[0];
-    assert_eq!(app.items.current, Some(first));
+    let first = app.screens.items.catalogue.visible[0];
+    assert_eq!(app.screens.items.current, Some(first));
     assert!(
         lines[2].contains(app.shared.model.ratings.items.name(first)),
         "{}",
@@ -108,7 +108,7 @@ fn every_pane_shows_what_a_person_reads_at_80_by_24() {
     );
     assert!(text.contains("# distance  cosine"), "{text}");
     // Neighbour rows carry the distance of the first neighbour.
-    let d = format!("{:.4}", app.items.neighbours[0].near.distance);
+    let d = format!("{:.4}", app.screens.items.neighbours[0].near.distance);
     assert!(text.contains(&d), "{d} in {text}");
     assert!(
         lines[23].contains("q/Esc quit") && lines[23].contains("? help"),
@@ -118,6 +118,7 @@ fn every_pane_shows_what_a_person_reads_at_80_by_24() {
     // Titles keep at least 20 characters at 80 columns, in both lists.
     let title_cell = |line: &str, title: &str| line.contains(&title[..title.len().min(20)]);
     let long = app
+        .screens
         .items
         .catalogue
         .visible
@@ -126,6 +127,7 @@ fn every_pane_shows_what_a_person_reads_at_80_by_24() {
     if let Some(&j) = long {
         app.update(super::action::Action::Select(super::action::Move::First));
         let at = app
+            .screens
             .items
             .catalogue
             .visible
@@ -157,29 +159,30 @@ fn search_open_back_and_forward() {
     press(&mut app, KeyCode::Enter);
     assert_eq!(app.mode, Mode::Normal);
     assert!(
-        app.items.catalogue.visible.len() >= 2
+        app.screens.items.catalogue.visible.len() >= 2
             && app
+                .screens
                 .items
                 .catalogue
                 .visible
                 .iter()
                 .all(|&j| app.title(j).to_lowercase().contains("lentil"))
     );
-    let start = app.items.current.expect("an item is shown");
+    let start = app.screens.items.current.expect("an item is shown");
     assert_eq!(
-        start, app.items.catalogue.visible[0],
+        start, app.screens.items.catalogue.visible[0],
         "the first match is shown"
     );
     press(&mut app, KeyCode::Tab);
-    assert_eq!(app.items.focus, ItemsPane::Neighbours);
+    assert_eq!(app.screens.items.focus, ItemsPane::Neighbours);
     press(&mut app, KeyCode::Down);
-    let target = app.items.neighbours[1].item;
+    let target = app.screens.items.neighbours[1].item;
     press(&mut app, KeyCode::Enter);
-    assert_eq!(app.items.current, Some(target));
+    assert_eq!(app.screens.items.current, Some(target));
     press(&mut app, KeyCode::Char('['));
-    assert_eq!(app.items.current, Some(start));
+    assert_eq!(app.screens.items.current, Some(start));
     press(&mut app, KeyCode::Char(']'));
-    assert_eq!(app.items.current, Some(target));
+    assert_eq!(app.screens.items.current, Some(target));
     press(&mut app, KeyCode::Char('m'));
     assert!(screen(&mut app, 100, 30).contains("· cosine"));
     press(&mut app, KeyCode::Char('?'));
@@ -204,7 +207,7 @@ fn member_map_and_fit_screens_show_their_numbers() {
         press(&mut app, KeyCode::Char(c));
     }
     press(&mut app, KeyCode::Enter);
-    let m = app.member.as_ref().expect("member open");
+    let m = app.screens.member.as_ref().expect("member open");
     assert_eq!(
         app.shared.model.ratings.users.name(m.user.unwrap()),
         "m0001"
@@ -229,7 +232,7 @@ fn member_map_and_fit_screens_show_their_numbers() {
     );
     press(&mut app, KeyCode::Tab);
     press(&mut app, KeyCode::Down);
-    let m = app.member.as_ref().expect("member open");
+    let m = app.screens.member.as_ref().expect("member open");
     assert_eq!(m.focus, MemberPane::Suggestions);
     assert_eq!(
         m.explanation.as_ref().map(|e| e.item),
@@ -258,6 +261,7 @@ fn member_map_and_fit_screens_show_their_numbers() {
     );
     press(&mut app, KeyCode::Char('3'));
     let ratio = app
+        .screens
         .map
         .projection
         .as_ref()
@@ -266,7 +270,7 @@ fn member_map_and_fit_screens_show_their_numbers() {
     let text = screen(&mut app, 110, 32);
     assert!(text.contains(&format!("x {:.0}%", 100.0 * ratio)), "{text}");
     press(&mut app, KeyCode::Char('+'));
-    assert!(app.map.zoom > 1.0);
+    assert!(app.screens.map.zoom > 1.0);
     press(&mut app, KeyCode::Char('1'));
     assert!(screen(&mut app, 110, 32).contains("Catalogue"));
 }
@@ -284,7 +288,7 @@ fn curator_notes_are_shown_and_saved_with_the_model() {
     let dir = tempfile::tempdir().expect("temp dir");
     let mut app = demo_app();
     app.notes = Notes::open(dir.path()).expect("no notes yet");
-    let item = app.items.current.expect("an item is shown");
+    let item = app.screens.items.current.expect("an item is shown");
     let id = app.shared.model.ratings.items.name(item).to_owned();
     press(&mut app, KeyCode::Char('n'));
     assert_eq!(app.mode, Mode::Prompt);
@@ -299,7 +303,7 @@ fn curator_notes_are_shown_and_saved_with_the_model() {
     assert!(text.contains("note: title says soup"), "{text}");
     // Flag the first neighbour as wrong, then label factor 2.
     press(&mut app, KeyCode::Tab);
-    let other = app.items.neighbours[0].item;
+    let other = app.screens.items.neighbours[0].item;
     press(&mut app, KeyCode::Char('f'));
     assert!(app.is_flagged(item, other));
     assert!(screen(&mut app, 110, 32).contains('✗'));
@@ -332,7 +336,7 @@ fn curator_notes_are_shown_and_saved_with_the_model() {
         "{}",
         demo.status
     );
-    assert!(demo.has_note(demo.items.current.expect("item")));
+    assert!(demo.has_note(demo.screens.items.current.expect("item")));
 }
 
 #[test]
@@ -372,7 +376,7 @@ fn a_what_if_profile_follows_every_edit() {
     press(&mut app, KeyCode::Char('u'));
     type_text(&mut app, "m0001");
     press(&mut app, KeyCode::Char('w'));
-    let m = app.member.clone().expect("what-if open");
+    let m = app.screens.member.clone().expect("what-if open");
     let w = m.what_if.clone().expect("a what-if");
     let user = app.shared.model.ratings.users.get("m0001").expect("member");
     let own = sextant::analysis::explain::training_ratings(&app.shared.model, user);
@@ -387,7 +391,7 @@ fn a_what_if_profile_follows_every_edit() {
     let item = m.rated[0].item;
     let before = m.rated[0].actual;
     press(&mut app, KeyCode::Char('>'));
-    let m2 = app.member.clone().expect("still open");
+    let m2 = app.screens.member.clone().expect("still open");
     let w2 = m2.what_if.clone().expect("what-if");
     let after = w2.ratings.iter().find(|r| r.0 == item).expect("kept").1;
     assert_eq!(after, (before + 1.0).min(5.0));
@@ -397,14 +401,17 @@ fn a_what_if_profile_follows_every_edit() {
     assert_eq!(m2.explanation.as_ref().map(|e| e.item), Some(item));
     // Add the top suggestion: it leaves the suggestions and joins the ratings.
     press(&mut app, KeyCode::Tab);
-    let top = app.member.as_ref().expect("open").suggestions[0].item;
+    let top = app.screens.member.as_ref().expect("open").suggestions[0].item;
     press(&mut app, KeyCode::Char('a'));
-    let m3 = app.member.clone().expect("open");
+    let m3 = app.screens.member.clone().expect("open");
     assert_eq!(m3.rated.len(), own.len() + 1);
     assert!(m3.suggestions.iter().all(|s| s.item != top));
     // Remove it again; then leave the what-if, back to the member as fitted.
     press(&mut app, KeyCode::Char('d'));
-    assert_eq!(app.member.as_ref().expect("open").rated.len(), own.len());
+    assert_eq!(
+        app.screens.member.as_ref().expect("open").rated.len(),
+        own.len()
+    );
     assert!(
         app.plain_text()
             .expect("explained")
@@ -412,14 +419,14 @@ fn a_what_if_profile_follows_every_edit() {
             .starts_with("explanation-what-if-")
     );
     press(&mut app, KeyCode::Char('w'));
-    let m4 = app.member.as_ref().expect("member again");
+    let m4 = app.screens.member.as_ref().expect("member again");
     assert!(m4.what_if.is_none());
     assert_eq!(m4.user, Some(user));
     // From nobody: add the current item on the items screen.
     let mut fresh = demo_app();
-    let current = fresh.items.current.expect("item");
+    let current = fresh.screens.items.current.expect("item");
     press(&mut fresh, KeyCode::Char('a'));
-    let m5 = fresh.member.as_ref().expect("what-if from nobody");
+    let m5 = fresh.screens.member.as_ref().expect("what-if from nobody");
     assert_eq!(m5.user, None);
     assert_eq!(m5.what_if.as_ref().expect("what-if").ratings.len(), 1);
     assert_eq!(m5.rated[0].item, current);
@@ -436,6 +443,7 @@ fn a_what_if_profile_follows_every_edit() {
     assert_eq!(fresh.shown, ScreenId::Items);
     assert_eq!(
         fresh
+            .screens
             .member
             .as_ref()
             .and_then(|m| m.what_if.as_ref())
@@ -458,6 +466,7 @@ fn p_asks_before_replacing_a_file_and_writes_the_highlighted_item() {
     press(&mut app, KeyCode::Char('w'));
     press(&mut app, KeyCode::Down);
     let item = app
+        .screens
         .member
         .as_ref()
         .and_then(super::state::member::MemberView::highlighted)
@@ -489,6 +498,7 @@ fn the_plain_explanation_names_the_member_and_item() {
     type_text(&mut app, "m0001");
     let (name, text) = app.plain_text().expect("an explanation is shown");
     let item = app
+        .screens
         .member
         .as_ref()
         .and_then(super::state::member::MemberView::highlighted)
@@ -507,7 +517,7 @@ fn the_plain_explanation_names_the_member_and_item() {
 fn the_audit_screen_lists_the_least_coherent_items_and_opens_them() {
     let mut app = demo_app();
     press(&mut app, KeyCode::Char('5'));
-    let a = app.audit.clone().expect("computed on first view");
+    let a = app.screens.audit.clone().expect("computed on first view");
     let c = a.coherence.as_ref().expect("the demo has categories");
     assert!(!a.sampled);
     let text = screen(&mut app, 120, 36);
@@ -518,12 +528,12 @@ fn the_audit_screen_lists_the_least_coherent_items_and_opens_them() {
     assert!(text.contains("Largest misses · held-out ratings"), "{text}");
     assert!(text.contains(app.title(a.least[0].item)), "{text}");
     press(&mut app, KeyCode::Down);
-    let second = app.audit.as_ref().expect("audit").least[1].item;
+    let second = app.screens.audit.as_ref().expect("audit").least[1].item;
     press(&mut app, KeyCode::Enter);
     assert_eq!(app.shown, ScreenId::Items);
-    assert_eq!(app.items.current, Some(second));
+    assert_eq!(app.screens.items.current, Some(second));
     press(&mut app, KeyCode::Char('['));
-    assert_ne!(app.items.current, Some(second));
+    assert_ne!(app.screens.items.current, Some(second));
 }
 
 #[test]
@@ -543,18 +553,21 @@ fn mouse_clicks_select_rows_and_the_wheel_scrolls() {
         &mut app,
         mouse(MouseEventKind::Down(MouseButton::Left), 3, top + 4),
     );
-    assert_eq!(app.items.catalogue.selected, 3);
-    assert_eq!(app.items.current, Some(app.items.catalogue.visible[3]));
+    assert_eq!(app.screens.items.catalogue.selected, 3);
+    assert_eq!(
+        app.screens.items.current,
+        Some(app.screens.items.catalogue.visible[3])
+    );
     super::handle_mouse(&mut app, mouse(MouseEventKind::ScrollDown, 3, top + 4));
-    assert_eq!(app.items.catalogue.selected, 4);
+    assert_eq!(app.screens.items.catalogue.selected, 4);
     // A click on the second neighbour row (below the column header) selects it.
     let n = app.items_layout().neighbours;
     super::handle_mouse(
         &mut app,
         mouse(MouseEventKind::Down(MouseButton::Left), n.x + 5, n.y + 3),
     );
-    assert_eq!(app.items.focus, ItemsPane::Neighbours);
-    assert_eq!(app.items.neighbour_selected, 1);
+    assert_eq!(app.screens.items.focus, ItemsPane::Neighbours);
+    assert_eq!(app.screens.items.neighbour_selected, 1);
 }
 
 #[test]
@@ -562,10 +575,10 @@ fn the_loadings_pane_shows_what_a_factor_stands_for() {
     let mut app = demo_app();
     press(&mut app, KeyCode::Tab);
     press(&mut app, KeyCode::Tab);
-    assert_eq!(app.items.focus, ItemsPane::Loadings);
+    assert_eq!(app.screens.items.focus, ItemsPane::Loadings);
     press(&mut app, KeyCode::Down);
-    assert_eq!(app.items.factor_selected, 1);
-    let (top, bottom) = app.items.factor_extremes.clone();
+    assert_eq!(app.screens.items.factor_selected, 1);
+    let (top, bottom) = app.screens.items.factor_extremes.clone();
     assert_eq!(top.len(), 4);
     let column = |j: u32| app.shared.model.factors.item(j)[1];
     let max = (0..app.shared.model.ratings.items.len() as u32)
@@ -582,11 +595,14 @@ fn the_loadings_pane_shows_what_a_factor_stands_for() {
 fn searches_wait_for_a_pause_when_deferred() {
     let mut app = demo_app();
     app.deferred.enabled = true;
-    let before = app.items.neighbours.clone();
+    let before = app.screens.items.neighbours.clone();
     press(&mut app, KeyCode::Down);
     press(&mut app, KeyCode::Down);
     assert!(app.deferred.neighbours);
-    assert_eq!(app.items.neighbours, before, "no search while keys arrive");
+    assert_eq!(
+        app.screens.items.neighbours, before,
+        "no search while keys arrive"
+    );
     assert!(screen(&mut app, 100, 30).contains("updating…"));
     press(&mut app, KeyCode::Char('/'));
     press(&mut app, KeyCode::Char('z'));
@@ -594,13 +610,14 @@ fn searches_wait_for_a_pause_when_deferred() {
     app.settle();
     assert!(!app.deferred.neighbours && !app.deferred.filter);
     assert!(
-        app.items
+        app.screens
+            .items
             .catalogue
             .visible
             .iter()
             .all(|&j| app.title(j).to_lowercase().contains('z'))
     );
-    assert_ne!(app.items.neighbours, before);
+    assert_ne!(app.screens.items.neighbours, before);
 }
 
 #[test]
@@ -688,7 +705,7 @@ fn thousands_of_random_keys_clicks_and_sizes_in_every_context_never_panic() {
 
 /// What each screen shows, as text to compare.
 fn screen_states(app: &App) -> Vec<(ScreenId, String)> {
-    let items = &app.items;
+    let items = &app.screens.items;
     vec![
         (
             ScreenId::Items,
@@ -705,14 +722,17 @@ fn screen_states(app: &App) -> Vec<(ScreenId, String)> {
                 items.catalogue.visible.len()
             ),
         ),
-        (ScreenId::Member, format!("{:?}", app.member)),
+        (ScreenId::Member, format!("{:?}", app.screens.member)),
         (
             ScreenId::Map,
-            format!("{:?} {:?}", app.map.zoom, app.map.centre),
+            format!("{:?} {:?}", app.screens.map.zoom, app.screens.map.centre),
         ),
         (
             ScreenId::Audit,
-            format!("{:?}", app.audit.as_ref().map(|a| (a.focus, a.selected))),
+            format!(
+                "{:?}",
+                app.screens.audit.as_ref().map(|a| (a.focus, a.selected))
+            ),
         ),
     ]
 }

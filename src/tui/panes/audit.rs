@@ -16,7 +16,7 @@ use crate::tui::theme::Theme;
 
 /// Draws the audit screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let Some(a) = &app.audit else { return };
+    let Some(a) = &app.screens.audit else { return };
     let l = layout::audit(area, a.focus);
     if !l.coherence.is_empty() {
         render_coherence(app, a, frame, l.coherence, theme);

@@ -17,7 +17,7 @@ const TITLE_ROOM: usize = 20;
 
 /// Draws the catalogue pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let c = &app.items.catalogue;
+    let c = &app.screens.items.catalogue;
     let shown = if c.filter.is_empty() {
         format!(
             " Catalogue · {} items · by {} ",
@@ -32,7 +32,11 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             c.filter
         )
     };
-    let block = framed(shown, app.items.focus == ItemsPane::Catalogue, theme);
+    let block = framed(
+        shown,
+        app.screens.items.focus == ItemsPane::Catalogue,
+        theme,
+    );
     let body = inner(area);
     frame.render_widget(block, area);
     let height = body.height as usize;

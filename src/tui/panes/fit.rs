@@ -198,6 +198,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     );
 
     let bars: Vec<Bar<'_>> = app
+        .screens
         .fit
         .histogram
         .iter()
@@ -213,7 +214,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         })
         .collect();
     let inner_width = inner(histogram_area).width as usize;
-    let bar_width = (inner_width / app.fit.histogram.len().max(1))
+    let bar_width = (inner_width / app.screens.fit.histogram.len().max(1))
         .saturating_sub(1)
         .max(1) as u16;
     let chart = BarChart::default()

@@ -13,7 +13,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, body: Rect, theme: Theme) {
     let l = layout::items(
         body,
         app.shared.model.factors.rank,
-        app.items.focus == ItemsPane::Loadings,
+        app.screens.items.focus == ItemsPane::Loadings,
     );
     super::catalogue::render(app, frame, l.catalogue, theme);
     if !l.neighbours.is_empty() {

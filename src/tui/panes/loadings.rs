@@ -32,7 +32,7 @@ const MIN_HALF: usize = 8;
 
 /// Draws the loadings pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let s = &app.items;
+    let s = &app.screens.items;
     let focused = s.focus == ItemsPane::Loadings;
     let note = s
         .current
@@ -107,7 +107,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
 /// The items loading most positively and most negatively on the highlighted factor.
 fn render_meaning(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let width = area.width as usize;
-    let s = &app.items;
+    let s = &app.screens.items;
     let (top, bottom) = &s.factor_extremes;
     let row = |&(j, v): &(u32, f64)| {
         Line::raw(format!(

@@ -29,7 +29,7 @@ const PALETTE: [Color; 8] = [
 
 /// Draws the map screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let map = &app.map;
+    let map = &app.screens.map;
     let Some(p) = &map.projection else { return };
     let [[x0, x1], [y0, y1]] = map.extent;
     let half = |lo: f64, hi: f64| ((hi - lo) / 2.0).max(1e-9) / map.zoom;
@@ -51,12 +51,13 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         layers[layer].1.push((q[0], q[1]));
     }
     let neighbours: Vec<(f64, f64)> = app
+        .screens
         .items
         .neighbours
         .iter()
         .map(|n| (p.points[n.item as usize][0], p.points[n.item as usize][1]))
         .collect();
-    let current = app.items.current.map(|j| p.points[j as usize]);
+    let current = app.screens.items.current.map(|j| p.points[j as usize]);
     let title = format!(
         " Map · principal components x {:.0}%, y {:.0}% · zoom {:.1}× · ● current ○ neighbours ",
         100.0 * p.explained_ratio[0],

@@ -17,7 +17,7 @@ use crate::tui::theme::Theme;
 
 /// Draws the member screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let Some(m) = &app.member else {
+    let Some(m) = &app.screens.member else {
         render_empty(app, frame, area, theme);
         return;
     };

@@ -17,7 +17,7 @@ const TITLE_ROOM: usize = 20;
 
 /// Draws the neighbours pane.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    let s = &app.items;
+    let s = &app.screens.items;
     let metric = match s.metric {
         Metric::Euclidean => "euclidean",
         Metric::Cosine => "cosine",

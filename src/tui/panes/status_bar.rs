@@ -15,7 +15,7 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let line = match app.mode {
         Mode::Search => Line::from(vec![
             Span::styled("find: ", theme.key()),
-            Span::raw(sextant::text::escaped(&app.items.catalogue.filter).into_owned()),
+            Span::raw(sextant::text::escaped(&app.screens.items.catalogue.filter).into_owned()),
             Span::styled("▏", theme.key()),
             Span::styled("   Enter keep · Esc drop", theme.muted()),
         ]),

@@ -150,7 +150,7 @@ pub fn list_rows(list: usize, inner_height: u16) -> usize {
 impl App {
     /// The audit screen's layout in the current window.
     pub fn audit_layout(&self) -> layout::Audit {
-        let focus = self.audit.as_ref().map_or(LEAST, |a| a.focus);
+        let focus = self.screens.audit.as_ref().map_or(LEAST, |a| a.focus);
         layout::audit(layout::body_of(self.size.0, self.size.1), focus)
     }
 
@@ -161,19 +161,19 @@ impl App {
 
     /// The audit screen's own actions.
     pub fn update_audit(&mut self, action: Action) {
-        if self.audit.is_none() {
-            self.audit = Some(AuditView::compute(&self.shared));
+        if self.screens.audit.is_none() {
+            self.screens.audit = Some(AuditView::compute(&self.shared));
         }
-        let focus = self.audit.as_ref().map_or(LEAST, |a| a.focus);
+        let focus = self.screens.audit.as_ref().map_or(LEAST, |a| a.focus);
         let page = list_rows(focus, layout::inner(self.audit_area(focus)).height);
         match action {
             Action::FocusNext | Action::FocusPrevious => {
-                if let Some(a) = &mut self.audit {
+                if let Some(a) = &mut self.screens.audit {
                     a.focus = (a.focus + if action == Action::FocusNext { 1 } else { 2 }) % 3;
                 }
             }
             Action::Select(movement) => {
-                if let Some(a) = &mut self.audit {
+                if let Some(a) = &mut self.screens.audit {
                     let len = a.len(focus);
                     a.selected[focus] = movement.apply(a.selected[focus], len, page);
                 }
@@ -188,7 +188,9 @@ impl App {
                     let inner = layout::inner(area);
                     let top = list_top(list);
                     let height = list_rows(list, inner.height);
-                    let Some(a) = &mut self.audit else { return };
+                    let Some(a) = &mut self.screens.audit else {
+                        return;
+                    };
                     a.focus = list;
                     let len = a.len(list);
                     let start = window_start(a.selected[list], len, height);
@@ -206,7 +208,7 @@ impl App {
     /// item screen; a largest miss opens its member with that item highlighted; an odd
     /// member vector opens that member.
     fn open_audited(&mut self) {
-        let Some(a) = &self.audit else { return };
+        let Some(a) = &self.screens.audit else { return };
         let at = a.selected[a.focus];
         match a.focus {
             LEAST => {

@@ -21,10 +21,10 @@ impl App {
     /// The fit screen's own actions.
     pub fn update_fit(&mut self, action: Action) {
         if let Action::Show(_) = action
-            && self.fit.histogram.is_empty()
+            && self.screens.fit.histogram.is_empty()
         {
             let m = &self.shared.model;
-            self.fit.histogram = residual_histogram(&m.factors, &m.ratings, 21, 3.0);
+            self.screens.fit.histogram = residual_histogram(&m.factors, &m.ratings, 21, 3.0);
         }
     }
 }

@@ -256,7 +256,7 @@ impl App {
         layout::items(
             layout::body_of(self.size.0, self.size.1),
             self.shared.model.factors.rank,
-            self.items.focus == ItemsPane::Loadings,
+            self.screens.items.focus == ItemsPane::Loadings,
         )
     }
 
@@ -266,22 +266,22 @@ impl App {
             Action::FocusNext | Action::FocusPrevious => {
                 let at = PANES
                     .iter()
-                    .position(|&p| p == self.items.focus)
+                    .position(|&p| p == self.screens.items.focus)
                     .unwrap_or(0);
                 let step = if action == Action::FocusNext { 1 } else { 2 };
-                self.items.focus = PANES[(at + step) % PANES.len()];
-                if self.items.focus == ItemsPane::Loadings {
+                self.screens.items.focus = PANES[(at + step) % PANES.len()];
+                if self.screens.items.focus == ItemsPane::Loadings {
                     self.defer_factor();
                 }
             }
             Action::Select(movement) => self.move_in_items(movement),
-            Action::Open => match self.items.focus {
+            Action::Open => match self.screens.items.focus {
                 ItemsPane::Neighbours => {
-                    if let Some(j) = self.items.highlighted() {
+                    if let Some(j) = self.screens.items.highlighted() {
                         self.visit(j);
                     }
                 }
-                ItemsPane::Catalogue => self.items.focus = ItemsPane::Neighbours,
+                ItemsPane::Catalogue => self.screens.items.focus = ItemsPane::Neighbours,
                 ItemsPane::Loadings => {
                     self.status = "L labels the highlighted factor".into();
                 }
@@ -290,32 +290,32 @@ impl App {
             Action::Forward => self.go_forward(),
             Action::StartSearch => {
                 self.mode = crate::tui::app::Mode::Search;
-                self.items.focus = ItemsPane::Catalogue;
+                self.screens.items.focus = ItemsPane::Catalogue;
             }
             Action::ClearSearch => self.set_filter(String::new()),
             Action::ToggleMetric => {
-                self.items.metric = match self.items.metric {
+                self.screens.items.metric = match self.screens.items.metric {
                     Metric::Euclidean => Metric::Cosine,
                     Metric::Cosine => Metric::Euclidean,
                 };
                 self.refresh_neighbours();
             }
             Action::MoreNeighbours => {
-                self.items.k = (self.items.k + 5).min(100);
+                self.screens.items.k = (self.screens.items.k + 5).min(100);
                 self.refresh_neighbours();
             }
             Action::FewerNeighbours => {
-                self.items.k = self.items.k.saturating_sub(5).max(5);
+                self.screens.items.k = self.screens.items.k.saturating_sub(5).max(5);
                 self.refresh_neighbours();
             }
             Action::CycleSort => {
-                self.items.catalogue.order = self.items.catalogue.order.next();
-                self.items.catalogue.sort(&self.shared);
+                self.screens.items.catalogue.order = self.screens.items.catalogue.order.next();
+                self.screens.items.catalogue.sort(&self.shared);
                 self.select_in_catalogue(0);
             }
             Action::FlagPair => self.toggle_pair_flag(),
             Action::LabelFactor => self.begin_factor_label(),
-            Action::AddToProfile => match self.items.current {
+            Action::AddToProfile => match self.screens.items.current {
                 Some(j) => self.add_to_profile(j),
                 None => self.status = "no current item to add".into(),
             },
@@ -326,23 +326,24 @@ impl App {
 
     fn move_in_items(&mut self, movement: Move) {
         let l = self.items_layout();
-        match self.items.focus {
+        match self.screens.items.focus {
             ItemsPane::Catalogue => {
                 let page = layout::inner(l.catalogue).height as usize;
-                let c = &self.items.catalogue;
+                let c = &self.screens.items.catalogue;
                 let at = movement.apply(c.selected, c.visible.len(), page);
                 self.select_in_catalogue(at);
             }
             ItemsPane::Neighbours => {
                 let page = (layout::inner(l.neighbours).height as usize).saturating_sub(1);
-                let s = &mut self.items;
+                let s = &mut self.screens.items;
                 s.neighbour_selected =
                     movement.apply(s.neighbour_selected, s.neighbours.len(), page);
             }
             ItemsPane::Loadings => {
                 let page = layout::inner(l.loadings).height as usize;
                 let rank = self.shared.model.factors.rank;
-                self.items.factor_selected = movement.apply(self.items.factor_selected, rank, page);
+                self.screens.items.factor_selected =
+                    movement.apply(self.screens.items.factor_selected, rank, page);
                 self.defer_factor();
             }
         }
@@ -351,19 +352,19 @@ impl App {
     fn click_items(&mut self, column: u16, row: u16) {
         let l = self.items_layout();
         if layout::contains(l.catalogue, column, row) {
-            self.items.focus = ItemsPane::Catalogue;
+            self.screens.items.focus = ItemsPane::Catalogue;
             let inner = layout::inner(l.catalogue);
-            let c = &self.items.catalogue;
+            let c = &self.screens.items.catalogue;
             let start = window_start(c.selected, c.visible.len(), inner.height as usize);
             let at = start + (row - inner.y) as usize;
             if at < c.visible.len() {
                 self.select_in_catalogue(at);
             }
         } else if layout::contains(l.neighbours, column, row) {
-            self.items.focus = ItemsPane::Neighbours;
+            self.screens.items.focus = ItemsPane::Neighbours;
             // The first line of the pane is its column header.
             let inner = layout::inner(l.neighbours);
-            let s = &mut self.items;
+            let s = &mut self.screens.items;
             let height = (inner.height as usize).saturating_sub(1);
             let start = window_start(s.neighbour_selected, s.neighbours.len(), height);
             let line = (row - inner.y) as usize;
@@ -371,7 +372,7 @@ impl App {
                 s.neighbour_selected = start + line - 1;
             }
         } else if layout::contains(l.loadings, column, row) {
-            self.items.focus = ItemsPane::Loadings;
+            self.screens.items.focus = ItemsPane::Loadings;
             self.defer_factor();
         }
     }
@@ -380,60 +381,60 @@ impl App {
     /// and shows the screen with the neighbours focused.
     pub fn open_item(&mut self, j: u32) {
         self.shown = crate::tui::screens::ScreenId::Items;
-        self.items.focus = ItemsPane::Neighbours;
+        self.screens.items.focus = ItemsPane::Neighbours;
         self.visit(j);
     }
 
     /// Makes `j` the current item, remembering the one it replaces for going back.
     pub(crate) fn visit(&mut self, j: u32) {
-        if let Some(previous) = self.items.current {
-            self.items.history.push(previous);
+        if let Some(previous) = self.screens.items.current {
+            self.screens.items.history.push(previous);
         }
-        self.items.future.clear();
+        self.screens.items.future.clear();
         self.show_item(j);
-        self.items.catalogue.reveal(j);
+        self.screens.items.catalogue.reveal(j);
     }
 
     pub(crate) fn select_in_catalogue(&mut self, at: usize) {
-        self.items.catalogue.selected = at;
-        if let Some(j) = self.items.catalogue.highlighted()
-            && self.items.current != Some(j)
+        self.screens.items.catalogue.selected = at;
+        if let Some(j) = self.screens.items.catalogue.highlighted()
+            && self.screens.items.current != Some(j)
         {
-            if let Some(previous) = self.items.current {
-                self.items.history.push(previous);
-                self.items.future.clear();
+            if let Some(previous) = self.screens.items.current {
+                self.screens.items.history.push(previous);
+                self.screens.items.future.clear();
             }
             self.show_item(j);
         }
     }
 
     fn go_back(&mut self) {
-        let Some(j) = self.items.history.pop() else {
+        let Some(j) = self.screens.items.history.pop() else {
             self.status = "nothing to go back to".into();
             return;
         };
-        if let Some(current) = self.items.current {
-            self.items.future.push(current);
+        if let Some(current) = self.screens.items.current {
+            self.screens.items.future.push(current);
         }
         self.show_item(j);
-        self.items.catalogue.reveal(j);
+        self.screens.items.catalogue.reveal(j);
     }
 
     fn go_forward(&mut self) {
-        let Some(j) = self.items.future.pop() else {
+        let Some(j) = self.screens.items.future.pop() else {
             self.status = "nothing to go forward to".into();
             return;
         };
-        if let Some(current) = self.items.current {
-            self.items.history.push(current);
+        if let Some(current) = self.screens.items.current {
+            self.screens.items.history.push(current);
         }
         self.show_item(j);
-        self.items.catalogue.reveal(j);
+        self.screens.items.catalogue.reveal(j);
     }
 
     fn show_item(&mut self, j: u32) {
-        self.items.current = Some(j);
-        self.items.neighbour_selected = 0;
+        self.screens.items.current = Some(j);
+        self.screens.items.neighbour_selected = 0;
         if self.deferred.enabled {
             self.deferred.neighbours = true;
         } else {
@@ -442,7 +443,7 @@ impl App {
     }
 
     pub(crate) fn refresh_neighbours(&mut self) {
-        if let Err(e) = self.items.refresh_neighbours(&self.shared) {
+        if let Err(e) = self.screens.items.refresh_neighbours(&self.shared) {
             self.status = e;
         }
     }
@@ -451,13 +452,13 @@ impl App {
         if self.deferred.enabled {
             self.deferred.factor = true;
         } else {
-            self.items.refresh_factor(&self.shared);
+            self.screens.items.refresh_factor(&self.shared);
         }
     }
 
     /// Sets the catalogue filter (the matching waits for a pause in typing when deferred).
     pub(crate) fn set_filter(&mut self, filter: String) {
-        self.items.catalogue.filter = filter;
+        self.screens.items.catalogue.filter = filter;
         if self.deferred.enabled {
             // Matching walks the whole catalogue: wait until typing pauses.
             self.deferred.filter = true;
@@ -467,12 +468,12 @@ impl App {
     }
 
     pub(crate) fn refilter(&mut self) {
-        self.items.catalogue.apply_filter(&self.shared);
-        self.items.catalogue.selected = 0;
-        match self.items.current {
+        self.screens.items.catalogue.apply_filter(&self.shared);
+        self.screens.items.catalogue.selected = 0;
+        match self.screens.items.current {
             // Keep the current item when it still matches; otherwise show the first match.
-            Some(j) if self.items.catalogue.visible.contains(&j) => {
-                self.items.catalogue.reveal(j);
+            Some(j) if self.screens.items.catalogue.visible.contains(&j) => {
+                self.screens.items.catalogue.reveal(j);
             }
             _ => self.select_in_catalogue(0),
         }

@@ -69,7 +69,7 @@ pub struct MapView {
 impl App {
     /// The map screen's own actions.
     pub fn update_map(&mut self, action: Action) {
-        let map = &mut self.map;
+        let map = &mut self.screens.map;
         if map.projection.is_none() {
             let f = &self.shared.model.factors;
             let p = pca_2d(&f.items, f.rank);

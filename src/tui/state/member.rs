@@ -242,6 +242,7 @@ impl App {
     /// The member screen's layout in the current window.
     pub fn member_layout(&self) -> layout::Member {
         let suggestions = self
+            .screens
             .member
             .as_ref()
             .is_some_and(|m| m.explained_list == MemberPane::Suggestions);
@@ -255,7 +256,7 @@ impl App {
         if let Some(item) = item {
             view.highlight_rating(item, &self.shared);
         }
-        self.member = Some(view);
+        self.screens.member = Some(view);
         self.shown = ScreenId::Member;
     }
 
@@ -271,11 +272,11 @@ impl App {
     /// The member screen's own actions.
     pub fn update_member(&mut self, action: Action) {
         match action {
-            Action::Show(_) if self.member.is_none() => {
+            Action::Show(_) if self.screens.member.is_none() => {
                 self.status = "press u to open a member by id, or w to start a what-if".into();
             }
             Action::ToggleResidualOrder => {
-                if let Some(m) = &mut self.member {
+                if let Some(m) = &mut self.screens.member {
                     m.by_residual = !m.by_residual;
                     m.sort(&self.shared);
                 }
@@ -283,6 +284,7 @@ impl App {
             Action::WritePlain => self.write_plain(false),
             Action::AddToProfile => {
                 let item = self
+                    .screens
                     .member
                     .as_ref()
                     .filter(|m| m.focus == MemberPane::Suggestions)
@@ -298,7 +300,7 @@ impl App {
             Action::RemoveRating => self.remove_rating(),
             Action::Click(column, row) => self.click_member(column, row),
             _ => {
-                if let Some(m) = &mut self.member {
+                if let Some(m) = &mut self.screens.member {
                     let l = layout::member(layout::body_of(self.size.0, self.size.1), {
                         m.explained_list == MemberPane::Suggestions
                     });
@@ -312,7 +314,9 @@ impl App {
 
     fn click_member(&mut self, column: u16, row: u16) {
         let l = self.member_layout();
-        let Some(m) = &mut self.member else { return };
+        let Some(m) = &mut self.screens.member else {
+            return;
+        };
         // Each list's first line is its column header.
         let pick = |area, selected: usize, len: usize| {
             let inner = layout::inner(area);

@@ -25,14 +25,16 @@ impl App {
     fn note_target(&self) -> Option<u32> {
         match self.shown {
             ScreenId::Member => self
+                .screens
                 .member
                 .as_ref()
                 .and_then(super::member::MemberView::highlighted),
             ScreenId::Audit => self
+                .screens
                 .audit
                 .as_ref()
                 .and_then(super::audit::AuditView::highlighted_item),
-            _ => self.items.current,
+            _ => self.screens.items.current,
         }
     }
 
@@ -47,11 +49,11 @@ impl App {
     }
 
     pub(crate) fn begin_factor_label(&mut self) {
-        if self.items.focus != ItemsPane::Loadings {
+        if self.screens.items.focus != ItemsPane::Loadings {
             self.status = "highlight a factor in the loadings pane first (Tab to it)".into();
             return;
         }
-        let f = self.items.factor_selected;
+        let f = self.screens.items.factor_selected;
         let text = self
             .notes
             .current
@@ -79,13 +81,16 @@ impl App {
     }
 
     pub(crate) fn toggle_pair_flag(&mut self) {
-        if self.items.focus != ItemsPane::Neighbours {
+        if self.screens.items.focus != ItemsPane::Neighbours {
             self.status = "highlight a neighbour first (Tab to the neighbours pane)".into();
             return;
         }
         let (Some(a), Some(row)) = (
-            self.items.current,
-            self.items.neighbours.get(self.items.neighbour_selected),
+            self.screens.items.current,
+            self.screens
+                .items
+                .neighbours
+                .get(self.screens.items.neighbour_selected),
         ) else {
             return;
         };
@@ -234,7 +239,7 @@ impl App {
 
     /// The plain explanation of the member screen's highlighted item, as written by `p`.
     pub fn plain_text(&self) -> Option<(String, String)> {
-        let m = self.member.as_ref()?;
+        let m = self.screens.member.as_ref()?;
         let e = m.explanation.as_ref()?;
         let who = match (m.user, &m.what_if) {
             (_, Some(_)) => "what-if".to_owned(),

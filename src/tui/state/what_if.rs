@@ -99,12 +99,13 @@ fn refresh(view: &mut MemberView, shared: &Shared, keep: Option<u32>) {
 
 impl App {
     fn what_if_view(&mut self) -> Option<&mut MemberView> {
-        self.member.as_mut().filter(|m| m.what_if.is_some())
+        self.screens.member.as_mut().filter(|m| m.what_if.is_some())
     }
 
     /// Starts a what-if from the open member (or from nobody), or leaves the open one.
     pub(crate) fn toggle_what_if(&mut self) {
         if let Some(origin) = self
+            .screens
             .member
             .as_ref()
             .and_then(|m| m.what_if.as_ref())
@@ -113,12 +114,12 @@ impl App {
             // Leave the what-if: back to the member it came from, or to no member.
             match origin {
                 Some(user) => self.open_member(user, None),
-                None => self.member = None,
+                None => self.screens.member = None,
             }
             self.status = "left the what-if profile (nothing was saved)".into();
             return;
         }
-        let origin = self.member.as_ref().and_then(|m| m.user);
+        let origin = self.screens.member.as_ref().and_then(|m| m.user);
         let ratings = origin
             .map(|u| sextant::analysis::explain::training_ratings(&self.shared.model, u))
             .unwrap_or_default();
@@ -140,7 +141,7 @@ impl App {
             }),
         );
         refresh(&mut view, &self.shared, None);
-        self.member = Some(view);
+        self.screens.member = Some(view);
     }
 
     /// Adds `item` to the what-if profile at the profile's own predicted rating (starting a
@@ -152,7 +153,7 @@ impl App {
         }
         let title = self.shared.title(item).to_owned();
         let shared = &self.shared;
-        let Some(view) = self.member.as_mut() else {
+        let Some(view) = self.screens.member.as_mut() else {
             return;
         };
         let Some(w) = view.what_if.as_mut() else {
@@ -180,7 +181,7 @@ impl App {
 
     /// The highlighted what-if rating, when the ratings list has focus.
     fn highlighted_rating(&self) -> Option<u32> {
-        let m = self.member.as_ref()?;
+        let m = self.screens.member.as_ref()?;
         m.what_if.as_ref()?;
         if m.focus != MemberPane::Ratings {
             return None;
@@ -195,7 +196,7 @@ impl App {
             return;
         };
         let shared = &self.shared;
-        let Some(view) = self.member.as_mut() else {
+        let Some(view) = self.screens.member.as_mut() else {
             return;
         };
         if let Some(w) = &mut view.what_if
@@ -212,7 +213,7 @@ impl App {
             return;
         };
         let shared = &self.shared;
-        let Some(view) = self.member.as_mut() else {
+        let Some(view) = self.screens.member.as_mut() else {
             return;
         };
         if let Some(w) = &mut view.what_if {
