@@ -8,8 +8,8 @@ use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
 use super::action::Action;
 use super::app::{App, Mode};
 use super::screens::ScreenId;
-use super::state::items::ItemsPane;
-use super::state::member::MemberPane;
+use super::screens::items::ItemsPane;
+use super::screens::member::MemberPane;
 use super::theme::Theme;
 use super::{handle_key, render};
 
@@ -469,7 +469,7 @@ fn p_asks_before_replacing_a_file_and_writes_the_highlighted_item() {
         .screens
         .member
         .as_ref()
-        .and_then(super::state::member::MemberView::highlighted)
+        .and_then(super::screens::member::MemberView::highlighted)
         .expect("highlighted");
     let name = format!(
         "explanation-m0001-{}.txt",
@@ -501,7 +501,7 @@ fn the_plain_explanation_names_the_member_and_item() {
         .screens
         .member
         .as_ref()
-        .and_then(super::state::member::MemberView::highlighted)
+        .and_then(super::screens::member::MemberView::highlighted)
         .expect("highlighted");
     assert_eq!(
         name,

@@ -7,7 +7,7 @@ use ratatui::widgets::Paragraph;
 
 use super::{framed, inner};
 use crate::tui::app::App;
-use crate::tui::state::items::ItemsPane;
+use crate::tui::screens::items::ItemsPane;
 use crate::tui::state::shared::factor_name;
 use crate::tui::theme::Theme;
 

@@ -1,13 +1,10 @@
-//! One file per pane; each draws ready-made rows from `&App` and changes nothing.
+//! Panes used by more than one view, or by the frame itself (the item screen's three
+//! panes, the help, the status line), and helpers every pane uses. Each draws from
+//! `&App` and changes nothing. A screen's own drawing is in `screens/NAME/pane.rs`.
 
-pub mod audit;
 pub mod catalogue;
-pub mod fit;
 pub mod help;
-pub mod items;
 pub mod loadings;
-pub mod map;
-pub mod member;
 pub mod neighbours;
 pub mod status_bar;
 

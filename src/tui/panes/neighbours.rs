@@ -9,7 +9,7 @@ use sextant::index::Metric;
 
 use super::{fit, framed, inner, padded, row, window_start};
 use crate::tui::app::App;
-use crate::tui::state::items::ItemsPane;
+use crate::tui::screens::items::ItemsPane;
 use crate::tui::theme::Theme;
 
 /// Fewest characters a title keeps before the category column is dropped.

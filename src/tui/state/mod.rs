@@ -1,12 +1,8 @@
-//! The explorer's state, split by screen and tool. Each file holds one screen's or tool's
-//! state, its key table and the part of `App::update` that changes it.
+//! State that belongs to no one screen: what every screen reads (`shared`), the
+//! catalogue, curator notes and what-if profiles. Each screen's own state lives beside
+//! its drawing under `screens/`.
 
-pub mod audit;
 pub mod catalogue;
-pub mod fit;
-pub mod items;
-pub mod map;
-pub mod member;
 pub mod notes;
 pub mod shared;
 pub mod what_if;

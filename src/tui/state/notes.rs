@@ -1,9 +1,9 @@
 //! Curator notes (item notes, factor labels, wrong neighbour pairs) as the explorer edits
 //! and saves them, notes rescued on the way out, and plain explanations written to a file.
 
-use super::items::ItemsPane;
 use crate::tui::app::{App, Prompt};
 use crate::tui::screens::ScreenId;
+use crate::tui::screens::items::ItemsPane;
 
 /// An id made safe for a file name.
 fn file_safe(id: &str) -> String {
@@ -28,12 +28,12 @@ impl App {
                 .screens
                 .member
                 .as_ref()
-                .and_then(super::member::MemberView::highlighted),
+                .and_then(crate::tui::screens::member::MemberView::highlighted),
             ScreenId::Audit => self
                 .screens
                 .audit
                 .as_ref()
-                .and_then(super::audit::AuditView::highlighted_item),
+                .and_then(crate::tui::screens::audit::AuditView::highlighted_item),
             _ => self.screens.items.current,
         }
     }

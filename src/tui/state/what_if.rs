@@ -6,10 +6,10 @@ use sextant::analysis::explain::Profile;
 use sextant::analysis::foldin::{fold_in, suggest_profile};
 use sextant::data::RatingScale;
 
-use super::member::{MemberPane, MemberView, RatedRow};
 use super::shared::Shared;
 use crate::tui::app::App;
 use crate::tui::screens::ScreenId;
+use crate::tui::screens::member::{MemberPane, MemberView, RatedRow};
 
 /// A what-if profile.
 #[derive(Debug, Clone, PartialEq)]

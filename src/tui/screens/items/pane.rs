@@ -5,7 +5,7 @@ use ratatui::layout::Rect;
 
 use crate::tui::app::App;
 use crate::tui::layout;
-use crate::tui::state::items::ItemsPane;
+use crate::tui::screens::items::ItemsPane;
 use crate::tui::theme::Theme;
 
 /// Draws the item screen into `body`.
@@ -15,11 +15,11 @@ pub fn render(app: &App, frame: &mut Frame<'_>, body: Rect, theme: Theme) {
         app.shared.model.factors.rank,
         app.screens.items.focus == ItemsPane::Loadings,
     );
-    super::catalogue::render(app, frame, l.catalogue, theme);
+    crate::tui::panes::catalogue::render(app, frame, l.catalogue, theme);
     if !l.neighbours.is_empty() {
-        super::neighbours::render(app, frame, l.neighbours, theme);
+        crate::tui::panes::neighbours::render(app, frame, l.neighbours, theme);
     }
     if !l.loadings.is_empty() {
-        super::loadings::render(app, frame, l.loadings, theme);
+        crate::tui::panes::loadings::render(app, frame, l.loadings, theme);
     }
 }

@@ -2,17 +2,19 @@
 //! loadings, the history of items visited, and which pane has focus; its keys and its
 //! update.
 
+pub mod pane;
+
 use ratatui::crossterm::event::KeyCode;
 use sextant::analysis::{Closeness, closeness};
 use sextant::index::Metric;
 
-use super::catalogue::Catalogue;
-use super::shared::Shared;
 use crate::tui::action::{Action, Move};
 use crate::tui::app::App;
 use crate::tui::keymap::{Binding, bind, chars};
 use crate::tui::layout;
 use crate::tui::panes::window_start;
+use crate::tui::state::catalogue::Catalogue;
+use crate::tui::state::shared::Shared;
 
 const NONE: ratatui::crossterm::event::KeyModifiers = ratatui::crossterm::event::KeyModifiers::NONE;
 

@@ -1,21 +1,27 @@
 //! The list of screens: the tab bar, the keys that switch screens and the help's sections
 //! are all generated from [`SCREENS`].
 //!
-//! Adding a screen touches three files: its state (with its own `update`) under
-//! `state/`, its pane under `panes/`, and this one (a variant of [`ScreenId`], a field of
+//! Adding a screen touches three files: `screens/NAME.rs` (its state, keys and `update`),
+//! `screens/NAME/pane.rs` (its drawing), and this one (a `mod` line, (a variant of [`ScreenId`], a field of
 //! [`Screens`], a row of the table, and one arm in each of [`render`] and [`update`]).
 
 use ratatui::Frame;
 use ratatui::layout::Rect;
 
+pub mod audit;
+pub mod fit;
+pub mod items;
+pub mod map;
+pub mod member;
+
 use super::action::Action;
 use super::app::App;
 use super::keymap::Binding;
-use super::state::audit::AuditView;
-use super::state::fit::FitView;
-use super::state::items::ItemsScreen;
-use super::state::map::MapView;
-use super::state::member::MemberView;
+use super::screens::audit::AuditView;
+use super::screens::fit::FitView;
+use super::screens::items::ItemsScreen;
+use super::screens::map::MapView;
+use super::screens::member::MemberView;
 use super::state::shared::Shared;
 use super::theme::Theme;
 
@@ -87,7 +93,7 @@ pub const SCREENS: &[Screen] = &[
         name: "items",
         description: "catalogue, nearest items, factor values",
         lists: true,
-        bindings: super::state::items::BINDINGS,
+        bindings: super::screens::items::BINDINGS,
     },
     Screen {
         id: ScreenId::Member,
@@ -95,7 +101,7 @@ pub const SCREENS: &[Screen] = &[
         name: "member",
         description: "a member's ratings, suggestions and why; what-if profiles",
         lists: true,
-        bindings: super::state::member::BINDINGS,
+        bindings: super::screens::member::BINDINGS,
     },
     Screen {
         id: ScreenId::Map,
@@ -103,7 +109,7 @@ pub const SCREENS: &[Screen] = &[
         name: "map",
         description: "2-D map of the items (principal components)",
         lists: false,
-        bindings: super::state::map::BINDINGS,
+        bindings: super::screens::map::BINDINGS,
     },
     Screen {
         id: ScreenId::Fit,
@@ -111,7 +117,7 @@ pub const SCREENS: &[Screen] = &[
         name: "fit",
         description: "fit health: convergence, accuracy, residuals",
         lists: false,
-        bindings: super::state::fit::BINDINGS,
+        bindings: super::screens::fit::BINDINGS,
     },
     Screen {
         id: ScreenId::Audit,
@@ -119,7 +125,7 @@ pub const SCREENS: &[Screen] = &[
         name: "audit",
         description: "neighbour coherence, largest misses, odd vectors",
         lists: true,
-        bindings: super::state::audit::BINDINGS,
+        bindings: super::screens::audit::BINDINGS,
     },
 ];
 
@@ -133,13 +139,12 @@ pub fn screen(id: ScreenId) -> &'static Screen {
 
 /// Draws screen `id` into `area`.
 pub fn render(id: ScreenId, app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
-    use super::panes;
     match id {
-        ScreenId::Items => panes::items::render(app, frame, area, theme),
-        ScreenId::Member => panes::member::render(app, frame, area, theme),
-        ScreenId::Map => panes::map::render(app, frame, area, theme),
-        ScreenId::Fit => panes::fit::render(app, frame, area, theme),
-        ScreenId::Audit => panes::audit::render(app, frame, area, theme),
+        ScreenId::Items => items::pane::render(app, frame, area, theme),
+        ScreenId::Member => member::pane::render(app, frame, area, theme),
+        ScreenId::Map => map::pane::render(app, frame, area, theme),
+        ScreenId::Fit => fit::pane::render(app, frame, area, theme),
+        ScreenId::Audit => audit::pane::render(app, frame, area, theme),
     }
 }
 

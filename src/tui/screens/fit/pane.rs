@@ -8,8 +8,8 @@ use ratatui::symbols::Marker;
 use ratatui::text::Line;
 use ratatui::widgets::{Axis, Bar, BarChart, BarGroup, Chart, Dataset, GraphType, Paragraph};
 
-use super::{framed, inner};
 use crate::tui::app::App;
+use crate::tui::panes::{framed, inner};
 use crate::tui::theme::Theme;
 
 fn bounds(values: impl Iterator<Item = f64>) -> [f64; 2] {

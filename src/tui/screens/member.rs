@@ -2,18 +2,20 @@
 //! what-if profile's), their suggestions, the explanation of the highlighted item, and
 //! which list has focus; its keys and its update.
 
+pub mod pane;
+
 use ratatui::crossterm::event::KeyCode;
 use sextant::analysis::explain::{Explanation, Profile, explain, explain_profile};
 use sextant::analysis::{Suggestion, suggest};
 
-use super::shared::Shared;
-use super::what_if::WhatIf;
 use crate::tui::action::{Action, Move};
 use crate::tui::app::App;
 use crate::tui::keymap::{Binding, bind, chars};
 use crate::tui::layout;
 use crate::tui::panes::window_start;
 use crate::tui::screens::ScreenId;
+use crate::tui::state::shared::Shared;
+use crate::tui::state::what_if::WhatIf;
 
 const NONE: ratatui::crossterm::event::KeyModifiers = ratatui::crossterm::event::KeyModifiers::NONE;
 
@@ -388,7 +390,7 @@ fn navigate(
                     let lines = m
                         .explanation
                         .as_ref()
-                        .map_or(0, crate::tui::panes::member::why_line_count);
+                        .map_or(0, crate::tui::screens::member::pane::why_line_count);
                     let height = layout::inner(l.why).height as usize;
                     let last = lines.saturating_sub(height);
                     m.why_scroll = match movement {

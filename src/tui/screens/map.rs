@@ -1,6 +1,8 @@
 //! The map screen's state: the items' 2-D principal-component projection (computed the
 //! first time the map is shown), its extent, and the zoom and centre; its keys and update.
 
+pub mod pane;
+
 use ratatui::crossterm::event::KeyCode;
 use sextant::analysis::{Projection, pca_2d};
 

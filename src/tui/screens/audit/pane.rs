@@ -8,10 +8,10 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
 use sextant::analysis::diagnostics::Side;
 
-use super::{fit, framed, inner, padded, text_row, window_start};
 use crate::tui::app::App;
 use crate::tui::layout;
-use crate::tui::state::audit::{AuditView, LEAST, MISSES, VECTORS, list_rows};
+use crate::tui::panes::{fit, framed, inner, padded, text_row, window_start};
+use crate::tui::screens::audit::{AuditView, LEAST, MISSES, VECTORS, list_rows};
 use crate::tui::theme::Theme;
 
 /// Draws the audit screen.

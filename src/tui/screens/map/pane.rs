@@ -9,8 +9,8 @@ use ratatui::symbols::Marker;
 use ratatui::text::Line;
 use ratatui::widgets::canvas::{Canvas, Points};
 
-use super::framed;
 use crate::tui::app::App;
+use crate::tui::panes::framed;
 use crate::tui::theme::Theme;
 
 /// Most points drawn per frame.

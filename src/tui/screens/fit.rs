@@ -1,6 +1,8 @@
 //! The fit screen's state: the training residuals in bins, computed the first time the
 //! screen is shown. The screen has no keys of its own.
 
+pub mod pane;
+
 use sextant::analysis::metrics::residual_histogram;
 
 use crate::tui::action::Action;

@@ -8,10 +8,10 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::Paragraph;
 use sextant::analysis::explain::Explanation;
 
-use super::{fit, framed, inner, text_row, window_start};
 use crate::tui::app::App;
 use crate::tui::layout;
-use crate::tui::state::member::{MemberPane, MemberView};
+use crate::tui::panes::{fit, framed, inner, text_row, window_start};
+use crate::tui::screens::member::{MemberPane, MemberView};
 use crate::tui::state::shared::factor_name;
 use crate::tui::theme::Theme;
 
@@ -119,7 +119,7 @@ fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, 
             .enumerate()
             .take(rows.saturating_sub(1) as usize)
         {
-            let (l, r) = super::loadings::signed_bar(v, scale, half);
+            let (l, r) = crate::tui::panes::loadings::signed_bar(v, scale, half);
             lines.push(Line::from(vec![
                 Span::raw(format!("f{:<3}{v:>+7.3} ", d + 1)),
                 Span::styled(l, theme.negative()),

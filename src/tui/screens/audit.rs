@@ -2,17 +2,19 @@
 //! largest misses, and vector lengths with the odd ones — three lists, each with its own
 //! highlight; computed the first time the screen is shown. Its keys and its update.
 
+pub mod pane;
+
 use ratatui::crossterm::event::KeyCode;
 use sextant::analysis::coherence::{Categories, Coherence, ItemCoherence};
 use sextant::analysis::diagnostics::{Miss, NormOutlier, NormReport, Side};
 use sextant::index::Metric;
 
-use super::shared::Shared;
 use crate::tui::action::Action;
 use crate::tui::app::App;
 use crate::tui::keymap::{Binding, bind};
 use crate::tui::layout;
 use crate::tui::panes::window_start;
+use crate::tui::state::shared::Shared;
 
 const NONE: ratatui::crossterm::event::KeyModifiers = ratatui::crossterm::event::KeyModifiers::NONE;
 
