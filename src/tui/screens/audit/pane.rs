@@ -18,27 +18,31 @@ use crate::tui::theme::Theme;
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let Some(a) = &app.screens.audit else { return };
     let l = layout::audit(area, a.focus);
+    // When the window is narrow one list shows at a time: say how to reach the others.
+    let hint = if area.width < layout::WIDE_AUDIT {
+        "· Tab: next list "
+    } else {
+        ""
+    };
     if !l.coherence.is_empty() {
-        render_coherence(app, a, frame, l.coherence, theme);
+        render_coherence(app, a, frame, l.coherence, theme, hint);
     }
     if !l.misses.is_empty() {
-        render_misses(app, a, frame, l.misses, theme);
+        render_misses(app, a, frame, l.misses, theme, hint);
     }
     if !l.vectors.is_empty() {
-        render_vectors(app, a, frame, l.vectors, theme);
+        render_vectors(app, a, frame, l.vectors, theme, hint);
     }
 }
 
-/// "  (Tab: next list)" when the other lists are hidden.
-fn hidden_hint(area: Rect) -> &'static str {
-    if area.width >= layout::WIDE_AUDIT {
-        ""
-    } else {
-        "· Tab: next list "
-    }
-}
-
-fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+fn render_coherence(
+    app: &App,
+    a: &AuditView,
+    frame: &mut Frame<'_>,
+    area: Rect,
+    theme: Theme,
+    hint: &str,
+) {
     let focused = a.focus == LEAST;
     let title = match &a.coherence {
         Some(c) => format!(
@@ -46,9 +50,9 @@ fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect,
             c.items.len(),
             if a.sampled { "sampled " } else { "" },
             c.k,
-            hidden_hint(area)
+            hint
         ),
-        None => format!(" Coherence {}", hidden_hint(area)),
+        None => format!(" Coherence {}", hint),
     };
     frame.render_widget(framed(title, focused, theme), area);
     let body = inner(area);
@@ -124,7 +128,14 @@ fn render_coherence(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect,
     frame.render_widget(Paragraph::new(lines), body);
 }
 
-fn render_misses(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+fn render_misses(
+    app: &App,
+    a: &AuditView,
+    frame: &mut Frame<'_>,
+    area: Rect,
+    theme: Theme,
+    hint: &str,
+) {
     let focused = a.focus == MISSES;
     let which = if a.worst_held_out {
         "held-out"
@@ -133,10 +144,7 @@ fn render_misses(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, th
     };
     frame.render_widget(
         framed(
-            format!(
-                " Largest misses · {which} ratings · Enter opens the member {}",
-                hidden_hint(area)
-            ),
+            format!(" Largest misses · {which} ratings {}", hint),
             focused,
             theme,
         ),
@@ -175,11 +183,18 @@ fn render_misses(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, th
     frame.render_widget(Paragraph::new(lines), body);
 }
 
-fn render_vectors(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
+fn render_vectors(
+    app: &App,
+    a: &AuditView,
+    frame: &mut Frame<'_>,
+    area: Rect,
+    theme: Theme,
+    hint: &str,
+) {
     let focused = a.focus == VECTORS;
     frame.render_widget(
         framed(
-            format!(" Vector lengths and support {}", hidden_hint(area)),
+            format!(" Vector lengths and support {}", hint),
             focused,
             theme,
         ),
@@ -187,30 +202,33 @@ fn render_vectors(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, t
     );
     let body = inner(area);
     let width = body.width as usize;
-    let summary = a
-        .norms
-        .iter()
-        .map(|n| {
-            format!(
-                "{}s median {:.3} ({:.3}–{:.3})",
-                n.side.noun(),
-                n.median,
-                n.range.0,
-                n.range.1
-            )
-        })
-        .collect::<Vec<_>>()
-        .join(" · ");
-    let mut lines = vec![
-        Line::raw(fit(
-            &format!(
-                "prior-dominated (fewer ratings than the rank): {} members, {} items",
-                a.thin.0, a.thin.1
-            ),
-            width,
-        )),
-        Line::styled(fit(&summary, width), theme.muted()),
-    ];
+    // One line each, so no number is cut: support, then each side's lengths.
+    let mut lines = vec![Line::raw(fit(
+        &format!(
+            "thin (< rank ratings): {} members, {} items",
+            a.thin.0, a.thin.1
+        ),
+        width,
+    ))];
+    for side in [Side::User, Side::Item] {
+        let text = a.norms.iter().find(|n| n.side == side).map_or_else(
+            || format!("{}s: –", side.noun()),
+            |n| {
+                format!(
+                    "{}s: median {:.3}, {:.3} to {:.3}",
+                    n.side.noun(),
+                    n.median,
+                    n.range.0,
+                    n.range.1
+                )
+            },
+        );
+        lines.push(Line::styled(fit(&text, width), theme.muted()));
+    }
+    lines.push(Line::styled(
+        format!("{:>7} {:>6} {:>7}  odd vector", "norm", "z", "ratings"),
+        theme.muted(),
+    ));
     let height = list_rows(VECTORS, body.height);
     let start = window_start(a.selected[VECTORS], a.outliers.len(), height);
     for (k, o) in a.outliers.iter().enumerate().skip(start).take(height) {
@@ -222,11 +240,11 @@ fn render_vectors(app: &App, a: &AuditView, frame: &mut Frame<'_>, area: Rect, t
             Side::Item => app.title(o.row).to_owned(),
         };
         let text = format!(
-            "norm {:>7.3} · z {:>+6.1} · {:>5} ratings · {}",
+            "{:>7.3} {:>+6.1} {:>7}  {}",
             o.norm,
             o.score,
             o.ratings,
-            fit(&name, width.saturating_sub(44))
+            fit(&name, width.saturating_sub(24))
         );
         lines.push(text_row(text, focused && k == a.selected[VECTORS], theme));
     }
