@@ -52,7 +52,7 @@ fn render_coherence(
             c.k,
             hint
         ),
-        None => format!(" Coherence {}", hint),
+        None => format!(" Coherence {hint}"),
     };
     frame.render_widget(framed(title, focused, theme), area);
     let body = inner(area);
@@ -144,7 +144,7 @@ fn render_misses(
     };
     frame.render_widget(
         framed(
-            format!(" Largest misses · {which} ratings {}", hint),
+            format!(" Largest misses · {which} ratings {hint}"),
             focused,
             theme,
         ),
@@ -194,7 +194,7 @@ fn render_vectors(
     let focused = a.focus == VECTORS;
     frame.render_widget(
         framed(
-            format!(" Vector lengths and support {}", hint),
+            format!(" Vector lengths and support {hint}"),
             focused,
             theme,
         ),
