@@ -242,8 +242,12 @@ fn committed_demo_model_is_reproduced_bit_for_bit() {
     assert_eq!(result.factors.items, committed.factors.items);
     assert_eq!(ratings.entries, committed.ratings.entries);
     // And the whole directory, file by file, through the binary's own writer.
-    let meta = sextant::data::load_items_meta(&repo("demo-data/items.csv"), "item", &ratings.items)
-        .unwrap();
+    let meta = sextant::data::load_items_meta(
+        &repo("demo-data/items.csv"),
+        &sextant::data::meta::MetaColumns::default(),
+        &ratings.items,
+    )
+    .unwrap();
     let provenance = sextant::model::Provenance {
         scale: committed.manifest.scale.clone(),
         inputs: committed.manifest.inputs.clone(),

@@ -283,6 +283,7 @@ mod tests {
 
     fn meta(categories: &[&str]) -> ItemsMeta {
         ItemsMeta {
+            untitled: None,
             attribute_names: Vec::new(),
             rows: categories
                 .iter()

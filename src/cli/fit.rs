@@ -133,7 +133,7 @@ pub fn prepare(
     input: &RatingsArgs,
     scale: Option<RatingScale>,
 ) -> anyhow::Result<Prepared> {
-    let read_options = input.options(scale.clone(), None, false);
+    let read_options = input.options(scale.clone(), None, false)?;
     let (ratings, ratings_input) =
         inputs::load_ratings(ratings_path, &read_options, IdMap::new(), IdMap::new())?;
     let scale =
@@ -141,10 +141,8 @@ pub fn prepare(
     let mut input_prints = vec![ratings_input];
     let meta = match items {
         Some(path) => {
-            let mut reader = inputs::open(path)?;
-            let meta =
-                sextant::data::read_items_meta(&mut reader, path, &input.item_col, &ratings.items)?;
-            input_prints.push(inputs::input("items-meta", path, &reader));
+            let (meta, print) = inputs::read_meta(path, input, &ratings.items)?;
+            input_prints.push(print);
             Some(meta)
         }
         None => None,

@@ -4,7 +4,7 @@ use std::path::PathBuf;
 
 use anyhow::Context;
 use clap::Args;
-use sextant::data::{RatingScale, read_factor_table, read_items_meta};
+use sextant::data::{RatingScale, read_factor_table};
 use sextant::error::DataError;
 use sextant::model::{Center, FactorModel, Model, Provenance};
 
@@ -103,8 +103,9 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         )
         .into());
     }
-    let split = inputs::has_column(&args.ratings, "split")?.then(|| "split".to_owned());
-    let options = args.input.options(scale.clone(), split, true);
+    let split = inputs::has_column(&args.ratings, "split", args.input.delimiter()?)?
+        .then(|| "split".to_owned());
+    let options = args.input.options(scale.clone(), split, true)?;
     let (ratings, ratings_input) = inputs::load_ratings(
         &args.ratings,
         &options,
@@ -116,9 +117,8 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
     let mut prints = vec![ratings_input, users_input, items_input];
     let meta = match &args.items_meta {
         Some(path) => {
-            let mut reader = inputs::open(path)?;
-            let meta = read_items_meta(&mut reader, path, &args.input.item_col, &ratings.items)?;
-            prints.push(inputs::input("items-meta", path, &reader));
+            let (meta, print) = inputs::read_meta(path, &args.input, &ratings.items)?;
+            prints.push(print);
             inputs::note_unknown_items(&meta, "without a vector");
             Some(meta)
         }

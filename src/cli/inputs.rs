@@ -6,8 +6,11 @@ use std::path::Path;
 
 use clap::{Args, ValueEnum};
 use sextant::data::fingerprint::HashingReader;
-use sextant::data::ratings::{RatingColumns, read_ratings_with_ids};
-use sextant::data::{Duplicates, IdMap, RatingScale, Ratings, RatingsOptions};
+use sextant::data::meta::MetaColumns;
+use sextant::data::ratings::{Delimiter, RatingColumns, read_ratings_with_ids};
+use sextant::data::{
+    Duplicates, IdMap, ItemsMeta, RatingScale, Ratings, RatingsOptions, read_items_meta,
+};
 use sextant::error::DataError;
 use sextant::model::manifest::Input;
 
@@ -34,9 +37,13 @@ impl From<DuplicatePolicy> for Duplicates {
     }
 }
 
-/// How to read the ratings CSV.
+/// How to read the input CSVs: the ratings and the items metadata.
 #[derive(Debug, Clone, Args)]
 pub struct RatingsArgs {
+    /// The field separator of the input CSVs: , ; | or tab. Read off each file's header
+    /// line when absent.
+    #[arg(long, value_name = "SEP")]
+    pub delimiter: Option<String>,
     /// Name of the column holding user ids.
     #[arg(long, value_name = "NAME", default_value = "user")]
     pub user_col: String,
@@ -53,6 +60,18 @@ pub struct RatingsArgs {
     /// What to do when a (user, item) pair is rated more than once.
     #[arg(long, value_enum, default_value_t = DuplicatePolicy::Error)]
     pub duplicates: DuplicatePolicy,
+    /// Items metadata: the column holding item ids, when it is not named like the
+    /// ratings' item column (id, item and item_id are also tried).
+    #[arg(long, value_name = "NAME")]
+    pub meta_id_col: Option<String>,
+    /// Items metadata: the column holding titles (else the first of title, name,
+    /// item_name, product_name, display_name, label, headline, in any case).
+    #[arg(long, value_name = "NAME")]
+    pub title_col: Option<String>,
+    /// Items metadata: the column holding categories (else the first of category, genre,
+    /// section, department, group, class, type, in any case).
+    #[arg(long, value_name = "NAME")]
+    pub category_col: Option<String>,
 }
 
 impl RatingsArgs {
@@ -65,25 +84,64 @@ impl RatingsArgs {
             .map_err(|e| UsageError(format!("--scale: {e}")))
     }
 
+    /// The separator given with --delimiter (else read off each file).
+    pub fn delimiter(&self) -> Result<Delimiter, UsageError> {
+        self.delimiter.as_deref().map_or(Ok(Delimiter::Auto), |d| {
+            Delimiter::parse(d).map_err(|e| UsageError(format!("--delimiter: {e}")))
+        })
+    }
+
+    /// Where the items metadata keeps what.
+    pub fn meta_columns(&self) -> Result<MetaColumns, UsageError> {
+        Ok(MetaColumns {
+            id: self.meta_id_col.clone(),
+            ratings_item: self.item_col.clone(),
+            title: self.title_col.clone(),
+            category: self.category_col.clone(),
+            delimiter: self.delimiter()?,
+        })
+    }
+
     /// Reader options for these arguments.
     pub fn options(
         &self,
         scale: Option<RatingScale>,
         split: Option<String>,
         known_ids_only: bool,
-    ) -> RatingsOptions {
-        RatingsOptions {
+    ) -> Result<RatingsOptions, UsageError> {
+        Ok(RatingsOptions {
             columns: RatingColumns {
                 user: self.user_col.clone(),
                 item: self.item_col.clone(),
                 rating: self.rating_col.clone(),
                 split,
             },
+            delimiter: self.delimiter()?,
             scale,
             duplicates: self.duplicates.into(),
             known_ids_only,
-        }
+        })
     }
+}
+
+/// Reads the items metadata at `path` for the items of `ratings` with fingerprint, and
+/// warns once when it has no title column.
+pub fn read_meta(
+    path: &Path,
+    args: &RatingsArgs,
+    items: &IdMap,
+) -> anyhow::Result<(ItemsMeta, Input)> {
+    let mut reader = open(path)?;
+    let meta = read_items_meta(&mut reader, path, &args.meta_columns()?, items)?;
+    std::io::copy(&mut reader, &mut std::io::sink()).map_err(|e| DataError::read(path, e))?;
+    if let Some(columns) = &meta.untitled {
+        eprintln!(
+            "warning: {}: no title column among {}; items will show by id. Name it with --title-col",
+            path.display(),
+            sextant::text::escaped(&columns.join(", "))
+        );
+    }
+    Ok((meta, input("items-meta", path, &reader)))
 }
 
 /// Opens `path` for reading through a fingerprinting reader.
@@ -125,19 +183,10 @@ pub fn load_ratings(
     Ok((ratings, input))
 }
 
-/// True when the CSV at `path` has a header column named `name`.
-pub fn has_column(path: &Path, name: &str) -> Result<bool, DataError> {
-    let mut csv = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .trim(csv::Trim::All)
-        .from_reader(sextant::files::bounded::Bounded::new(open(path)?));
-    let mut record = csv::StringRecord::new();
-    match csv.read_record(&mut record) {
-        Ok(true) => Ok(record
-            .iter()
-            .any(|h| h.trim_start_matches('\u{feff}').eq_ignore_ascii_case(name))),
-        Ok(false) | Err(_) => Ok(false),
-    }
+/// True when the CSV at `path` has a header column named `name` (any case).
+pub fn has_column(path: &Path, name: &str, delimiter: Delimiter) -> Result<bool, DataError> {
+    let header = sextant::data::ratings::read_csv_header(open(path)?, path, delimiter)?;
+    Ok(header.iter().any(|h| h.eq_ignore_ascii_case(name)))
 }
 
 /// Tells the user (stderr) which described items are not in the model.

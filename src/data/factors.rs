@@ -35,7 +35,7 @@ pub fn load_factor_table(path: &Path) -> Result<FactorTable, DataError> {
 /// Reads a factor table: a header (`id,f1,…,fD`; the names are not checked beyond the count),
 /// then rows of one id and D finite numbers. Ids must be unique and non-empty.
 pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, DataError> {
-    let mut csv = csv_reader(reader);
+    let (mut csv, _) = csv_reader(reader, path, super::ratings::Delimiter::Auto)?;
     let header = read_header(&mut csv, path, "id, f1, …, fD")?;
     if header.len() < 2 {
         return Err(DataError::at_line(

@@ -1,5 +1,9 @@
-//! Items metadata: a CSV with an `item` column plus optional `title`, `category` and any
-//! other columns, which are kept as named attributes.
+//! Items metadata: a CSV with an id column plus optional title and category columns and
+//! any other columns, which are kept as named attributes.
+//!
+//! Other people's catalogues name their columns their own way, so the title and category
+//! columns are found among the usual names ([`TITLE_NAMES`], [`CATEGORY_NAMES`], any case)
+//! unless named, and the id column may differ from the ratings' ([`MetaColumns`]).
 
 use std::fs::File;
 use std::io::{Read, Write};
@@ -7,8 +11,8 @@ use std::path::Path;
 
 use super::ids::IdMap;
 use super::ratings::{
-    check_width, csv_error, csv_reader, find_column, id_field, optional_column, read_header,
-    record_line, trimmed,
+    Delimiter, check_width, csv_error, csv_reader, find_column, id_field, read_header, record_line,
+    trimmed,
 };
 use crate::error::DataError;
 
@@ -23,6 +27,58 @@ pub struct ItemMeta {
     pub attributes: Vec<String>,
 }
 
+/// Column names a title column goes by when none is named (compared in any case).
+pub const TITLE_NAMES: [&str; 8] = [
+    "title",
+    "name",
+    "item_title",
+    "item_name",
+    "product_name",
+    "display_name",
+    "label",
+    "headline",
+];
+
+/// Column names a category column goes by when none is named (compared in any case).
+pub const CATEGORY_NAMES: [&str; 7] = [
+    "category",
+    "genre",
+    "section",
+    "department",
+    "group",
+    "class",
+    "type",
+];
+
+/// Which columns of an items metadata file hold what.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct MetaColumns {
+    /// The id column as named (`--meta-id-col`), if it was.
+    pub id: Option<String>,
+    /// The ratings' item column: the metadata's id column when it has one by that name.
+    pub ratings_item: String,
+    /// The title column as named (`--title-col`), if it was.
+    pub title: Option<String>,
+    /// The category column as named (`--category-col`), if it was.
+    pub category: Option<String>,
+    /// The field separator.
+    pub delimiter: Delimiter,
+}
+
+impl Default for MetaColumns {
+    /// The columns sextant itself writes (`item,title,category`), separator read off the
+    /// header.
+    fn default() -> Self {
+        Self {
+            id: None,
+            ratings_item: "item".into(),
+            title: None,
+            category: None,
+            delimiter: Delimiter::Auto,
+        }
+    }
+}
+
 /// Metadata for the items of a model, indexed like the model's items.
 #[derive(Debug, Clone, Default, PartialEq, Eq)]
 pub struct ItemsMeta {
@@ -32,6 +88,9 @@ pub struct ItemsMeta {
     pub rows: Vec<Option<ItemMeta>>,
     /// Ids that had metadata but no ratings (reported, not fatal).
     pub unknown: Vec<String>,
+    /// When no title column was found: the columns the file has, for a warning (not kept
+    /// with the model).
+    pub untitled: Option<Vec<String>>,
 }
 
 impl ItemsMeta {
@@ -47,23 +106,61 @@ impl ItemsMeta {
 }
 
 /// Loads items metadata for the items in `items`.
-pub fn load_items_meta(path: &Path, item_col: &str, items: &IdMap) -> Result<ItemsMeta, DataError> {
+pub fn load_items_meta(
+    path: &Path,
+    columns: &MetaColumns,
+    items: &IdMap,
+) -> Result<ItemsMeta, DataError> {
     let file = File::open(path).map_err(|e| DataError::read(path, e))?;
-    read_items_meta(file, path, item_col, items)
+    read_items_meta(file, path, columns, items)
+}
+
+/// The first column of `header` with one of `names` (any case), other than `skip`.
+fn usual_column(header: &[String], names: &[&str], skip: usize) -> Option<usize> {
+    names.iter().find_map(|name| {
+        (0..header.len()).find(|&c| c != skip && header[c].eq_ignore_ascii_case(name))
+    })
+}
+
+/// The id column: as named, else the ratings' item column, else `id`, `item` or
+/// `item_id`.
+fn id_column(header: &[String], columns: &MetaColumns, path: &Path) -> Result<usize, DataError> {
+    if let Some(name) = &columns.id {
+        return find_column(header, name, "--meta-id-col", path);
+    }
+    let candidates = [columns.ratings_item.as_str(), "id", "item", "item_id"];
+    match candidates
+        .iter()
+        .find_map(|name| header.iter().position(|h| h.eq_ignore_ascii_case(name)))
+    {
+        Some(c) => Ok(c),
+        None => find_column(header, &columns.ratings_item, "--meta-id-col", path),
+    }
 }
 
 /// Reads items metadata from any reader; `path` is used in messages only.
 pub fn read_items_meta(
     reader: impl Read,
     path: &Path,
-    item_col: &str,
+    columns: &MetaColumns,
     items: &IdMap,
 ) -> Result<ItemsMeta, DataError> {
-    let mut csv = csv_reader(reader);
+    let (mut csv, _) = csv_reader(reader, path, columns.delimiter)?;
     let header = read_header(&mut csv, path, "item, title, category, …")?;
-    let id_col = find_column(&header, item_col, "--item-col", path)?;
-    let title_col = optional_column(&header, "title").filter(|&c| c != id_col);
-    let category_col = optional_column(&header, "category").filter(|&c| c != id_col);
+    let id_col = id_column(&header, columns, path)?;
+    let named = |name: &Option<String>, flag: &str| -> Result<Option<usize>, DataError> {
+        name.as_deref()
+            .map(|n| find_column(&header, n, flag, path))
+            .transpose()
+    };
+    let title_col = match named(&columns.title, "--title-col")? {
+        Some(c) => Some(c),
+        None => usual_column(&header, &TITLE_NAMES, id_col),
+    };
+    let category_col = match named(&columns.category, "--category-col")? {
+        Some(c) => Some(c),
+        None => usual_column(&header, &CATEGORY_NAMES, id_col).filter(|&c| Some(c) != title_col),
+    };
     let extra: Vec<usize> = (0..header.len())
         .filter(|&c| c != id_col && Some(c) != title_col && Some(c) != category_col)
         .collect();
@@ -71,6 +168,7 @@ pub fn read_items_meta(
         attribute_names: extra.iter().map(|&c| header[c].clone()).collect(),
         rows: vec![None; items.len()],
         unknown: Vec::new(),
+        untitled: title_col.is_none().then(|| header.clone()),
     };
     let mut seen_lines = vec![0u64; items.len()];
     let mut unknown_seen = std::collections::HashSet::new();
@@ -165,7 +263,13 @@ mod tests {
     #[test]
     fn reads_known_and_reports_unknown() {
         let text = "item,title,category,serves\nr2,Barley Soup,soups,4\nzz,Ghost,cakes,1\n";
-        let meta = read_items_meta(text.as_bytes(), Path::new("m.csv"), "item", &items()).unwrap();
+        let meta = read_items_meta(
+            text.as_bytes(),
+            Path::new("m.csv"),
+            &MetaColumns::default(),
+            &items(),
+        )
+        .unwrap();
         assert_eq!(meta.get(0), None);
         let r2 = meta.get(1).unwrap();
         assert_eq!(r2.title.as_deref(), Some("Barley Soup"));
@@ -182,8 +286,13 @@ mod tests {
     #[test]
     fn duplicate_rows_are_refused() {
         let text = "item,title\nr1,A\nr1,B\n";
-        let err =
-            read_items_meta(text.as_bytes(), Path::new("m.csv"), "item", &items()).unwrap_err();
+        let err = read_items_meta(
+            text.as_bytes(),
+            Path::new("m.csv"),
+            &MetaColumns::default(),
+            &items(),
+        )
+        .unwrap_err();
         assert_eq!(
             err.to_string(),
             "m.csv, line 3: item 'r1' is described twice (first on line 2)"

@@ -40,7 +40,7 @@ pub fn read_profile(
     items: &IdMap,
     scale: &RatingScale,
 ) -> Result<ProfileRatings, DataError> {
-    let mut csv = csv_reader(reader);
+    let (mut csv, _) = csv_reader(reader, path, super::ratings::Delimiter::Auto)?;
     let header = read_header(&mut csv, path, "item, rating")?;
     let expected = "a profile's header row is item,rating";
     let item_col = find_column(&header, "item", expected, path)?;

@@ -2,7 +2,9 @@
 //!
 //! Columns are found by name (`user,item,rating` unless renamed); extra columns are ignored;
 //! a UTF-8 byte-order mark, CRLF line ends and quoted fields are accepted; surrounding
-//! spaces are trimmed. Every problem is reported with the file, the line and the reason.
+//! spaces are trimmed. Fields are separated by commas, semicolons, tabs or pipes: the
+//! separator is read off the header line ([`Delimiter::Auto`]) or given. Every problem is
+//! reported with the file, the line and the reason.
 
 use std::fs::File;
 use std::io::Read;
@@ -98,11 +100,80 @@ impl Default for RatingColumns {
     }
 }
 
+/// The separator between the fields of a CSV file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Delimiter {
+    /// Read off the header line: a comma, unless the header is one field when split at
+    /// commas and splits into more at a semicolon, tab or pipe (the one giving the most
+    /// fields).
+    #[default]
+    Auto,
+    /// This byte.
+    Given(u8),
+}
+
+/// The separators [`Delimiter::Auto`] recognises, with their names for messages.
+pub const DELIMITERS: [(u8, &str); 4] =
+    [(b',', "','"), (b';', "';'"), (b'\t', "tab"), (b'|', "'|'")];
+
+impl Delimiter {
+    /// Parses `,` `;` `|` `tab` (or a literal tab), and the names comma, semicolon, pipe.
+    pub fn parse(text: &str) -> Result<Self, String> {
+        let byte = match text.trim_matches(' ').to_ascii_lowercase().as_str() {
+            "," | "comma" => b',',
+            ";" | "semicolon" => b';',
+            "|" | "pipe" => b'|',
+            "\t" | "tab" | "\\t" => b'\t',
+            _ => {
+                return Err(format!(
+                    "'{text}' is not a separator sextant reads; use one of , ; | tab"
+                ));
+            }
+        };
+        Ok(Self::Given(byte))
+    }
+}
+
+/// How a separator is named in messages.
+pub fn delimiter_name(byte: u8) -> &'static str {
+    DELIMITERS
+        .iter()
+        .find(|(b, _)| *b == byte)
+        .map_or("the given separator", |(_, name)| name)
+}
+
+/// The separator the header line `line` uses (see [`Delimiter::Auto`]).
+pub fn sniff_delimiter(line: &[u8]) -> u8 {
+    let fields = |d: u8| {
+        let mut reader = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .delimiter(d)
+            .from_reader(line);
+        let mut record = csv::ByteRecord::new();
+        match reader.read_byte_record(&mut record) {
+            Ok(true) => record.len(),
+            _ => 0,
+        }
+    };
+    if fields(b',') > 1 {
+        return b',';
+    }
+    DELIMITERS[1..]
+        .iter()
+        .map(|&(d, _)| (fields(d), d))
+        .filter(|&(n, _)| n > 1)
+        .max_by_key(|&(n, d)| (n, std::cmp::Reverse(d)))
+        .map_or(b',', |(_, d)| d)
+}
+
 /// How to read a ratings file.
 #[derive(Debug, Clone, Default)]
 pub struct RatingsOptions {
     /// Column names.
     pub columns: RatingColumns,
+    /// The field separator.
+    pub delimiter: Delimiter,
     /// When given, every rating must lie on this scale.
     pub scale: Option<RatingScale>,
     /// Policy for repeated (user, item) pairs.
@@ -155,14 +226,22 @@ pub fn read_ratings_with_ids(
     users: IdMap,
     items: IdMap,
 ) -> Result<Ratings, DataError> {
-    let mut csv = csv_reader(reader);
+    let (mut csv, _) = csv_reader(reader, path, options.delimiter)?;
     let header = read_header(&mut csv, path, "user, item, rating")?;
     let cols = &options.columns;
-    let user_col = find_column(&header, &cols.user, "--user-col", path)?;
-    let item_col = find_column(&header, &cols.item, "--item-col", path)?;
-    let rating_col = find_column(&header, &cols.rating, "--rating-col", path)?;
+    // In a model directory no flag renames a column: the file itself is wrong.
+    let advice = |flag: &'static str| {
+        if options.known_ids_only {
+            "the model directory's ratings file is damaged; fit the model again"
+        } else {
+            flag
+        }
+    };
+    let user_col = find_column(&header, &cols.user, advice("--user-col"), path)?;
+    let item_col = find_column(&header, &cols.item, advice("--item-col"), path)?;
+    let rating_col = find_column(&header, &cols.rating, advice("--rating-col"), path)?;
     let split_col = match &cols.split {
-        Some(name) => Some(find_column(&header, name, "--split-col", path)?),
+        Some(name) => Some(find_column(&header, name, advice("--split-col"), path)?),
         None => None,
     };
     let mut loader = Loader {
@@ -402,21 +481,66 @@ fn pair_order(raw: &[Rating], users: usize) -> Vec<u32> {
     order
 }
 
-/// A CSV reader configured the way every sextant input is read: lines are bounded and
-/// UTF-16 or UTF-32 files are named ([`crate::files::bounded`]).
-pub(crate) fn csv_reader<R: Read>(reader: R) -> csv::Reader<Bounded<R>> {
+/// A CSV reader as every sextant input is read: lines are bounded and UTF-16 or UTF-32
+/// files are named ([`crate::files::bounded`]), and fields are split at `delimiter`
+/// (read off the header line when [`Delimiter::Auto`]).
+pub(crate) type CsvReader<R> = csv::Reader<std::io::Chain<std::io::Cursor<Vec<u8>>, Bounded<R>>>;
+
+/// Opens `reader` as CSV (see [`CsvReader`]); returns the reader and the separator used.
+pub(crate) fn csv_reader<R: Read>(
+    reader: R,
+    path: &Path,
+    delimiter: Delimiter,
+) -> Result<(CsvReader<R>, u8), DataError> {
+    let mut bounded = Bounded::new(reader);
+    // The first line (and what came with it) is read ahead to choose the separator, then
+    // handed to the CSV reader before the rest.
+    let mut head = Vec::new();
+    let mut chunk = [0u8; 8192];
+    while !head.contains(&b'\n') {
+        let n = bounded
+            .read(&mut chunk)
+            .map_err(|e| match crate::files::bounded::refusal(&e) {
+                Some((Some(line), reason)) => DataError::at_line(path, line, reason),
+                Some((None, reason)) => DataError::in_file(path, reason),
+                None => DataError::read(path, e),
+            })?;
+        if n == 0 {
+            break;
+        }
+        head.extend_from_slice(&chunk[..n]);
+    }
+    let byte = match delimiter {
+        Delimiter::Given(byte) => byte,
+        Delimiter::Auto => {
+            let line = head.split(|&b| b == b'\n').next().unwrap_or_default();
+            sniff_delimiter(line)
+        }
+    };
     // Fields are trimmed where they are read ([`trimmed`]): the csv crate's own trimming
     // builds a new record for every row.
-    csv::ReaderBuilder::new()
+    let csv = csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
+        .delimiter(byte)
         .buffer_capacity(1 << 20)
-        .from_reader(Bounded::new(reader))
+        .from_reader(std::io::Cursor::new(head).chain(bounded));
+    Ok((csv, byte))
 }
 
 /// A field without surrounding ASCII whitespace.
 pub(crate) fn trimmed(raw: &[u8]) -> &[u8] {
     raw.trim_ascii()
+}
+
+/// The column names of the CSV in `reader` (its header row).
+pub fn read_csv_header(
+    reader: impl Read,
+    path: &Path,
+    delimiter: Delimiter,
+) -> Result<Vec<String>, DataError> {
+    let (mut csv, _) = csv_reader(reader, path, delimiter)?;
+    read_header(&mut csv, path, "a header row")
 }
 
 /// Reads the header row; an empty file is an error that says what was expected.
@@ -445,12 +569,36 @@ pub(crate) fn read_header<R: Read>(
 }
 
 /// Finds a column by exact name, or case-insensitively when the exact name is absent.
+/// `option` is the advice for a missing column: a flag (`--user-col`), said as "name the
+/// right column with --user-col", or a sentence of its own.
 pub(crate) fn find_column(
     header: &[String],
     name: &str,
     option: &str,
     path: &Path,
 ) -> Result<usize, DataError> {
+    // A header that is one field holding a separator was split at the wrong one.
+    if let [only] = header
+        && only != name
+        && let Some(&(byte, seen)) = DELIMITERS[1..]
+            .iter()
+            .chain(&DELIMITERS[..1])
+            .find(|&&(d, _)| only.as_bytes().contains(&d))
+    {
+        let value = if byte == b'\t' {
+            "tab".to_owned()
+        } else {
+            char::from(byte).to_string()
+        };
+        return Err(DataError::at_line(
+            path,
+            1,
+            format!(
+                "missing column '{name}': the header reads as one column, '{}', which looks separated by {seen}; pass --delimiter '{value}'",
+                abbreviate_header(header)
+            ),
+        ));
+    }
     let exact: Vec<usize> = (0..header.len()).filter(|&c| header[c] == name).collect();
     let found = if exact.is_empty() {
         (0..header.len())
@@ -503,11 +651,6 @@ fn abbreviate_header(header: &[String]) -> String {
         names.push(format!("… {} more", header.len() - 10));
     }
     names.join(", ")
-}
-
-/// Optional column: `Some(index)` when present exactly once.
-pub(crate) fn optional_column(header: &[String], name: &str) -> Option<usize> {
-    header.iter().position(|h| h.eq_ignore_ascii_case(name))
 }
 
 /// Refuses a row with more fields than the header names columns (usually an unquoted

@@ -197,8 +197,12 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     let meta = match &files.items_meta {
         Some(name) => {
             let path = source.path(name);
-            let meta =
-                read_items_meta(source.read(name)?.as_slice(), &path, "item", &ratings.items)?;
+            let meta = read_items_meta(
+                source.read(name)?.as_slice(),
+                &path,
+                &crate::data::meta::MetaColumns::default(),
+                &ratings.items,
+            )?;
             if let Some(id) = meta.unknown.first() {
                 return Err(DataError::in_file(
                     &path,
