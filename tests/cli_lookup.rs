@@ -189,7 +189,7 @@ fn unknown_ids_suggest_the_closest_and_exit_2() {
     for (args, expected) in [
         (
             vec!["neighbours", &m, "r0001"],
-            "the model has no item 'r0001'; did you mean 'r001'",
+            "the model has no item with id or title 'r0001'; did you mean 'r001'",
         ),
         (
             vec!["neighbours", &m, "--user", "m1"],
@@ -201,7 +201,7 @@ fn unknown_ids_suggest_the_closest_and_exit_2() {
         ),
         (
             vec!["explain", &m, "m0001", "soup"],
-            "the model has no item 'soup'",
+            "the model has no item with id or title 'soup'",
         ),
     ] {
         let out = sextant(&args);
@@ -282,4 +282,95 @@ fn explain_names_labelled_factors_in_every_format() {
     let plain = sextant(&["explain", &m, "m0001", "r001", "--plain"]);
     let text = String::from_utf8_lossy(&plain.stdout);
     assert!(text.contains("\"hearty vs light\""), "{text}");
+}
+
+#[test]
+fn items_are_named_by_title_anywhere_an_id_is_accepted() {
+    let m = demo();
+    // The demo's r001 and its title, from the model itself.
+    let model = sextant::model::load_model(&common::repo("demo-data/model")).unwrap();
+    let j = model.ratings.items.get("r001").unwrap();
+    let title = model
+        .meta
+        .as_ref()
+        .unwrap()
+        .get(j)
+        .unwrap()
+        .title
+        .clone()
+        .unwrap();
+    let by_id = json(&["neighbours", &m, "r001"]);
+    let by_title = json(&["neighbours", &m, &title.to_uppercase()]);
+    assert_eq!(by_id["neighbours"], by_title["neighbours"]);
+    let e = json(&["explain", &m, "m0001", &title]);
+    assert_eq!(
+        e["contributions"],
+        json(&["explain", &m, "m0001", "r001"])["contributions"]
+    );
+    // A near miss of a title suggests the title with its id.
+    let typo: String = title.chars().take(title.chars().count() - 1).collect();
+    let out = sextant(&["neighbours", &m, &typo]);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains(&format!("'r001' ({title})")), "{stderr}");
+    // Notes take titles too, and keep the id.
+    let dir = tempfile::tempdir().unwrap();
+    let copy = dir.path().join("m");
+    common::copy_dir(&common::repo("demo-data/model"), &copy);
+    let c = copy.display().to_string();
+    let out = sextant(&["notes", &c, "--item", &title, "checked"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let notes = sextant::model::notes::read_notes(&copy).unwrap();
+    assert_eq!(notes.item_note("r001"), Some("checked"));
+}
+
+#[test]
+fn a_title_shared_by_several_items_lists_their_ids() {
+    let dir = tempfile::tempdir().unwrap();
+    let catalogue = dir.path().join("catalogue.csv");
+    let rows: Vec<String> = (1..=24)
+        .map(|j| {
+            let title = if j <= 3 {
+                "Same Soup".to_owned()
+            } else {
+                format!("Dish {j}")
+            };
+            format!("R-{j:03},{title}\n")
+        })
+        .collect();
+    let text = format!("id,title\n{}", rows.concat());
+    std::fs::write(&catalogue, text).unwrap();
+    let model = dir.path().join("m");
+    let out = sextant(&[
+        "fit",
+        &common::repo("tests/exports/ratings-pipe.csv")
+            .display()
+            .to_string(),
+        "--items",
+        &catalogue.display().to_string(),
+        "--rank",
+        "2",
+        "--holdout",
+        "0",
+        "--max-iters",
+        "5",
+        "--out",
+        &model.display().to_string(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let out = sextant(&["neighbours", &model.display().to_string(), "same soup"]);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("3 items are titled 'same soup': 'R-001' (Same Soup), 'R-002' (Same Soup), 'R-003' (Same Soup); name one by its id"),
+        "{stderr}"
+    );
 }

@@ -8,7 +8,7 @@ use serde::Serialize;
 use sextant::analysis::explain::{explain, item_support};
 use sextant::model::notes::load_with_notes;
 
-use super::lookup::{csv_number, item_label, resolve};
+use super::lookup::{csv_number, item_label, resolve, resolve_item};
 use super::output::{self, Format};
 
 /// Arguments of `explain` (help text on the subcommand, in `cli/mod.rs`).
@@ -76,7 +76,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
     let (model, notes) = load_with_notes(&args.model)?;
     let labels = &notes.current;
     let user = resolve(&model.ratings.users, &args.user, "member")?;
-    let item = resolve(&model.ratings.items, &args.item, "item")?;
+    let item = resolve_item(&model, &args.item)?;
     let e = explain(&model, user, item, args.evidence, &item_support(&model));
     if args.plain {
         let text = sextant::analysis::plain::plain_explanation(&model, &e, labels);

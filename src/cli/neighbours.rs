@@ -10,7 +10,7 @@ use sextant::index::{Metric, NeighbourIndex, Path};
 use sextant::model::load_model;
 
 use super::UsageError;
-use super::lookup::{csv_number, item_label, item_title, resolve};
+use super::lookup::{csv_number, item_label, item_title, resolve, resolve_item};
 use super::output::{self, Format};
 
 /// How neighbours are ranked.
@@ -112,7 +112,11 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
             return Err(UsageError("name an ITEM, or a member with --user".into()).into());
         }
     };
-    let row = resolve(ids, query, if kind == "item" { "item" } else { "member" })?;
+    let row = if kind == "item" {
+        resolve_item(&model, query)?
+    } else {
+        resolve(ids, query, "member")?
+    };
     let metric: Metric = args.metric.into();
     let d = model.factors.rank;
     let index = NeighbourIndex::build(vectors, d, metric, Path::Auto);

@@ -51,16 +51,16 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
     // save takes the writing one.
     let (model, mut notes) = load_with_notes(&args.model)?;
     let refused = |what: &str, e: NoteError| UsageError(format!("{what}: {e}"));
-    let items = &model.ratings.items;
-    let known = |id: &str| -> Result<(), UsageError> {
-        super::lookup::resolve(items, id, "item").map(|_| ())
+    // Items are named by id or by exact title; notes are kept by id.
+    let known = |typed: &str| -> Result<String, UsageError> {
+        super::lookup::resolve_item(&model, typed).map(|j| model.ratings.items.name(j).to_owned())
     };
     let mut changed = false;
     if let Some(v) = &args.item {
-        known(&v[0])?;
+        let id = known(&v[0])?;
         notes
             .current
-            .set_item_note(&v[0], &v[1])
+            .set_item_note(&id, &v[1])
             .map_err(|e| refused("--item", e))?;
         changed = true;
     }
@@ -83,18 +83,17 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
     }
     for (pair, flag) in [(&args.flag, true), (&args.unflag, false)] {
         if let Some(v) = pair {
-            known(&v[0])?;
-            known(&v[1])?;
-            if v[0] == v[1] {
+            let (a, b) = (known(&v[0])?, known(&v[1])?);
+            if a == b {
                 return Err(UsageError("a pair needs two different items".into()).into());
             }
             if flag {
                 notes
                     .current
-                    .flag_pair(&v[0], &v[1], &args.text)
+                    .flag_pair(&a, &b, &args.text)
                     .map_err(|e| refused("--text", e))?;
             } else {
-                notes.current.unflag_pair(&v[0], &v[1]);
+                notes.current.unflag_pair(&a, &b);
             }
             changed = true;
         }
@@ -161,7 +160,7 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
                 };
                 let _ = writeln!(out, "{:<7} {subject:<24} {}", r.kind, r.note);
             }
-            let orphans = a.orphans(items, model.factors.rank);
+            let orphans = a.orphans(&model.ratings.items, model.factors.rank);
             if !orphans.is_empty() {
                 let _ = writeln!(out, "note: {}", orphans.describe());
             }

@@ -5,6 +5,7 @@ pub mod binary;
 pub mod factors;
 pub mod fingerprint;
 pub mod ids;
+pub mod lookup;
 pub mod meta;
 pub mod parquet;
 pub mod profile;
