@@ -47,6 +47,15 @@ impl Session {
         }
     }
 
+    /// The process id of the pane's own process.
+    fn pane_pid(&self) -> String {
+        let pane = Command::new("tmux")
+            .args(["list-panes", "-t", &self.0, "-F", "#{pane_pid}"])
+            .output()
+            .unwrap();
+        String::from_utf8_lossy(&pane.stdout).trim().to_owned()
+    }
+
     fn screen(&self) -> String {
         let out = Command::new("tmux")
             .args(["capture-pane", "-p", "-t", &self.0])
@@ -130,11 +139,7 @@ fn explore_the_demo_and_leave_the_terminal_as_it_was() {
 
 /// The explorer's process id inside a session (the child of the pane's shell).
 fn explorer_pid(session: &Session) -> String {
-    let pane = Command::new("tmux")
-        .args(["list-panes", "-t", &session.0, "-F", "#{pane_pid}"])
-        .output()
-        .unwrap();
-    let shell = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+    let shell = session.pane_pid();
     let child = Command::new("pgrep")
         .args(["-P", &shell, "-x", "sextant"])
         .output()
@@ -211,11 +216,7 @@ fn losing_the_terminal_ends_the_explorer_within_two_seconds() {
     // terminal hangs up.
     let session = Session::start("sextant-lost", &format!("'{binary}'"));
     session.wait_for("Catalogue · 400 items");
-    let pane = Command::new("tmux")
-        .args(["list-panes", "-t", &session.0, "-F", "#{pane_pid}"])
-        .output()
-        .unwrap();
-    let pid = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+    let pid = session.pane_pid();
     assert!(is_running(&pid), "the explorer runs as the pane's process");
     // Open the help and start typing a member id: the loss must end any mode.
     session.keys(&["?", "Escape", "u", "m"]);
@@ -241,11 +242,7 @@ fn an_idle_explorer_sleeps() {
     let binary = env!("CARGO_BIN_EXE_sextant");
     let session = Session::start("sextant-idle", &format!("'{binary}'"));
     session.wait_for("Catalogue · 400 items");
-    let pane = Command::new("tmux")
-        .args(["list-panes", "-t", &session.0, "-F", "#{pane_pid}"])
-        .output()
-        .unwrap();
-    let pid = String::from_utf8_lossy(&pane.stdout).trim().to_owned();
+    let pid = session.pane_pid();
     sleep(Duration::from_millis(500));
     let before = cpu_ticks(&pid);
     sleep(Duration::from_secs(3));

@@ -75,7 +75,8 @@ impl AuditView {
         use sextant::analysis::diagnostics::{low_support, norm_report, worst_fits};
         let model = &shared.model;
         let f = &model.factors;
-        let categories = Categories::from_meta(model.meta.as_ref(), f.item_count());
+        // The same categories the loadings pane counts, computed once.
+        let categories = shared.category_sizes().0.clone();
         let coherence = coherence_sample(f, &categories, 10, Metric::Cosine, AUDIT_SAMPLE);
         let sampled = coherence
             .as_ref()

@@ -302,13 +302,11 @@ impl App {
             Action::RemoveRating => self.remove_rating(),
             Action::Click(column, row) => self.click_member(column, row),
             _ => {
-                if let Some(m) = &mut self.screens.member {
-                    let l = layout::member(layout::body_of(self.size.0, self.size.1), {
-                        m.explained_list == MemberPane::Suggestions
-                    });
-                    if let Some(open) = navigate(m, action, &l, &self.shared) {
-                        self.open_item(open);
-                    }
+                let l = self.member_layout();
+                if let Some(m) = &mut self.screens.member
+                    && let Some(open) = navigate(m, action, &l, &self.shared)
+                {
+                    self.open_item(open);
                 }
             }
         }

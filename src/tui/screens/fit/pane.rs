@@ -25,6 +25,39 @@ fn bounds(values: impl Iterator<Item = f64>) -> [f64; 2] {
     }
 }
 
+/// A line of Braille points.
+fn line(points: &[(f64, f64)], style: Style) -> Dataset<'_> {
+    Dataset::default()
+        .marker(Marker::Braille)
+        .graph_type(GraphType::Line)
+        .style(style)
+        .data(points)
+}
+
+/// A chart over iterations 1 to `count`, with `y_labels` at the ends of `y`.
+fn per_iteration<'a>(
+    sets: Vec<Dataset<'a>>,
+    title: &str,
+    count: usize,
+    y: [f64; 2],
+    y_labels: [String; 2],
+    theme: Theme,
+) -> Chart<'a> {
+    let [low, high] = y_labels;
+    Chart::new(sets)
+        .block(framed(title.to_owned(), false, theme))
+        .x_axis(
+            Axis::default()
+                .bounds([1.0, count.max(2) as f64])
+                .labels(vec![Line::raw("1"), Line::raw(count.to_string())]),
+        )
+        .y_axis(
+            Axis::default()
+                .bounds(y)
+                .labels(vec![Line::raw(low), Line::raw(high)]),
+        )
+}
+
 /// Draws the fit screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let m = &app.shared.model.manifest;
@@ -37,7 +70,6 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         Layout::horizontal([Constraint::Min(51), Constraint::Percentage(50)]).areas(bottom);
 
     let trace = &m.trace;
-    let iters = [1.0, trace.len().max(2) as f64];
     if trace.is_empty() {
         let note = "imported model: no fitting trace";
         frame.render_widget(
@@ -58,27 +90,14 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             .map(|r| (r.iter as f64, (last - r.log_joint).abs().log10()))
             .collect();
         let yb = bounds(gaps.iter().map(|p| p.1));
-        let chart = Chart::new(vec![
-            Dataset::default()
-                .marker(Marker::Braille)
-                .graph_type(GraphType::Line)
-                .style(theme.positive())
-                .data(&gaps),
-        ])
-        .block(framed(
-            " Log joint: gap to the final (log) ".to_owned(),
-            false,
+        let chart = per_iteration(
+            vec![line(&gaps, theme.positive())],
+            " Log joint: gap to the final (log) ",
+            trace.len(),
+            yb,
+            [format!("1e{:.0}", yb[0]), format!("1e{:.0}", yb[1])],
             theme,
-        ))
-        .x_axis(
-            Axis::default()
-                .bounds(iters)
-                .labels(vec![Line::raw("1"), Line::raw(trace.len().to_string())]),
-        )
-        .y_axis(Axis::default().bounds(yb).labels(vec![
-            Line::raw(format!("1e{:.0}", yb[0])),
-            Line::raw(format!("1e{:.0}", yb[1])),
-        ]));
+        );
         frame.render_widget(chart, l_area);
         let train: Vec<(f64, f64)> = trace
             .iter()
@@ -95,39 +114,18 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             points.iter().map(|&(x, y)| (x, y.min(yb[1]))).collect()
         };
         let (train, held) = (clipped(&train), clipped(&held));
-        let mut sets = vec![
-            Dataset::default()
-                .name("train")
-                .marker(Marker::Braille)
-                .graph_type(GraphType::Line)
-                .style(theme.positive())
-                .data(&train),
-        ];
+        let mut sets = vec![line(&train, theme.positive()).name("train")];
         if !held.is_empty() {
-            sets.push(
-                Dataset::default()
-                    .name("held out")
-                    .marker(Marker::Braille)
-                    .graph_type(GraphType::Line)
-                    .style(theme.negative())
-                    .data(&held),
-            );
+            sets.push(line(&held, theme.negative()).name("held out"));
         }
-        let chart = Chart::new(sets)
-            .block(framed(
-                " RMSE per iteration (from the 2nd) ".into(),
-                false,
-                theme,
-            ))
-            .x_axis(
-                Axis::default()
-                    .bounds(iters)
-                    .labels(vec![Line::raw("1"), Line::raw(trace.len().to_string())]),
-            )
-            .y_axis(Axis::default().bounds(yb).labels(vec![
-                Line::raw(format!("{:.3}", yb[0])),
-                Line::raw(format!("{:.3}", yb[1])),
-            ]));
+        let chart = per_iteration(
+            sets,
+            " RMSE per iteration (from the 2nd) ",
+            trace.len(),
+            yb,
+            [format!("{:.3}", yb[0]), format!("{:.3}", yb[1])],
+            theme,
+        );
         frame.render_widget(chart, rmse_area);
     }
 
