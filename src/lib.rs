@@ -15,6 +15,7 @@ pub mod data;
 pub mod error;
 pub mod files;
 pub mod index;
+pub mod limits;
 pub mod model;
 pub mod report;
 pub mod rng;

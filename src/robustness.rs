@@ -47,7 +47,7 @@ pub fn factor_table(data: &[u8]) {
 pub fn manifest(data: &[u8]) {
     match parse_manifest(data, Path::new("manifest.ron")) {
         Ok(m) => {
-            assert!((1..=4096).contains(&m.rank));
+            assert!((1..=crate::limits::MAX_RANK).contains(&m.rank));
             assert!(m.lambda >= 0.0 && m.sigma2 > 0.0 && m.mu.is_finite());
         }
         Err(e) => assert!(e.to_string().starts_with("manifest.ron")),

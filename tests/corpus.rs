@@ -87,6 +87,7 @@ const CASES: &[Case] = &[
     ("factors-id-10000-chars.csv", Feed::ItemTable, 2, Some(3), "is 10000 bytes long; ids may have at most 1024"),
     ("factors-infinite-value.csv", Feed::InitItems, 2, Some(3), "factor f1 of 'r2' is 'inf', not a finite number"),
     ("factors-no-factor-columns.csv", Feed::ItemTable, 2, Some(1), "a factor table needs an id column and at least one factor column"),
+    ("factors-rank-1025.csv", Feed::ItemTable, 2, Some(1), "the table has 1025 factor columns, and a rank must be between 1 and 1024, not 1025"),
     ("factors-row-too-long.csv", Feed::ItemTable, 2, Some(3), "expected 2 fields (an id and 1 factors), found 3"),
     ("factors-row-too-short.csv", Feed::ItemTable, 2, Some(3), "expected 3 fields (an id and 2 factors), found 2"),
     // manifest.ron of a model directory.
@@ -98,9 +99,9 @@ const CASES: &[Case] = &[
     ("manifest-negative-lambda.ron", Feed::Manifest, 2, None, "lambda must be ≥ 0 and sigma2 > 0"),
     ("manifest-not-ron.ron", Feed::Manifest, 2, Some(1), "not a valid manifest"),
     ("manifest-path-outside.ron", Feed::Manifest, 2, None, "file name '../tiny-model/users.csv' would leave the model directory"),
-    ("manifest-rank-1e9.ron", Feed::Manifest, 2, None, "rank 1000000000 is outside 1 to 4096"),
+    ("manifest-rank-1e9.ron", Feed::Manifest, 2, None, "the rank must be between 1 and 1024, not 1000000000"),
     ("manifest-rank-width-mismatch.ron", Feed::Manifest, 2, Some(1), "the table has 1 factor columns but the manifest says rank 2"),
-    ("manifest-rank-zero.ron", Feed::Manifest, 2, None, "rank 0 is outside 1 to 4096"),
+    ("manifest-rank-zero.ron", Feed::Manifest, 2, None, "the rank must be between 1 and 1024, not 0"),
     ("manifest-truncated.ron", Feed::Manifest, 2, Some(36), "not a valid manifest"),
     ("manifest-unknown-field.ron", Feed::Manifest, 0, None, ""),
     ("manifest-wrong-format-tag.ron", Feed::Manifest, 2, None, "format 'some-other-tool' is not 'sextant-model'"),
@@ -152,7 +153,17 @@ fn run(case: &Case, work: &Path) -> (Option<i32>, String, String) {
             (a, name.to_owned())
         }
         Feed::Meta => (
-            vec!["fit", small, "--items", f, "--out", o, "--rank", "1", "-q"],
+            vec![
+                "fit",
+                small,
+                "--catalogue",
+                f,
+                "--out",
+                o,
+                "--rank",
+                "1",
+                "-q",
+            ],
             name.to_owned(),
         ),
         Feed::InitItems => (
@@ -177,9 +188,9 @@ fn run(case: &Case, work: &Path) -> (Option<i32>, String, String) {
                     "import",
                     "--ratings",
                     small,
-                    "--users",
+                    "--user-vectors",
                     users,
-                    "--items",
+                    "--item-vectors",
                     f,
                     "--center",
                     "none",

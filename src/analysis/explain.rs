@@ -21,6 +21,17 @@ pub fn training_ratings(model: &Model, user: u32) -> Vec<(u32, f64)> {
         .collect()
 }
 
+/// How many of the member's ratings are held out of the fit.
+pub fn held_out_count(model: &Model, user: u32) -> usize {
+    let entries = &model.ratings.entries;
+    let start = entries.partition_point(|r| r.user < user);
+    entries[start..]
+        .iter()
+        .take_while(|r| r.user == user)
+        .filter(|r| r.holdout)
+        .count()
+}
+
 /// The member's rating of an item, if any (training or held out).
 pub fn actual_rating(model: &Model, user: u32, item: u32) -> Option<f64> {
     let entries = &model.ratings.entries;
@@ -121,6 +132,8 @@ pub struct Evidence {
 pub struct Support {
     /// The member's training ratings.
     pub user_ratings: usize,
+    /// The member's ratings held out of the fit to measure its accuracy (0 for a profile).
+    pub user_held_out: usize,
     /// The item's training ratings.
     pub item_ratings: usize,
     /// Fewer member ratings than the rank: the vector is dominated by the prior.
@@ -175,6 +188,7 @@ pub fn explain(
     let mut e = explain_profile(model, &profile, item, evidence, item_counts);
     e.user = Some(user);
     e.actual = actual_rating(model, user, item);
+    e.support.user_held_out = held_out_count(model, user);
     e
 }
 
@@ -242,6 +256,7 @@ pub fn explain_profile(
         evidence: nearest,
         support: Support {
             user_ratings: rated.len(),
+            user_held_out: 0,
             item_ratings,
             user_low_support: rated.len() < rank,
             item_low_support: item_ratings < rank,

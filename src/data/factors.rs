@@ -45,6 +45,13 @@ pub fn read_factor_table(reader: impl Read, path: &Path) -> Result<FactorTable, 
         ));
     }
     let rank = header.len() - 1;
+    if let Err(why) = crate::limits::check_rank(rank) {
+        return Err(DataError::at_line(
+            path,
+            1,
+            format!("the table has {rank} factor columns, and a rank {why}"),
+        ));
+    }
     let mut table = FactorTable {
         ids: IdMap::new(),
         rank,

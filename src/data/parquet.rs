@@ -160,6 +160,12 @@ pub fn read_factor_parquet(
                 if table.rank == 0 {
                     return Err(at("the vector is empty".into()));
                 }
+                if let Err(why) = crate::limits::check_rank(table.rank) {
+                    return Err(at(format!(
+                        "the vector has {} factors, and a rank {why}",
+                        table.rank
+                    )));
+                }
             } else if vector.len() != table.rank {
                 return Err(at(format!(
                     "'{id}' has {} factors, the rows before it {}",

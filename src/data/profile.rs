@@ -94,6 +94,24 @@ pub fn read_profile(
             "has a header but no ratings; a profile needs at least one 'item,rating' row",
         ));
     }
+    if out.ratings.is_empty() {
+        let named: Vec<String> = out
+            .unknown
+            .iter()
+            .take(3)
+            .map(|(id, line)| format!("'{id}' (line {line})"))
+            .collect();
+        return Err(DataError::in_file(
+            path,
+            format!(
+                "none of its {} rated item(s) is in the model ({}{}); a profile needs at \
+                 least one item the model knows, named by its id as in the model's ratings",
+                out.unknown.len(),
+                named.join(", "),
+                if out.unknown.len() > 3 { ", …" } else { "" }
+            ),
+        ));
+    }
     out.ratings.sort_by_key(|&(j, _)| j);
     Ok(out)
 }

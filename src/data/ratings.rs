@@ -737,12 +737,7 @@ pub(crate) fn field<'r>(
     Ok(text)
 }
 
-/// Longest id accepted, in bytes: longer ones are almost always a broken export (a whole
-/// row or file in one field), and refusing them keeps messages and memory sane.
-pub const MAX_ID_BYTES: usize = 1024;
-
-/// Largest rating or factor magnitude accepted: beyond it sums of squares overflow.
-pub const MAX_MAGNITUDE: f64 = 1e12;
+pub use crate::limits::{MAX_ID_BYTES, MAX_MAGNITUDE};
 
 /// An id field: like [`field`], and at most [`MAX_ID_BYTES`] long.
 pub(crate) fn id_field<'r>(

@@ -4,6 +4,9 @@
 use super::ratings::Ratings;
 use crate::rng::Rng;
 
+/// The share of each user's ratings held out when no other is asked for.
+pub const DEFAULT_HOLDOUT: f64 = 0.1;
+
 /// Salt mixed into the seed so the split stream differs from the initialisation stream.
 const SPLIT_SALT: u64 = 0x5EED_5EED_0000_0001;
 

@@ -10,10 +10,7 @@
 
 use std::io::{self, Read};
 
-/// Longest line read from any line-oriented input, in bytes (1 MiB). The widest legitimate
-/// line is a factor-table row at the largest rank (4,096 numbers of up to 25 characters,
-/// about 100 kB) or an id of [`crate::data::ratings::MAX_ID_BYTES`].
-pub const MAX_LINE_BYTES: usize = 1 << 20;
+pub use crate::limits::MAX_LINE_BYTES;
 
 /// A line longer than [`MAX_LINE_BYTES`] (carried inside an [`io::Error`]).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, thiserror::Error)]

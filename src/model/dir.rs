@@ -36,8 +36,7 @@ pub const MANIFEST: &str = "manifest.ron";
 pub const ANNOTATIONS: &str = "annotations.ron";
 /// Name of the items metadata file.
 pub const ITEMS_META: &str = "items-meta.csv";
-/// Largest manifest read (checked before reading it).
-pub const MAX_MANIFEST_BYTES: u64 = 64 << 20;
+pub use crate::limits::MAX_MANIFEST_BYTES;
 
 /// Every file a model directory may contain.
 pub const MODEL_FILES: [&str; 9] = [
@@ -112,9 +111,13 @@ impl ModelDir {
     fn open(path: &Path, kind: LockKind) -> Result<Self, DataError> {
         match fs::metadata(path) {
             Ok(meta) if meta.is_dir() => {}
-            Ok(_) => return Err(not_a_model(path, "is not a directory")),
+            Ok(_) => return Err(not_a_model(path, "is a file, not a model directory")),
             Err(e) if e.kind() == io::ErrorKind::NotFound => {
-                return Err(not_a_model(path, "does not exist"));
+                return Err(DataError::in_file(
+                    path,
+                    "does not exist; name a model directory made by `sextant fit` or \
+                     `sextant import`",
+                ));
             }
             Err(e) => return Err(DataError::read(path, e)),
         }
@@ -233,10 +236,71 @@ fn remove_model_leftovers(dir: &Path) {
 }
 
 fn not_a_model(path: &Path, reason: &str) -> DataError {
-    DataError::in_file(
-        path,
-        format!("{reason}; expected a model directory made by `sextant fit` or `sextant import`"),
-    )
+    DataError::in_file(path, format!("{reason}; {}", model_hint(path)))
+}
+
+/// What to do instead, from a look at what `path` holds: a model one level down is named;
+/// a data folder or a CSV gets the `sextant fit` command that makes a model of it.
+fn model_hint(path: &Path) -> String {
+    /// Entries looked at: enough for any data folder, bounded for a huge one.
+    const LOOK_AT: usize = 10_000;
+    let shown = |p: &Path| crate::text::escaped(&p.display().to_string()).into_owned();
+    let fit = |ratings: &str, items: Option<&str>| {
+        let items = items.map_or_else(String::new, |i| format!(" --catalogue {i}"));
+        format!("to make one: sextant fit {ratings}{items} --out MODEL")
+    };
+    let generic = format!(
+        "{} (or sextant import … for vectors fitted elsewhere)",
+        fit("RATINGS.csv", None)
+    );
+    let Ok(meta) = fs::metadata(path) else {
+        return generic;
+    };
+    if meta.is_file() {
+        return fit(&shown(path), None);
+    }
+    let Ok(entries) = fs::read_dir(path) else {
+        return generic;
+    };
+    let mut csvs: Vec<String> = Vec::new();
+    let mut models: Vec<PathBuf> = Vec::new();
+    for entry in entries.take(LOOK_AT).flatten() {
+        let child = entry.path();
+        let Ok(kind) = entry.file_type() else {
+            continue;
+        };
+        if kind.is_dir() && fs::symlink_metadata(child.join(MANIFEST)).is_ok_and(|m| m.is_file()) {
+            models.push(child);
+            continue;
+        }
+        let is_csv = Path::new(&entry.file_name())
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("csv"));
+        if kind.is_file() && is_csv {
+            csvs.push(entry.file_name().to_string_lossy().into_owned());
+        }
+    }
+    csvs.sort();
+    let find = |words: &[&str]| {
+        csvs.iter()
+            .find(|n| words.iter().any(|w| n.to_lowercase().contains(w)))
+            .map(|n| shown(&path.join(n)))
+    };
+    let ratings = find(&["rating", "score", "review"]);
+    let items = find(&["item", "catalog", "meta", "title"]);
+    let make = match (ratings, items) {
+        (Some(r), items) => fit(&r, items.as_deref()),
+        (None, _) if csvs.len() == 1 => fit(&shown(&path.join(&csvs[0])), None),
+        _ => generic,
+    };
+    models.sort();
+    match models.first() {
+        Some(model) => format!(
+            "it holds a model at {}: name that instead, or {make}",
+            shown(model)
+        ),
+        None => make,
+    }
 }
 
 #[cfg(target_os = "linux")]
@@ -273,7 +337,10 @@ impl ModelSource for ModelDir {
     fn read(&self, name: &str) -> Result<Vec<u8>, DataError> {
         self.read_file(name, u64::MAX)?.ok_or_else(|| {
             if name == MANIFEST {
-                not_a_model(self.path(), "holds no manifest.ron")
+                not_a_model(
+                    self.path(),
+                    "holds no manifest.ron, so it is not a model directory",
+                )
             } else {
                 DataError::in_file(
                     &self.path().join(name),

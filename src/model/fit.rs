@@ -87,17 +87,11 @@ impl FitOptions {
     /// Checks that the options can work at all.
     pub fn validate(&self) -> Result<(), FitError> {
         let bad = |m: String| Err(FitError::Option(m));
-        if self.rank == 0 {
-            return bad("--rank must be at least 1".into());
+        if let Err(why) = crate::limits::check_rank(self.rank) {
+            return bad(format!("--rank {why}"));
         }
         if self.center == Center::Given {
             return bad("a fit computes μ itself: --center is global or none".into());
-        }
-        if self.rank > 1024 {
-            return bad(format!(
-                "--rank {} is larger than the supported 1024",
-                self.rank
-            ));
         }
         if !(self.lambda.is_finite() && self.lambda >= 0.0) {
             return bad(format!(

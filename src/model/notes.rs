@@ -29,10 +29,7 @@ use crate::error::DataError;
 pub const NOTES_TAG: &str = "sextant-notes";
 /// Version of the notes file this build writes and reads.
 pub const NOTES_VERSION: u32 = 1;
-/// Longest note or label accepted, in characters.
-pub const MAX_NOTE_CHARS: usize = 4000;
-/// Largest notes file read (checked before reading it).
-pub const MAX_NOTES_BYTES: u64 = 64 << 20;
+pub use crate::limits::{MAX_NOTE_CHARS, MAX_NOTES_BYTES};
 /// Separator placed between two versions of a note edited in two places at once.
 pub const JOIN: &str = " ‖ ";
 

@@ -328,8 +328,8 @@ pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> 
             manifest.version
         ));
     }
-    if manifest.rank == 0 || manifest.rank > 4096 {
-        return bad(format!("rank {} is outside 1 to 4096", manifest.rank));
+    if let Err(why) = crate::limits::check_rank(manifest.rank) {
+        return bad(format!("the rank {why}"));
     }
     let finite = [
         ("lambda", manifest.lambda),
