@@ -48,7 +48,10 @@ fn neighbours_formats_agree() {
         let list = j["neighbours"].as_array().unwrap();
         assert_eq!(list.len(), 7);
         let csv = csv_rows(&["neighbours", &m, "r001", "-k", "7", "--metric", metric]);
-        assert_eq!(csv[0], ["rank", "id", "distance", "cosine"]);
+        assert_eq!(
+            csv[0],
+            ["rank", "id", "distance", "cosine", "title", "category"]
+        );
         for (row, entry) in csv[1..].iter().zip(list) {
             assert_eq!(
                 row[0].parse::<u64>().unwrap(),
@@ -142,7 +145,19 @@ fn explain_formats_agree_and_add_up() {
             .sum::<f64>();
     assert!((sum - j["predicted"].as_f64().unwrap()).abs() < 1e-12);
     let csv = csv_rows(&["explain", &m, "m0001", "r001"]);
-    assert_eq!(csv[0], ["factor", "value", "label"]);
+    assert_eq!(
+        csv[0],
+        [
+            "factor",
+            "value",
+            "label",
+            "mu",
+            "predicted",
+            "rounded",
+            "predictive_sd",
+            "actual"
+        ]
+    );
     // Unlabelled factors: null in JSON, empty in CSV.
     assert!(contributions.iter().all(|c| c["label"].is_null()));
     for (row, c) in csv[1..].iter().zip(contributions) {
@@ -220,7 +235,10 @@ fn neighbours_of_every_item_equal_the_single_lists() {
         assert!(all.status.success());
         let text = String::from_utf8(all.stdout).unwrap();
         let mut lines = text.lines();
-        assert_eq!(lines.next(), Some("query,rank,id,distance,cosine"));
+        assert_eq!(
+            lines.next(),
+            Some("query,rank,id,distance,cosine,title,category")
+        );
         let rows: Vec<&str> = lines.collect();
         assert_eq!(rows.len(), 400 * 5);
         for item in ["r001", "r250", "r400"] {
@@ -350,7 +368,7 @@ fn a_title_shared_by_several_items_lists_their_ids() {
         &common::repo("tests/exports/ratings-pipe.csv")
             .display()
             .to_string(),
-        "--items",
+        "--catalogue",
         &catalogue.display().to_string(),
         "--rank",
         "2",

@@ -21,7 +21,7 @@ fn fit_args(out: &Path, seed: u64) -> Vec<String> {
     [
         "fit",
         repo("demo-data/ratings.csv").to_str().unwrap(),
-        "--items",
+        "--catalogue",
         repo("demo-data/items.csv").to_str().unwrap(),
         "--out",
         out.to_str().unwrap(),

@@ -22,7 +22,7 @@ fn fit(dir: &Path, ratings: &str, items: &str, extra: &[&str]) -> (i32, String, 
     let mut args = vec![
         "fit",
         &ratings,
-        "--items",
+        "--catalogue",
         &items,
         "--rank",
         "2",

@@ -102,13 +102,23 @@ fn tune_refuses_what_cannot_be_compared() {
     let r = ratings.to_str().unwrap();
     for (args, reason) in [
         (vec!["--holdout", "0"], "--holdout must be above 0"),
-        (vec!["--ranks", "0"], "--rank must be at least 1"),
-        (vec!["--lambdas=-1"], "--lambda must be a finite number"),
+        (
+            vec!["--ranks", "0"],
+            "--ranks: every rank must be between 1 and 1024, not 0",
+        ),
+        (
+            vec!["--lambdas=-1"],
+            "--lambdas: every λ must be a finite number ≥ 0, not -1",
+        ),
     ] {
         let mut all = vec!["tune", r];
         all.extend(args);
         let out = sextant(&all);
         assert_eq!(out.status.code(), Some(2));
-        assert!(String::from_utf8_lossy(&out.stderr).contains(reason));
+        assert!(
+            String::from_utf8_lossy(&out.stderr).contains(reason),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
     }
 }

@@ -12,7 +12,7 @@ use sextant::files::output::write_file;
 use sextant::model::notes::load_with_notes;
 use sextant::report;
 
-use super::neighbours::MetricArg;
+use super::args::{MetricArgs, ModelArg, warn_if_spelled};
 use super::output;
 
 /// Audit a model: how coherent item neighbourhoods are, where the fit misses, which members
@@ -22,9 +22,8 @@ use super::output;
 /// Without --report or --csv the Markdown report goes to stdout.
 #[derive(Debug, Args)]
 pub struct AuditArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// Write the Markdown report to this file (- for stdout; a device or pipe is written
     /// in place, an existing file replaced whole).
     #[arg(long, value_name = "FILE")]
@@ -34,20 +33,25 @@ pub struct AuditArgs {
     #[arg(long, value_name = "DIR")]
     csv: Option<PathBuf>,
     /// Neighbours per item for the coherence check.
-    #[arg(long, default_value_t = 10, value_name = "K")]
+    #[arg(long, default_value_t = AuditOptions::default().neighbours, value_name = "K")]
     neighbours: usize,
-    /// Metric for the coherence neighbours.
-    #[arg(long, value_enum, default_value_t = MetricArg::Cosine)]
-    metric: MetricArg,
+    #[command(flatten)]
+    metric: MetricArgs,
     /// Length of each "worst" list.
-    #[arg(long, default_value_t = 20, value_name = "N")]
+    #[arg(long, default_value_t = AuditOptions::default().top, value_name = "N")]
     top: usize,
     /// Items listed at each end of a factor.
-    #[arg(long, default_value_t = 8, value_name = "N")]
+    #[arg(long, default_value_t = AuditOptions::default().ends, value_name = "N")]
     ends: usize,
-    /// Cut-off k of precision@k, recall@k and NDCG@k.
-    #[arg(short, long, default_value_t = 10)]
-    k: usize,
+    /// Cut-off K of precision@K, recall@K and NDCG@K.
+    #[arg(
+        long,
+        value_name = "K",
+        default_value_t = AuditOptions::default().k,
+        short_alias = 'k',
+        alias = "k"
+    )]
+    at: usize,
     /// Examine at most N items for coherence, an even sample through the catalogue
     /// (default: every item; each needs a neighbour search, so a million-item catalogue
     /// takes a while).
@@ -60,27 +64,29 @@ pub struct AuditArgs {
 }
 
 pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
-    if args.neighbours == 0 || args.k == 0 || args.sample == Some(0) {
+    warn_if_spelled(&["-k", "--k"], "--at");
+    let at = args.at;
+    if args.neighbours == 0 || at == 0 || args.sample == Some(0) {
         return Err(
-            super::UsageError("--neighbours, -k and --sample must be at least 1".into()).into(),
+            super::UsageError("--neighbours, --at and --sample must be at least 1".into()).into(),
         );
     }
     if args.relevant.is_some_and(|r| !r.is_finite()) {
         return Err(super::UsageError("--relevant must be a finite number".into()).into());
     }
-    let (model, notes) = load_with_notes(&args.model)?;
+    let (model, notes) = load_with_notes(&args.model.model)?;
     let notes = notes.current;
     let options = AuditOptions {
         neighbours: args.neighbours,
-        metric: args.metric.into(),
+        metric: args.metric.or_audit_default(),
         top: args.top,
         ends: args.ends,
-        k: args.k,
+        k: at,
         threshold: args.relevant,
         sample: args.sample.unwrap_or(usize::MAX),
     };
     let found = audit(&model, options);
-    let name = args.model.display().to_string();
+    let name = args.model.model.display().to_string();
     let text = report::markdown(&model, &name, &found, &notes);
     if let Some(dir) = &args.csv {
         let files = report::csv_files(&model, &found, &notes);

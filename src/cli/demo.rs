@@ -50,7 +50,7 @@ pub fn run() -> anyhow::Result<()> {
     )?;
     text.push_str(
         "\nThis is the bundled demo model; run sextant in a terminal to explore it. Try also: \
-         sextant fit demo-data/ratings.csv --items demo-data/items.csv --out my-model\n",
+         sextant fit demo-data/ratings.csv --catalogue demo-data/items.csv --out my-model\n",
     );
     output::print(&text, Format::Table)
 }

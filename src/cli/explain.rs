@@ -1,22 +1,21 @@
 //! `sextant explain`: why the model predicts what it does for one member and one item.
 
 use std::fmt::Write as _;
-use std::path::PathBuf;
 
 use clap::Args;
 use serde::Serialize;
 use sextant::analysis::explain::{explain, item_support};
 use sextant::model::notes::load_with_notes;
 
-use super::lookup::{csv_number, item_label, resolve, resolve_item};
+use super::args::{ModelArg, OutputArgs};
+use super::lookup::{csv_number, item_label, item_title, resolve, resolve_item};
 use super::output::{self, Format};
 
 /// Arguments of `explain` (help text on the subcommand, in `cli/mod.rs`).
 #[derive(Debug, Args)]
 pub struct ExplainArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// The member.
     #[arg(value_name = "USER")]
     user: String,
@@ -26,9 +25,8 @@ pub struct ExplainArgs {
     /// How many of the member's rated items to show as evidence.
     #[arg(long, default_value_t = 5)]
     evidence: usize,
-    /// Output format (CSV lists the per-factor contributions).
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    output: OutputArgs,
     /// A few plain sentences for the member, built only from their own ratings.
     #[arg(long, conflicts_with = "format")]
     plain: bool,
@@ -45,6 +43,8 @@ struct ContributionRow {
 #[derive(Serialize)]
 struct EvidenceRow<'a> {
     item: &'a str,
+    /// The item's title, null when the model has none.
+    title: Option<&'a str>,
     actual: f64,
     predicted: f64,
     distance: f64,
@@ -53,6 +53,8 @@ struct EvidenceRow<'a> {
 #[derive(Serialize)]
 struct SupportRow {
     user_ratings: usize,
+    /// The member's ratings held out of the fit (not counted in `user_ratings`).
+    user_held_out: usize,
     item_ratings: usize,
     user_low_support: bool,
     item_low_support: bool,
@@ -62,6 +64,8 @@ struct SupportRow {
 struct Report<'a> {
     user: &'a str,
     item: &'a str,
+    /// The item's title, null when the model has none.
+    title: Option<&'a str>,
     mu: f64,
     predicted: f64,
     rounded: f64,
@@ -73,7 +77,7 @@ struct Report<'a> {
 }
 
 pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
-    let (model, notes) = load_with_notes(&args.model)?;
+    let (model, notes) = load_with_notes(&args.model.model)?;
     let labels = &notes.current;
     let user = resolve(&model.ratings.users, &args.user, "member")?;
     let item = resolve_item(&model, &args.item)?;
@@ -85,7 +89,8 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
     let items = &model.ratings.items;
     let report = Report {
         user: &args.user,
-        item: &args.item,
+        item: items.name(item),
+        title: item_title(&model, item).0,
         mu: e.mu,
         predicted: e.predicted,
         rounded: e.rounded,
@@ -105,6 +110,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
             .iter()
             .map(|x| EvidenceRow {
                 item: items.name(x.item),
+                title: item_title(&model, x.item).0,
                 actual: x.actual,
                 predicted: x.predicted,
                 distance: x.distance,
@@ -112,15 +118,23 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
             .collect(),
         support: SupportRow {
             user_ratings: e.support.user_ratings,
+            user_held_out: e.support.user_held_out,
             item_ratings: e.support.item_ratings,
             user_low_support: e.support.user_low_support,
             item_low_support: e.support.item_low_support,
         },
     };
-    let text = match args.format {
+    let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => {
-            let mut out = String::from("factor,value,label\n");
+            let mut out =
+                String::from("factor,value,label,mu,predicted,rounded,predictive_sd,actual\n");
+            let (mu, predicted, rounded) = (
+                csv_number(Some(report.mu)),
+                csv_number(Some(report.predicted)),
+                csv_number(Some(report.rounded)),
+            );
+            let (sd, actual) = (csv_number(report.predictive_sd), csv_number(report.actual));
             for c in &report.contributions {
                 output::csv_row(
                     &mut out,
@@ -128,6 +142,11 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
                         &c.factor.to_string(),
                         &csv_number(Some(c.value)),
                         c.label.as_deref().unwrap_or(""),
+                        &mu,
+                        &predicted,
+                        &rounded,
+                        &sd,
+                        &actual,
                     ],
                 );
             }
@@ -135,7 +154,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         }
         Format::Table => table(&model, &report, &e),
     };
-    output::print(&text, args.format)
+    output::print(&text, args.output.format)
 }
 
 fn table(
@@ -206,9 +225,14 @@ fn table(
             ""
         }
     };
+    let held = if s.user_held_out > 0 {
+        format!(" (and {} held out of the fit)", s.user_held_out)
+    } else {
+        String::new()
+    };
     let _ = writeln!(
         out,
-        "\nsupport: the member has {} training ratings{}",
+        "\nsupport: the member has {} training ratings{held}{}",
         s.user_ratings,
         flag(s.user_low_support)
     );

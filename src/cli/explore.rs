@@ -1,20 +1,19 @@
 //! `sextant explore`: the terminal explorer on a model directory.
 
 use std::io::IsTerminal;
-use std::path::PathBuf;
 
 use clap::Args;
 use sextant::model::{Model, load_model};
 
 use super::UsageError;
+use super::args::ModelArg;
 use crate::tui;
 
 /// Open the terminal explorer.
 #[derive(Debug, Args)]
 pub struct ExploreArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// Benchmark hook: instead of opening the terminal, time loading, the first frame and
     /// this many further frames (each after a keystroke) on an off-screen 120×40 buffer, and
     /// print the times as JSON.
@@ -27,8 +26,8 @@ pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
         return measure(args, frames);
     }
     ensure_terminal()?;
-    let (model, notes) = sextant::model::notes::load_with_notes(&args.model)?;
-    open(model, args.model.display().to_string(), notes)
+    let (model, notes) = sextant::model::notes::load_with_notes(&args.model.model)?;
+    open(model, args.model.model.display().to_string(), notes)
 }
 
 /// True when both standard input and output are terminals.
@@ -89,9 +88,9 @@ fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
     use std::time::Instant;
 
     let start = Instant::now();
-    let model = load_model(&args.model)?;
+    let model = load_model(&args.model.model)?;
     let loaded = start.elapsed();
-    let mut app = tui::app::App::new(model, args.model.display().to_string());
+    let mut app = tui::app::App::new(model, args.model.model.display().to_string());
     let mut terminal = Terminal::new(TestBackend::new(120, 40))?;
     app.update(tui::action::Action::Resize(120, 40));
     let theme = tui::theme::Theme::plain();

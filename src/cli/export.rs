@@ -11,6 +11,7 @@ use clap::{Args, ValueEnum};
 use sextant::files::export::{ExportFolder, FolderKind};
 use sextant::model::load_model;
 
+use super::args::{MetricArgs, ModelArg, NeighbourCount, warn_if_spelled};
 use super::output;
 
 /// File format of an export.
@@ -26,20 +27,29 @@ pub enum ExportFormat {
 /// every item's nearest neighbours into a directory, as Parquet or CSV.
 #[derive(Debug, Args)]
 pub struct ExportArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
-    /// File format.
-    #[arg(long, value_enum, default_value_t = ExportFormat::Parquet)]
-    format: ExportFormat,
+    #[command(flatten)]
+    model: ModelArg,
+    /// Format of the files written.
+    #[arg(long, value_enum, default_value_t = ExportFormat::Parquet, alias = "format")]
+    file_format: ExportFormat,
     /// Folder to write into: a new or empty one, or one an earlier export wrote (it holds
     /// sextant-export.ron). A folder of other files is refused, so nothing of yours is
     /// overwritten.
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
-    /// Neighbours per item.
-    #[arg(short, long, default_value_t = 10)]
-    k: usize,
+    #[command(flatten)]
+    count: NeighbourCount,
+    #[command(flatten)]
+    metric: MetricArgs,
+}
+
+/// One row of the neighbour lists: query row, rank from 1, neighbour row, both measures.
+struct ListRow {
+    query: u32,
+    rank: u32,
+    id: u32,
+    distance: f64,
+    cosine: Option<f64>,
 }
 
 /// The files an export writes, in the order written.
@@ -61,25 +71,40 @@ fn file_names(format: ExportFormat) -> [&'static str; 4] {
 }
 
 pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
-    if args.k == 0 {
+    if args.count.k == 0 {
         return Err(super::UsageError("-k must be at least 1".into()).into());
     }
-    let model = load_model(&args.model)?;
-    let names = file_names(args.format);
+    let model = load_model(&args.model.model)?;
+    warn_if_spelled(&["--format"], "--file-format");
+    let format = args.file_format;
+    let names = file_names(format);
     // Refuses a folder of someone else's files before any work is done.
     let mut folder = ExportFolder::open(&args.out, FolderKind::Export, &names)?;
     let f = &model.factors;
     let r = &model.ratings;
     let held: Vec<_> = r.entries.iter().filter(|e| e.holdout).collect();
-    let k = args.k.min(r.items.len().saturating_sub(1));
-    let lists = sextant::index::bulk::all_neighbours_auto(
-        &f.items,
-        f.rank,
-        sextant::index::Metric::Euclidean,
-        k,
-    );
+    let k = args.count.k.min(r.items.len().saturating_sub(1));
+    let lists =
+        sextant::index::bulk::all_neighbours_auto(&f.items, f.rank, args.metric.or_euclidean(), k);
+    let vector = |r: u32| &f.items[r as usize * f.rank..(r as usize + 1) * f.rank];
+    let list_rows: Vec<ListRow> = lists
+        .iter()
+        .enumerate()
+        .flat_map(|(q, l)| {
+            l.iter().enumerate().map(move |(k, n)| {
+                let near = sextant::analysis::closeness(vector(q as u32), vector(n.row));
+                ListRow {
+                    query: q as u32,
+                    rank: k as u32 + 1,
+                    id: n.row,
+                    distance: near.distance,
+                    cosine: near.cosine,
+                }
+            })
+        })
+        .collect();
     let [users_file, items_file, held_file, lists_file] = names;
-    match args.format {
+    match format {
         ExportFormat::Parquet => {
             use arrow_array::{ArrayRef, Float64Array, RecordBatch, StringArray, UInt32Array};
             use arrow_schema::{DataType, Field, Schema};
@@ -117,30 +142,26 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                 )),
             ];
             folder.write(held_file, batch_to(RecordBatch::try_new(schema, cols)?))?;
-            let rows: Vec<(u32, usize, &sextant::index::Neighbour)> = lists
-                .iter()
-                .enumerate()
-                .flat_map(|(q, l)| l.iter().enumerate().map(move |(k, n)| (q as u32, k + 1, n)))
-                .collect();
+            let rows = &list_rows;
             let schema = Arc::new(Schema::new(vec![
                 Field::new("query", DataType::Utf8, false),
                 Field::new("rank", DataType::UInt32, false),
                 Field::new("id", DataType::Utf8, false),
                 Field::new("distance", DataType::Float64, false),
+                Field::new("cosine", DataType::Float64, true),
             ]));
             let cols: Vec<ArrayRef> = vec![
                 Arc::new(StringArray::from_iter_values(
-                    rows.iter().map(|(q, _, _)| r.items.name(*q)),
+                    rows.iter().map(|x| r.items.name(x.query)),
                 )),
-                Arc::new(UInt32Array::from_iter_values(
-                    rows.iter().map(|(_, k, _)| *k as u32),
-                )),
+                Arc::new(UInt32Array::from_iter_values(rows.iter().map(|x| x.rank))),
                 Arc::new(StringArray::from_iter_values(
-                    rows.iter().map(|(_, _, n)| r.items.name(n.row)),
+                    rows.iter().map(|x| r.items.name(x.id)),
                 )),
                 Arc::new(Float64Array::from_iter_values(
-                    rows.iter().map(|(_, _, n)| n.distance),
+                    rows.iter().map(|x| x.distance),
                 )),
+                Arc::new(rows.iter().map(|x| x.cosine).collect::<Float64Array>()),
             ];
             folder.write(lists_file, batch_to(RecordBatch::try_new(schema, cols)?))?;
         }
@@ -176,17 +197,16 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                 output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
             }
             folder.write(held_file, text(out))?;
-            let mut out = String::from("query,rank,id,distance\n");
-            for (q, l) in lists.iter().enumerate() {
-                for (k, n) in l.iter().enumerate() {
-                    let fields = [
-                        r.items.name(q as u32).to_owned(),
-                        (k + 1).to_string(),
-                        r.items.name(n.row).to_owned(),
-                        num(n.distance),
-                    ];
-                    output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
-                }
+            let mut out = String::from("query,rank,id,distance,cosine\n");
+            for x in &list_rows {
+                let fields = [
+                    r.items.name(x.query).to_owned(),
+                    x.rank.to_string(),
+                    r.items.name(x.id).to_owned(),
+                    num(x.distance),
+                    x.cosine.map(num).unwrap_or_default(),
+                ];
+                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
             }
             folder.write(lists_file, text(out))?;
         }

@@ -4,117 +4,65 @@ use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
 use anyhow::Context;
-use clap::{Args, ValueEnum};
+use clap::Args;
+use sextant::data::split::DEFAULT_HOLDOUT;
 use sextant::data::{FactorTable, IdMap, RatingScale, assign_holdout};
 use sextant::model::fit::IterationRecord;
-use sextant::model::manifest::RunOptions;
-use sextant::model::{Center, FitOptions, Fitter, Model, Provenance};
+use sextant::model::{FitOptions, Fitter, Model, Provenance};
 
 use super::UsageError;
-use super::inputs::{self, RatingsArgs};
-use super::output::{self, Format};
+use super::args::{FitInputs, OutputArgs, PriorArgs, RunArgs, SolverArgs};
+use super::inputs;
+use super::output;
 use super::summary;
-
-/// How the global offset μ is chosen.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum CenterArg {
-    /// μ = mean of the training ratings.
-    Global,
-    /// μ = 0: predictions are plain dot products.
-    None,
-}
-
-impl From<CenterArg> for Center {
-    fn from(c: CenterArg) -> Self {
-        match c {
-            CenterArg::Global => Self::Global,
-            CenterArg::None => Self::None,
-        }
-    }
-}
 
 /// Fit a probabilistic matrix factorization by coordinate ascent.
 #[derive(Debug, Args)]
 pub struct FitArgs {
-    /// Ratings CSV with a header row (columns user,item,rating unless renamed).
-    #[arg(value_name = "RATINGS.csv")]
-    ratings: PathBuf,
-    /// Items metadata CSV: item plus optional title, category and other columns.
-    #[arg(long, value_name = "FILE")]
-    items: Option<PathBuf>,
     /// Model directory to write: created, or replaced atomically when it is empty or holds a
     /// sextant model and nothing else (anything else is refused).
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
     /// Rank D: the number of latent factors.
-    #[arg(long, default_value_t = 10)]
+    #[arg(long, default_value_t = FitOptions::default().rank, help_heading = "Model and fit")]
     rank: usize,
-    /// Prior precision λ of every vector coordinate (0 = maximum likelihood).
-    #[arg(long, default_value_t = 1.0)]
-    lambda: f64,
-    /// Noise variance σ² of a rating.
-    #[arg(long, default_value_t = 1.0)]
-    sigma2: f64,
-    /// Subtract the global mean rating before fitting, or not.
-    #[arg(long, value_enum, default_value_t = CenterArg::Global)]
-    center: CenterArg,
-    /// Seed of the initial item vectors and of the held-out split.
-    #[arg(long, default_value_t = 0)]
-    seed: u64,
-    /// Fraction of each user's ratings held out for evaluation (0 allowed).
-    #[arg(long, value_name = "FRACTION", default_value_t = 0.1)]
-    holdout: f64,
-    /// Stop when the log joint likelihood changes by at most TOL times its size.
-    #[arg(long, default_value_t = 1e-6)]
-    tol: f64,
-    /// Largest number of iterations.
-    #[arg(long, default_value_t = 100)]
-    max_iters: usize,
     /// Start from these item vectors (a factor table id,f1,…,fD, e.g. an earlier model's
     /// items.csv) instead of random ones.
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, value_name = "FILE", help_heading = "Model and fit")]
     init_items: Option<PathBuf>,
-    /// Worker threads (default: all cores). Results are identical for any value.
-    #[arg(long, value_name = "N")]
-    threads: Option<usize>,
-    /// Print nothing on stderr except errors.
-    #[arg(long, short)]
-    quiet: bool,
-    /// Output format of the summary printed after the fit.
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
     #[command(flatten)]
-    input: RatingsArgs,
+    prior: PriorArgs,
+    #[command(flatten)]
+    solver: SolverArgs,
+    #[command(flatten)]
+    inputs: FitInputs,
+    #[command(flatten)]
+    run: RunArgs,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 impl FitArgs {
     fn fit_options(&self) -> FitOptions {
-        FitOptions {
-            rank: self.rank,
-            lambda: self.lambda,
-            sigma2: self.sigma2,
-            center: self.center.into(),
-            max_iters: self.max_iters,
-            tol: self.tol,
-            seed: self.seed,
-        }
+        self.solver
+            .options(self.rank, self.prior.lambda, self.prior.noise.sigma2)
     }
 }
 
 pub fn run(args: &FitArgs) -> anyhow::Result<()> {
     let options = args.fit_options();
     options.validate()?;
-    if !(0.0..1.0).contains(&args.holdout) {
+    if !(0.0..1.0).contains(&args.solver.holdout) {
         return Err(UsageError(format!(
             "--holdout must be at least 0 and below 1, not {}",
-            args.holdout
+            args.solver.holdout
         ))
         .into());
     }
-    let scale = args.input.scale()?;
+    let scale = args.inputs.columns.scale()?;
     // A target that will be refused is refused before the fit, not after it.
     sextant::model::dir::check_target(&args.out)?;
-    let pool = thread_pool(args.threads)?;
+    let pool = args.run.pool()?;
     pool.install(|| fit_and_save(args, &options, scale))
 }
 
@@ -126,20 +74,15 @@ pub struct Prepared {
     pub meta: Option<sextant::data::ItemsMeta>,
 }
 
-/// Reads the ratings and the optional items metadata.
-pub fn prepare(
-    ratings_path: &Path,
-    items: Option<&Path>,
-    input: &RatingsArgs,
-    scale: Option<RatingScale>,
-) -> anyhow::Result<Prepared> {
+/// Reads the ratings and the optional catalogue.
+pub fn prepare(files: &FitInputs, scale: Option<RatingScale>) -> anyhow::Result<Prepared> {
+    let (ratings_path, input) = (files.ratings.as_path(), &files.columns);
     let read_options = input.options(scale.clone(), None, false)?;
     let (ratings, ratings_input) =
         inputs::load_ratings(ratings_path, &read_options, IdMap::new(), IdMap::new())?;
-    let scale =
-        scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
+    let scale = inputs::scale_of(scale, &ratings, ratings_path);
     let mut input_prints = vec![ratings_input];
-    let meta = match items {
+    let meta = match files.catalogue() {
         Some(path) => {
             let (meta, print) = inputs::read_meta(path, input, &ratings.items)?;
             input_prints.push(print);
@@ -165,7 +108,7 @@ fn fit_and_save(
         scale,
         inputs: mut input_prints,
         meta,
-    } = prepare(&args.ratings, args.items.as_deref(), &args.input, scale)?;
+    } = prepare(&args.inputs, scale)?;
     let init = match &args.init_items {
         Some(path) => {
             let mut reader = inputs::open(path)?;
@@ -175,24 +118,21 @@ fn fit_and_save(
         }
         None => None,
     };
-    assign_holdout(&mut ratings, args.holdout, args.seed);
-    if !args.quiet {
+    assign_holdout(&mut ratings, args.solver.holdout, args.solver.seed);
+    if !args.run.quiet {
         announce(args, &ratings, &scale, meta.as_ref());
     }
     let init_ref = init
         .as_ref()
         .map(|(t, p): &(FactorTable, PathBuf)| (t, p.as_path()));
     let fitter = Fitter::new(&ratings, options, init_ref)?;
-    let mut progress = Progress::new(args.quiet, args.max_iters);
+    let mut progress = Progress::new(args.run.quiet, args.solver.max_iters);
     let result = fitter.run(|record| progress.update(record))?;
     progress.finish(result.converged, result.trace.len());
-    let run = RunOptions {
-        max_iters: args.max_iters,
-        tol: args.tol,
-        holdout: args.holdout,
-        duplicates: args.input.duplicates.into(),
-        init_items: args.init_items.as_deref().map(file_name),
-    };
+    let run = args.solver.run_options(
+        &args.inputs.columns,
+        args.init_items.as_deref().map(file_name),
+    );
     let provenance = Provenance {
         scale,
         inputs: input_prints,
@@ -200,7 +140,7 @@ fn fit_and_save(
     };
     let model = Model::from_fit(ratings, options, run, result, provenance)
         .context("the fit produced no training ratings to evaluate")?;
-    summary::save_and_print(&model, &args.out, args.quiet, args.format)
+    summary::save_and_print(&model, &args.out, args.run.quiet, args.output.format)
 }
 
 fn file_name(path: &Path) -> String {
@@ -208,16 +148,6 @@ fn file_name(path: &Path) -> String {
         || path.display().to_string(),
         |n| n.to_string_lossy().into_owned(),
     )
-}
-
-pub fn thread_pool(threads: Option<usize>) -> anyhow::Result<rayon::ThreadPool> {
-    if threads == Some(0) {
-        return Err(UsageError("--threads must be at least 1".into()).into());
-    }
-    rayon::ThreadPoolBuilder::new()
-        .num_threads(threads.unwrap_or(0))
-        .build()
-        .context("starting worker threads")
 }
 
 /// Prints the data size and every option, marking the ones left at their default.
@@ -228,6 +158,8 @@ fn announce(
     meta: Option<&sextant::data::ItemsMeta>,
 ) {
     let d = FitOptions::default();
+    let given = args.fit_options();
+    let solver = &args.solver;
     let mark = |is_default: bool| if is_default { " (default)" } else { "" };
     eprintln!(
         "fitting {} ratings from {} users and {} items ({} held out); scale {}",
@@ -242,22 +174,22 @@ fn announce(
     }
     eprintln!(
         "options: rank {}{}, lambda {}{}, sigma2 {}{}, center {}{}, holdout {}{}, tol {:e}{}, max-iters {}{}, seed {}{}",
-        args.rank,
-        mark(args.rank == d.rank),
-        args.lambda,
-        mark(args.lambda == d.lambda),
-        args.sigma2,
-        mark(args.sigma2 == d.sigma2),
-        args.fit_options().center.name(),
-        mark(args.fit_options().center == d.center),
-        args.holdout,
-        mark(args.holdout == 0.1),
-        args.tol,
-        mark(args.tol == d.tol),
-        args.max_iters,
-        mark(args.max_iters == d.max_iters),
-        args.seed,
-        mark(args.seed == d.seed),
+        given.rank,
+        mark(given.rank == d.rank),
+        given.lambda,
+        mark(given.lambda == d.lambda),
+        given.sigma2,
+        mark(given.sigma2 == d.sigma2),
+        given.center.name(),
+        mark(given.center == d.center),
+        solver.holdout,
+        mark(solver.holdout == DEFAULT_HOLDOUT),
+        given.tol,
+        mark(given.tol == d.tol),
+        given.max_iters,
+        mark(given.max_iters == d.max_iters),
+        given.seed,
+        mark(given.seed == d.seed),
     );
 }
 

@@ -12,6 +12,7 @@ use sextant::data::profile::load_profile;
 use sextant::index::{InnerProductIndex, Path};
 use sextant::model::load_model;
 
+use super::args::{ModelArg, OutputArgs, SuggestionCount};
 use super::output::{self, Format};
 
 /// Fold a profile (an `item,rating` CSV) into a model: one member step against the fixed
@@ -20,18 +21,15 @@ use super::output::{self, Format};
 /// Items the model does not know are skipped and named on stderr.
 #[derive(Debug, Args)]
 pub struct FoldInArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// The profile: CSV with columns item,rating.
     #[arg(value_name = "RATINGS.csv")]
     ratings: PathBuf,
-    /// How many suggestions.
-    #[arg(short, long, default_value_t = 10)]
-    n: usize,
-    /// Output format (CSV lists the suggestions).
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    count: SuggestionCount,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 #[derive(Serialize)]
@@ -43,7 +41,7 @@ struct Report<'a> {
 }
 
 pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
-    let model = load_model(&args.model)?;
+    let model = load_model(&args.model.model)?;
     let profile = load_profile(&args.ratings, &model.ratings.items, &model.manifest.scale)?;
     if !profile.unknown.is_empty() {
         let named: Vec<String> = profile
@@ -73,7 +71,7 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
             vector: &vector,
             rated: &profile.ratings,
         },
-        args.n,
+        args.count.n,
     );
     let report = Report {
         vector: &vector,
@@ -81,7 +79,7 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
         skipped: profile.unknown.iter().map(|(id, _)| id.as_str()).collect(),
         suggestions: super::suggest::rows(&model, &found),
     };
-    let text = match args.format {
+    let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => super::suggest::csv(&report.suggestions),
         Format::Table => {
@@ -110,5 +108,5 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text, args.format)
+    output::print(&text, args.output.format)
 }

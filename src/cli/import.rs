@@ -1,33 +1,33 @@
 //! `sextant import`: a model directory from factor tables fitted elsewhere.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use clap::Args;
-use sextant::data::{RatingScale, read_factor_table};
+use sextant::data::read_factor_table;
 use sextant::error::DataError;
 use sextant::model::{Center, FactorModel, Model, Provenance};
 
 use super::UsageError;
-use super::fit::CenterArg;
+use super::args::{CatalogueArg, CenterArgs, OutputArgs, PriorArgs, warn_if_spelled};
 use super::inputs::{self, RatingsArgs};
-use super::output::Format;
 use super::summary;
 
 /// Build a model directory from user and item factor tables (id,f1,…,fD) and the ratings
 /// they were fitted on. A `split` column (train/holdout) in the ratings is used when present;
 /// otherwise every rating counts as training.
 #[derive(Debug, Args)]
+#[command(mut_arg("catalogue", |a| a.alias("items-meta")))]
 pub struct ImportArgs {
     /// Ratings CSV; every user and item in it must have a vector.
     #[arg(long, value_name = "FILE")]
     ratings: PathBuf,
     /// User factor table: CSV id,f1,…,fD, or Parquet (a file ending in .parquet).
-    #[arg(long, value_name = "FILE")]
-    users: PathBuf,
+    #[arg(long, value_name = "FILE", alias = "users")]
+    user_vectors: PathBuf,
     /// Item factor table: CSV id,f1,…,fD, or Parquet (a file ending in .parquet).
-    #[arg(long, value_name = "FILE")]
-    items: PathBuf,
+    #[arg(long, value_name = "FILE", alias = "items")]
+    item_vectors: PathBuf,
     /// Parquet tables: the id column (default: id, else the first text column).
     #[arg(long, value_name = "NAME")]
     id_col: Option<String>,
@@ -35,44 +35,54 @@ pub struct ImportArgs {
     /// else every float column in order).
     #[arg(long, value_name = "NAME")]
     vector_col: Option<String>,
-    /// Items metadata CSV: item plus optional title, category and other columns.
-    #[arg(long, value_name = "FILE")]
-    items_meta: Option<PathBuf>,
     /// Model directory to write.
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
     /// The global offset μ the vectors were fitted around (prediction = μ + u·v).
     #[arg(long, conflicts_with = "center", allow_hyphen_values = true)]
     mu: Option<f64>,
-    /// Or: μ = mean of the training ratings (global) or 0 (none). One of --mu and --center
-    /// is required: a wrong μ shifts every prediction.
-    #[arg(long, value_enum)]
-    center: Option<CenterArg>,
-    /// Prior precision λ the vectors were fitted with (used for uncertainty and fold-in).
-    #[arg(long, default_value_t = 1.0)]
-    lambda: f64,
-    /// Noise variance σ² the vectors were fitted with.
-    #[arg(long, default_value_t = 1.0)]
-    sigma2: f64,
-    /// Output format of the summary printed after the import.
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    center: CenterArgs,
+    #[command(flatten)]
+    prior: PriorArgs,
+    #[command(flatten)]
+    catalogue: CatalogueArg,
     #[command(flatten)]
     input: RatingsArgs,
+    #[command(flatten)]
+    output: OutputArgs,
+}
+
+/// The three files an import reads besides the ratings, under their current spellings.
+struct Tables<'a> {
+    users: &'a Path,
+    items: &'a Path,
+    catalogue: Option<&'a Path>,
+}
+
+impl ImportArgs {
+    /// The tables, with a warning for each given under its deprecated spelling.
+    fn tables(&self) -> Tables<'_> {
+        warn_if_spelled(&["--users"], "--user-vectors");
+        warn_if_spelled(&["--items"], "--item-vectors");
+        warn_if_spelled(&["--items-meta"], "--catalogue");
+        Tables {
+            users: &self.user_vectors,
+            items: &self.item_vectors,
+            catalogue: self.catalogue.catalogue.as_deref(),
+        }
+    }
 }
 
 pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
-    if !(args.lambda.is_finite()
-        && args.lambda >= 0.0
-        && args.sigma2.is_finite()
-        && args.sigma2 > 0.0)
-    {
+    let (lambda, sigma2) = (args.prior.lambda, args.prior.noise.sigma2);
+    if !(lambda.is_finite() && lambda >= 0.0 && sigma2.is_finite() && sigma2 > 0.0) {
         return Err(UsageError("--lambda must be ≥ 0 and --sigma2 > 0".into()).into());
     }
     if args.mu.is_some_and(|mu| !mu.is_finite()) {
         return Err(UsageError("--mu must be a finite number".into()).into());
     }
-    if args.mu.is_none() && args.center.is_none() {
+    if args.mu.is_none() && args.center.center.is_none() {
         return Err(UsageError(
             "say which global offset μ the vectors were fitted around: --mu VALUE if you \
              know it, --center global if it was the mean of the training ratings, or \
@@ -88,16 +98,17 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         id: args.id_col.clone(),
         vector: args.vector_col.clone(),
     };
-    let (users, users_input) = read_table(&args.users, "users", &columns)?;
-    let (items, items_input) = read_table(&args.items, "items", &columns)?;
+    let tables = args.tables();
+    let (users, users_input) = read_table(tables.users, "users", &columns)?;
+    let (items, items_input) = read_table(tables.items, "items", &columns)?;
     if users.rank != items.rank {
         return Err(DataError::at_line(
-            &args.items,
+            tables.items,
             1,
             format!(
                 "the item table has {} factors but the user table ({}) has {}",
                 items.rank,
-                args.users.display(),
+                tables.users.display(),
                 users.rank
             ),
         )
@@ -112,10 +123,9 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         users.ids.clone(),
         items.ids.clone(),
     )?;
-    let scale =
-        scale.unwrap_or_else(|| RatingScale::infer(ratings.entries.iter().map(|r| r.value)));
+    let scale = inputs::scale_of(scale, &ratings, &args.ratings);
     let mut prints = vec![ratings_input, users_input, items_input];
-    let meta = match &args.items_meta {
+    let meta = match tables.catalogue {
         Some(path) => {
             let (meta, print) = inputs::read_meta(path, &args.input, &ratings.items)?;
             prints.push(print);
@@ -124,7 +134,7 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         }
         None => None,
     };
-    let center = match (args.mu, args.center) {
+    let center = match (args.mu, args.center.center) {
         (Some(_), _) => Center::Given,
         (None, c) => c.map_or(Center::None, Center::from),
     };
@@ -152,22 +162,15 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         inputs: prints,
         meta,
     };
-    let model = Model::from_import(
-        ratings,
-        factors,
-        args.lambda,
-        args.sigma2,
-        center,
-        provenance,
-    )
-    .with_context(|| {
-        format!(
-            "{}: no training ratings (every row is marked holdout)",
-            args.ratings.display()
-        )
-    })
-    .map_err(|e| UsageError(format!("{e:#}")))?;
-    summary::save_and_print(&model, &args.out, false, args.format)
+    let model = Model::from_import(ratings, factors, lambda, sigma2, center, provenance)
+        .with_context(|| {
+            format!(
+                "{}: no training ratings (every row is marked holdout)",
+                args.ratings.display()
+            )
+        })
+        .map_err(|e| UsageError(format!("{e:#}")))?;
+    summary::save_and_print(&model, &args.out, false, args.output.format)
 }
 
 fn read_table(

@@ -1,29 +1,32 @@
 //! `sextant info`: summarise a model directory.
 
-use std::path::PathBuf;
-
 use clap::Args;
 use sextant::model::load_model;
 
-use super::output::{self, Format};
+use super::args::{ModelArg, OutputArgs};
+use super::output;
 use super::summary;
 
 /// Summarise a model: options, counts, convergence, accuracy, low-support counts.
+///
+/// JSON carries everything, with the per-iteration trace; CSV lists the per-iteration
+/// trace.
 #[derive(Debug, Args)]
 pub struct InfoArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
-    /// Output format: a readable summary, JSON (everything, with the per-iteration trace),
-    /// or CSV (the per-iteration trace).
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    model: ModelArg,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 pub fn run(args: &InfoArgs) -> anyhow::Result<()> {
-    let model = load_model(&args.model)?;
+    let model = load_model(&args.model.model)?;
     output::print(
-        &summary::render(&model, &args.model.display().to_string(), args.format)?,
-        args.format,
+        &summary::render(
+            &model,
+            &args.model.model.display().to_string(),
+            args.output.format,
+        )?,
+        args.output.format,
     )
 }

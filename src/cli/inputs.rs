@@ -39,6 +39,7 @@ impl From<DuplicatePolicy> for Duplicates {
 
 /// How to read the input CSVs: the ratings and the items metadata.
 #[derive(Debug, Clone, Args)]
+#[command(next_help_heading = "Reading the CSV files")]
 pub struct RatingsArgs {
     /// The field separator of the input CSVs: , ; | or tab. Read off each file's header
     /// line when absent.
@@ -47,7 +48,7 @@ pub struct RatingsArgs {
     /// Name of the column holding user ids.
     #[arg(long, value_name = "NAME", default_value = "user")]
     pub user_col: String,
-    /// Name of the column holding item ids (also used in the items metadata file).
+    /// Name of the column holding item ids (also tried in the catalogue).
     #[arg(long, value_name = "NAME", default_value = "item")]
     pub item_col: String,
     /// Name of the column holding ratings.
@@ -60,15 +61,15 @@ pub struct RatingsArgs {
     /// What to do when a (user, item) pair is rated more than once.
     #[arg(long, value_enum, default_value_t = DuplicatePolicy::Error)]
     pub duplicates: DuplicatePolicy,
-    /// Items metadata: the column holding item ids, when it is not named like the
+    /// Catalogue: the column holding item ids, when it is not named like the
     /// ratings' item column (id, item and item_id are also tried).
     #[arg(long, value_name = "NAME")]
     pub meta_id_col: Option<String>,
-    /// Items metadata: the column holding titles (else the first of title, name,
+    /// Catalogue: the column holding titles (else the first of title, name,
     /// item_name, product_name, display_name, label, headline, in any case).
     #[arg(long, value_name = "NAME")]
     pub title_col: Option<String>,
-    /// Items metadata: the column holding categories (else the first of category, genre,
+    /// Catalogue: the column holding categories (else the first of category, genre,
     /// section, department, group, class, type, in any case).
     #[arg(long, value_name = "NAME")]
     pub category_col: Option<String>,
@@ -142,6 +143,29 @@ pub fn read_meta(
         );
     }
     Ok((meta, input("items-meta", path, &reader)))
+}
+
+/// The rating scale: the one given with --scale, else inferred from the ratings at `path`,
+/// with a warning when they use fewer than three values (a small or filtered file can hide
+/// the real scale, and every rounded prediction is clamped to the inferred one).
+pub fn scale_of(given: Option<RatingScale>, ratings: &Ratings, path: &Path) -> RatingScale {
+    if let Some(scale) = given {
+        return scale;
+    }
+    let scale = RatingScale::infer(ratings.entries.iter().map(|r| r.value));
+    if let RatingScale::Levels(levels) = &scale
+        && levels.len() < 3
+    {
+        eprintln!(
+            "warning: {}: the ratings use only {} value(s) ({}), so the rating scale is taken to \
+             be just that; if it is wider, give it with --scale MIN:MAX:STEP (for example \
+             --scale 1:5:1)",
+            path.display(),
+            levels.len(),
+            scale.describe()
+        );
+    }
+    scale
 }
 
 /// Opens `path` for reading through a fingerprinting reader.

@@ -2,6 +2,7 @@
 //! subcommand parses and validates, resolves a plan (data loaded, model fitted or loaded),
 //! then does the work through the library and prints through [`output`].
 
+mod args;
 mod audit;
 mod demo;
 mod explain;
@@ -13,6 +14,7 @@ mod import;
 mod info;
 mod inputs;
 mod lookup;
+mod manual;
 mod neighbours;
 mod notes;
 mod output;
@@ -66,6 +68,9 @@ enum Command {
     /// model's arithmetic, not a person's motives or traits, and is no basis for decisions
     /// about people beyond what to show them. An explanation given to a member uses that
     /// member's own ratings only.
+    ///
+    /// CSV has one row per factor contribution (factor, value, label); every row also
+    /// carries mu, predicted, rounded, predictive_sd and actual, the same on each row.
     Explain(explain::ExplainArgs),
     /// Audit a model: coherence, worst fits, support, factor meaning, ranking, notes.
     Audit(audit::AuditArgs),
@@ -78,6 +83,10 @@ enum Command {
     Notes(notes::NotesArgs),
     /// Write a model's factor tables, held-out predictions and neighbour lists as Parquet or CSV.
     Export(export::ExportArgs),
+    /// Print a shell completion script (bash, zsh, fish, elvish or powershell) on stdout.
+    Completions(manual::CompletionsArgs),
+    /// Print the manual page of sextant or of one command (roff, for `man -l -`).
+    Man(manual::ManArgs),
 }
 
 /// Runs the parsed command line.
@@ -95,6 +104,8 @@ pub fn run(cli: Cli) -> anyhow::Result<()> {
         Some(Command::Tune(args)) => tune::run(&args),
         Some(Command::Notes(args)) => notes::run(&args),
         Some(Command::Export(args)) => export::run(&args),
+        Some(Command::Completions(args)) => manual::completions(&args),
+        Some(Command::Man(args)) => manual::man(&args),
         None => demo::run(),
     }
 }
@@ -162,4 +173,47 @@ pub fn is_broken_pipe(err: &anyhow::Error) -> bool {
             .downcast_ref::<std::io::Error>()
             .is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use std::collections::BTreeMap;
+
+    use clap::CommandFactory;
+
+    use super::Cli;
+
+    /// Flags whose help differs by command on purpose: where a command writes (`--out`)
+    /// is a model directory, a file or a folder depending on the command.
+    const OWN_WORDING: &[&str] = &["out", "help", "version"];
+
+    /// A flag means the same thing in every command: its help text is the same wherever it
+    /// appears, which holds by construction when it is declared once, in `args.rs`.
+    #[test]
+    fn every_flag_is_worded_the_same_in_every_command() {
+        let mut cli = Cli::command();
+        cli.build();
+        let mut seen: BTreeMap<String, (String, String)> = BTreeMap::new();
+        let mut clashes = Vec::new();
+        for command in cli.get_subcommands() {
+            for arg in command.get_arguments() {
+                let Some(long) = arg.get_long() else { continue };
+                if OWN_WORDING.contains(&long) || arg.is_hide_set() {
+                    continue;
+                }
+                let help = arg.get_help().map(ToString::to_string).unwrap_or_default();
+                match seen.get(long) {
+                    Some((first, other)) if *first != help => clashes.push(format!(
+                        "--{long}: '{first}' in {other} but '{help}' in {}",
+                        command.get_name()
+                    )),
+                    Some(_) => {}
+                    None => {
+                        seen.insert(long.to_owned(), (help, command.get_name().to_owned()));
+                    }
+                }
+            }
+        }
+        assert!(clashes.is_empty(), "{}", clashes.join("\n"));
+    }
 }

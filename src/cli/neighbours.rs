@@ -3,42 +3,24 @@
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
-use clap::{Args, ValueEnum};
+use clap::Args;
 use serde::Serialize;
 use sextant::analysis::closeness;
-use sextant::index::{Metric, NeighbourIndex, Path};
+use sextant::index::{NeighbourIndex, Path};
 use sextant::model::load_model;
 
 use super::UsageError;
+use super::args::{MetricArgs, ModelArg, NeighbourCount, OutputArgs, metric_name};
 use super::lookup::{csv_number, item_label, item_title, resolve, resolve_item};
 use super::output::{self, Format};
-
-/// How neighbours are ranked.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum MetricArg {
-    /// Euclidean distance between the raw vectors.
-    Euclidean,
-    /// Cosine similarity (direction only, length ignored).
-    Cosine,
-}
-
-impl From<MetricArg> for Metric {
-    fn from(arg: MetricArg) -> Self {
-        match arg {
-            MetricArg::Euclidean => Metric::Euclidean,
-            MetricArg::Cosine => Metric::Cosine,
-        }
-    }
-}
 
 /// The k nearest items to an item, or members to a member, in the latent space.
 ///
 /// Both the Euclidean distance and the cosine similarity are shown whatever the ranking.
 #[derive(Debug, Args)]
 pub struct NeighboursArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// The item whose neighbours to list.
     #[arg(
         value_name = "ITEM",
@@ -46,7 +28,8 @@ pub struct NeighboursArgs {
         conflicts_with_all = ["user", "all"]
     )]
     item: Option<String>,
-    /// Every item's neighbours at once, as CSV rows query,rank,id,distance,cosine (or one
+    /// Every item's neighbours at once, as CSV rows query,rank,id,distance,cosine,title,
+    /// category (or one
     /// JSON object with --format json): blocked matrix products, or at low ranks one k-d
     /// tree query per item, whichever is faster; the lists equal the single-item ones.
     #[arg(long, conflicts_with = "user")]
@@ -58,28 +41,42 @@ pub struct NeighboursArgs {
     /// List the members nearest to this member instead.
     #[arg(long, value_name = "USER")]
     user: Option<String>,
-    /// How many neighbours.
-    #[arg(short, long, default_value_t = 10)]
-    k: usize,
-    /// Ranking metric.
-    #[arg(long, value_enum, default_value_t = MetricArg::Euclidean)]
-    metric: MetricArg,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    count: NeighbourCount,
+    #[command(flatten)]
+    metric: MetricArgs,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
+/// One neighbour as printed: the fields DESIGN.md fixes, plus the item's title and
+/// category (null for members and for items the catalogue does not describe).
 #[derive(Serialize)]
 struct Row<'a> {
     rank: usize,
     id: &'a str,
     distance: f64,
     cosine: Option<f64>,
-    #[serde(skip_serializing_if = "Option::is_none")]
     title: Option<&'a str>,
-    #[serde(skip_serializing_if = "Option::is_none")]
     category: Option<&'a str>,
 }
+
+impl Row<'_> {
+    /// The CSV fields after the query column: `rank,id,distance,cosine,title,category`.
+    fn csv_fields(&self) -> [String; 6] {
+        [
+            self.rank.to_string(),
+            self.id.to_owned(),
+            csv_number(Some(self.distance)),
+            csv_number(self.cosine),
+            self.title.unwrap_or_default().to_owned(),
+            self.category.unwrap_or_default().to_owned(),
+        ]
+    }
+}
+
+/// The CSV header of a neighbour list.
+const CSV_HEADER: &str = "rank,id,distance,cosine,title,category";
 
 #[derive(Serialize)]
 struct Report<'a> {
@@ -91,7 +88,7 @@ struct Report<'a> {
 }
 
 pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
-    let model = load_model(&args.model)?;
+    let model = load_model(&args.model.model)?;
     if args.all {
         return run_all(args, &model);
     }
@@ -117,11 +114,11 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
     } else {
         resolve(ids, query, "member")?
     };
-    let metric: Metric = args.metric.into();
+    let metric = args.metric.or_euclidean();
     let d = model.factors.rank;
     let index = NeighbourIndex::build(vectors, d, metric, Path::Auto);
     let found = index
-        .nearest_to_row(row, args.k)
+        .nearest_to_row(row, args.count.k)
         .map_err(|e| UsageError(format!("{kind} '{query}': {e}")))?;
     let vector = |r: u32| &vectors[r as usize * d..(r as usize + 1) * d];
     let rows: Vec<Row<'_>> = found
@@ -144,29 +141,20 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
             }
         })
         .collect();
-    let metric_name = match metric {
-        Metric::Euclidean => "euclidean",
-        Metric::Cosine => "cosine",
-    };
+    let metric_name = metric_name(metric);
     let report = Report {
-        query,
+        query: ids.name(row),
         kind,
         metric: metric_name,
-        k: args.k,
+        k: args.count.k,
         neighbours: rows,
     };
-    let text = match args.format {
+    let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => {
-            let mut out = String::from("rank,id,distance,cosine\n");
+            let mut out = format!("{CSV_HEADER}\n");
             for r in &report.neighbours {
-                let fields = [
-                    r.rank.to_string(),
-                    r.id.to_owned(),
-                    csv_number(Some(r.distance)),
-                    csv_number(r.cosine),
-                ];
-                output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+                output::csv_row(&mut out, &r.csv_fields().each_ref().map(String::as_str));
             }
             out
         }
@@ -202,7 +190,7 @@ pub fn run(args: &NeighboursArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text, args.format)
+    output::print(&text, args.output.format)
 }
 
 #[derive(Serialize)]
@@ -221,32 +209,30 @@ struct AllReport<'a> {
 
 /// `--all`: every item's neighbour list, computed in bulk.
 fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Result<()> {
-    let metric: Metric = args.metric.into();
+    let metric = args.metric.or_euclidean();
     let d = model.factors.rank;
     let vectors = &model.factors.items;
     let ids = &model.ratings.items;
-    let lists = sextant::index::bulk::all_neighbours_auto(vectors, d, metric, args.k);
+    let lists = sextant::index::bulk::all_neighbours_auto(vectors, d, metric, args.count.k);
     let vector = |r: usize| &vectors[r * d..(r + 1) * d];
     let row_of = |query: usize, k: usize, n: &sextant::index::Neighbour| {
         let near = closeness(vector(query), vector(n.row as usize));
+        let (title, category) = item_title(model, n.row);
         Row {
             rank: k + 1,
             id: ids.name(n.row),
             distance: near.distance,
             cosine: near.cosine,
-            title: None,
-            category: None,
+            title,
+            category,
         }
     };
-    let text = match args.format {
+    let text = match args.output.format {
         Format::Json => {
             let report = AllReport {
                 kind: "item",
-                metric: match metric {
-                    Metric::Euclidean => "euclidean",
-                    Metric::Cosine => "cosine",
-                },
-                k: args.k,
+                metric: metric_name(metric),
+                k: args.count.k,
                 lists: lists
                     .iter()
                     .enumerate()
@@ -263,18 +249,11 @@ fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Resu
             serde_json::to_string(&report)? + "\n"
         }
         Format::Csv | Format::Table => {
-            let mut out = String::from("query,rank,id,distance,cosine\n");
+            let mut out = format!("query,{CSV_HEADER}\n");
             for (q, list) in lists.iter().enumerate() {
                 for (k, n) in list.iter().enumerate() {
-                    let r = row_of(q, k, n);
-                    let fields = [
-                        ids.name(q as u32).to_owned(),
-                        r.rank.to_string(),
-                        r.id.to_owned(),
-                        csv_number(Some(r.distance)),
-                        csv_number(r.cosine),
-                    ];
-                    output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
+                    let [a, b, c, d, e, f] = row_of(q, k, n).csv_fields();
+                    output::csv_row(&mut out, &[ids.name(q as u32), &a, &b, &c, &d, &e, &f]);
                 }
             }
             out
@@ -290,6 +269,6 @@ fn run_all(args: &NeighboursArgs, model: &sextant::model::Model) -> anyhow::Resu
             );
             Ok(())
         }
-        None => output::print(&text, args.format),
+        None => output::print(&text, args.output.format),
     }
 }

@@ -2,22 +2,21 @@
 //! notes the explorer keeps, saved the same way: locked, merged, atomic).
 
 use std::fmt::Write as _;
-use std::path::PathBuf;
 
 use clap::Args;
 use serde::Serialize;
 use sextant::model::notes::{NoteError, load_with_notes};
 
 use super::UsageError;
+use super::args::{ModelArg, OutputArgs};
 use super::output::{self, Format};
 
 /// List a model's curator notes, or change one: an item note, a factor label, a flag on a
 /// pair of items that should not be neighbours. Empty text removes a note or label.
 #[derive(Debug, Args)]
 pub struct NotesArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// Set the note on an item: --item ID TEXT.
     #[arg(long, num_args = 2, value_names = ["ID", "TEXT"])]
     item: Option<Vec<String>>,
@@ -33,9 +32,8 @@ pub struct NotesArgs {
     /// The note that goes with --flag.
     #[arg(long, default_value = "")]
     text: String,
-    /// Output format of the listing.
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 #[derive(Serialize)]
@@ -49,7 +47,7 @@ struct Row<'a> {
 pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
     // The model and its notes from one generation; the reading lock is let go before the
     // save takes the writing one.
-    let (model, mut notes) = load_with_notes(&args.model)?;
+    let (model, mut notes) = load_with_notes(&args.model.model)?;
     let refused = |what: &str, e: NoteError| UsageError(format!("{what}: {e}"));
     // Items are named by id or by exact title; notes are kept by id.
     let known = |typed: &str| -> Result<String, UsageError> {
@@ -136,7 +134,7 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
             note,
         });
     }
-    let text = match args.format {
+    let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&serde_json::json!({ "notes": rows }))? + "\n",
         Format::Csv => {
             let mut out = String::from("kind,subject,other,note\n");
@@ -167,5 +165,5 @@ pub fn run(args: &NotesArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text, args.format)
+    output::print(&text, args.output.format)
 }

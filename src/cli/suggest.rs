@@ -1,7 +1,6 @@
 //! `sextant suggest`: a member's top items by predicted rating.
 
 use std::fmt::Write as _;
-use std::path::PathBuf;
 
 use clap::Args;
 use serde::Serialize;
@@ -9,6 +8,7 @@ use sextant::analysis::{Suggestion, suggest};
 use sextant::index::{InnerProductIndex, Path};
 use sextant::model::{Model, load_model};
 
+use super::args::{ModelArg, OutputArgs, SuggestionCount};
 use super::lookup::{csv_number, item_label, item_title, resolve};
 use super::output::{self, Format};
 
@@ -16,24 +16,22 @@ use super::output::{self, Format};
 /// the predictive standard deviation of the rating.
 #[derive(Debug, Args)]
 pub struct SuggestArgs {
-    /// The model directory.
-    #[arg(value_name = "MODEL")]
-    model: PathBuf,
+    #[command(flatten)]
+    model: ModelArg,
     /// The member.
     #[arg(value_name = "USER")]
     user: String,
-    /// How many suggestions.
-    #[arg(short, long, default_value_t = 10)]
-    n: usize,
+    #[command(flatten)]
+    count: SuggestionCount,
     /// Also consider items the member already rated.
     #[arg(long)]
     include_rated: bool,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
-/// One suggestion as printed (JSON fields fixed by DESIGN.md, plus title and category).
+/// One suggestion as printed (JSON fields fixed by DESIGN.md, plus the predictive
+/// standard deviation, title and category: null when the model has none).
 #[derive(Serialize)]
 pub struct Row<'a> {
     rank: usize,
@@ -41,9 +39,7 @@ pub struct Row<'a> {
     predicted: f64,
     rounded: f64,
     predictive_sd: Option<f64>,
-    #[serde(skip_serializing_if = "Option::is_none")]
     title: Option<&'a str>,
-    #[serde(skip_serializing_if = "Option::is_none")]
     category: Option<&'a str>,
 }
 
@@ -55,17 +51,17 @@ struct Report<'a> {
 }
 
 pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
-    let model = load_model(&args.model)?;
+    let model = load_model(&args.model.model)?;
     let user = resolve(&model.ratings.users, &args.user, "member")?;
     let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
-    let found = suggest(&model, &index, user, args.n, args.include_rated);
+    let found = suggest(&model, &index, user, args.count.n, args.include_rated);
     let rows = rows(&model, &found);
     let report = Report {
         user: &args.user,
-        n: args.n,
+        n: args.count.n,
         suggestions: rows,
     };
-    let text = match args.format {
+    let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => csv(&report.suggestions),
         Format::Table => {
@@ -84,7 +80,7 @@ pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
             out
         }
     };
-    output::print(&text, args.format)
+    output::print(&text, args.output.format)
 }
 
 /// The printed rows of a list of suggestions.
@@ -106,9 +102,10 @@ pub fn rows<'a>(model: &'a Model, found: &[Suggestion]) -> Vec<Row<'a>> {
         .collect()
 }
 
-/// Suggestions as CSV (`rank,item,predicted,rounded,predictive_sd`).
+/// Suggestions as CSV (`rank,item,predicted,rounded,predictive_sd,title,category`; the
+/// last two empty when the model has no catalogue).
 pub fn csv(rows: &[Row<'_>]) -> String {
-    let mut out = String::from("rank,item,predicted,rounded,predictive_sd\n");
+    let mut out = String::from("rank,item,predicted,rounded,predictive_sd,title,category\n");
     for r in rows {
         let fields = [
             r.rank.to_string(),
@@ -116,6 +113,8 @@ pub fn csv(rows: &[Row<'_>]) -> String {
             csv_number(Some(r.predicted)),
             csv_number(Some(r.rounded)),
             csv_number(r.predictive_sd),
+            r.title.unwrap_or_default().to_owned(),
+            r.category.unwrap_or_default().to_owned(),
         ];
         output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
     }

@@ -9,12 +9,11 @@ use anyhow::Context as _;
 use clap::Args;
 use serde::Serialize;
 use sextant::data::assign_holdout;
-use sextant::model::manifest::RunOptions;
 use sextant::model::{FitOptions, FitResult, Fitter, Model, Provenance};
 
 use super::UsageError;
-use super::fit::{CenterArg, Prepared, prepare, thread_pool};
-use super::inputs::RatingsArgs;
+use super::args::{FitInputs, NoiseArgs, OutputArgs, RunArgs, SolverArgs};
+use super::fit::{Prepared, prepare};
 use super::output::{self, Format};
 
 /// Fit every combination of the given ranks and λ values on the same held-out split and
@@ -22,15 +21,16 @@ use super::output::{self, Format};
 /// on all worker threads, so the times shown are comparable.
 #[derive(Debug, Args)]
 pub struct TuneArgs {
-    /// Ratings CSV with a header row (columns user,item,rating unless renamed).
-    #[arg(value_name = "RATINGS.csv")]
-    ratings: PathBuf,
+    /// Write the best model to this directory (with the catalogue, when one is given).
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
     /// Ranks to try, comma-separated.
     #[arg(
         long,
         value_delimiter = ',',
         default_value = "5,10,20",
-        value_name = "LIST"
+        value_name = "LIST",
+        help_heading = "Model and fit"
     )]
     ranks: Vec<usize>,
     /// Values of λ to try, comma-separated.
@@ -38,44 +38,20 @@ pub struct TuneArgs {
         long,
         value_delimiter = ',',
         default_value = "0.1,1,10",
-        value_name = "LIST"
+        value_name = "LIST",
+        help_heading = "Model and fit"
     )]
     lambdas: Vec<f64>,
-    /// Fraction of each member's ratings held out to compare the fits (above 0).
-    #[arg(long, value_name = "FRACTION", default_value_t = 0.1)]
-    holdout: f64,
-    /// Noise variance σ² of a rating.
-    #[arg(long, default_value_t = 1.0)]
-    sigma2: f64,
-    /// Subtract the global mean rating before fitting, or not.
-    #[arg(long, value_enum, default_value_t = CenterArg::Global)]
-    center: CenterArg,
-    /// Seed of the initial item vectors and of the held-out split.
-    #[arg(long, default_value_t = 0)]
-    seed: u64,
-    /// Convergence tolerance of each fit.
-    #[arg(long, default_value_t = 1e-6)]
-    tol: f64,
-    /// Iteration limit of each fit.
-    #[arg(long, default_value_t = 100)]
-    max_iters: usize,
-    /// Write the best model to this directory.
-    #[arg(long, value_name = "DIR")]
-    out: Option<PathBuf>,
-    /// Items metadata CSV, kept in the best model when --out is given.
-    #[arg(long, value_name = "FILE")]
-    items: Option<PathBuf>,
-    /// Worker threads (default: all cores).
-    #[arg(long, value_name = "N")]
-    threads: Option<usize>,
-    /// Print nothing on stderr except errors.
-    #[arg(long, short)]
-    quiet: bool,
-    /// Output format.
-    #[arg(long, value_enum, default_value_t = Format::Table)]
-    format: Format,
     #[command(flatten)]
-    input: RatingsArgs,
+    noise: NoiseArgs,
+    #[command(flatten)]
+    solver: SolverArgs,
+    #[command(flatten)]
+    inputs: FitInputs,
+    #[command(flatten)]
+    run: RunArgs,
+    #[command(flatten)]
+    output: OutputArgs,
 }
 
 /// One fit of the grid.
@@ -107,33 +83,33 @@ pub fn run(args: &TuneArgs) -> anyhow::Result<()> {
     if args.ranks.is_empty() || args.lambdas.is_empty() {
         return Err(UsageError("--ranks and --lambdas need at least one value each".into()).into());
     }
-    if !(args.holdout > 0.0 && args.holdout < 1.0) {
+    let holdout = args.solver.holdout;
+    if !(holdout > 0.0 && holdout < 1.0) {
         return Err(UsageError(format!(
-            "--holdout must be above 0 and below 1 to compare fits, not {}",
-            args.holdout
+            "--holdout must be above 0 and below 1 to compare fits, not {holdout}"
         ))
         .into());
     }
+    // The lists are checked here so the messages name --ranks and --lambdas; the rest
+    // (σ², tolerance, iterations) is named the same in fit and tune.
     for &rank in &args.ranks {
-        for &lambda in &args.lambdas {
-            options(args, rank, lambda).validate()?;
-        }
+        sextant::limits::check_rank(rank)
+            .map_err(|why| UsageError(format!("--ranks: every rank {why}")))?;
     }
-    let scale = args.input.scale()?;
-    let pool = thread_pool(args.threads)?;
+    if let Some(bad) = args.lambdas.iter().find(|l| !(l.is_finite() && **l >= 0.0)) {
+        return Err(UsageError(format!(
+            "--lambdas: every λ must be a finite number ≥ 0, not {bad}"
+        ))
+        .into());
+    }
+    options(args, args.ranks[0], args.lambdas[0]).validate()?;
+    let scale = args.inputs.columns.scale()?;
+    let pool = args.run.pool()?;
     pool.install(|| tune(args, scale))
 }
 
 fn options(args: &TuneArgs, rank: usize, lambda: f64) -> FitOptions {
-    FitOptions {
-        rank,
-        lambda,
-        sigma2: args.sigma2,
-        center: args.center.into(),
-        max_iters: args.max_iters,
-        tol: args.tol,
-        seed: args.seed,
-    }
+    args.solver.options(rank, lambda, args.noise.sigma2)
 }
 
 fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::Result<()> {
@@ -142,13 +118,13 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
         scale,
         inputs,
         meta,
-    } = prepare(&args.ratings, args.items.as_deref(), &args.input, scale)?;
-    assign_holdout(&mut ratings, args.holdout, args.seed);
+    } = prepare(&args.inputs, scale)?;
+    assign_holdout(&mut ratings, args.solver.holdout, args.solver.seed);
     let held = ratings.holdout_count();
     if held == 0 {
         return Err(UsageError(format!(
             "{}: no rating could be held out (every member has a single rating); tune needs held-out ratings",
-            args.ratings.display()
+            args.inputs.ratings.display()
         ))
         .into());
     }
@@ -157,7 +133,7 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
         .iter()
         .flat_map(|&r| args.lambdas.iter().map(move |&l| (r, l)))
         .collect();
-    let bar = (!args.quiet && std::io::stderr().is_terminal()).then(|| {
+    let bar = (!args.run.quiet && std::io::stderr().is_terminal()).then(|| {
         let bar = indicatif::ProgressBar::new(grid.len() as u64);
         bar.set_style(
             indicatif::ProgressStyle::with_template(
@@ -168,7 +144,7 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
         );
         bar
     });
-    if !args.quiet && bar.is_none() {
+    if !args.run.quiet && bar.is_none() {
         eprintln!(
             "tuning on {} ratings ({} held out): {} fits",
             output::group(ratings.entries.len()),
@@ -228,12 +204,12 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
                 iterations: 0,
                 converged: false,
                 seconds,
-                error: Some(e.to_string()),
+                error: Some(point_error(&e)),
             },
         };
         if let Some(bar) = &bar {
             bar.inc(1);
-        } else if !args.quiet {
+        } else if !args.run.quiet {
             eprintln!(
                 "fit {}/{}: rank {rank}, λ {lambda}: {} in {seconds:.2} s",
                 k + 1,
@@ -251,21 +227,15 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
     }
     let best_index = best.as_ref().map(|(k, _)| *k);
     let report = Report {
-        holdout: args.holdout,
+        holdout: args.solver.holdout,
         holdout_ratings: held,
         grid: &points,
         best: best_index.map(|k| &points[k]),
     };
-    let text = render(&report, best_index, args.format)?;
+    let text = render(&report, best_index, args.output.format)?;
     if let (Some(out), Some((k, result))) = (&args.out, best) {
         let (rank, lambda) = grid[k];
-        let run = RunOptions {
-            max_iters: args.max_iters,
-            tol: args.tol,
-            holdout: args.holdout,
-            duplicates: args.input.duplicates.into(),
-            init_items: None,
-        };
+        let run = args.solver.run_options(&args.inputs.columns, None);
         let provenance = Provenance {
             scale,
             inputs,
@@ -280,7 +250,7 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
         )
         .context("the best fit has no training ratings to evaluate")?;
         sextant::model::save_model(out, &model)?;
-        if !args.quiet {
+        if !args.run.quiet {
             eprintln!(
                 "wrote the best model (rank {rank}, λ {lambda}) to {}",
                 out.display()
@@ -291,7 +261,25 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
             UsageError("no fit of the grid succeeded, so no model was written".into()).into(),
         );
     }
-    output::print(&text, args.format)
+    output::print(&text, args.output.format)
+}
+
+/// Why one fit of the grid failed, in tune's terms (the grid is given with --ranks and
+/// --lambdas, so the advice the fit command gives for --rank and --lambda does not apply).
+fn point_error(e: &sextant::error::FitError) -> String {
+    match e {
+        sextant::error::FitError::Underdetermined {
+            rank,
+            short_users,
+            short_items,
+            ..
+        } => format!(
+            "λ = 0 needs at least {rank} training ratings per member and item, and \
+             {short_users} member(s) and {short_items} item(s) have fewer; include a λ above 0 \
+             in --lambdas"
+        ),
+        other => other.to_string(),
+    }
 }
 
 fn render(report: &Report<'_>, best: Option<usize>, format: Format) -> anyhow::Result<String> {
