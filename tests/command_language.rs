@@ -593,3 +593,38 @@ fn manual_pages_cover_every_command_and_flag() {
     let err = refused(&["man", "--out", &missing]);
     assert!(err.contains("not an existing folder"), "{err}");
 }
+
+#[test]
+fn import_advice_names_the_flag_that_fixes_it() {
+    let tmp = tempfile::tempdir().unwrap();
+    let model = repo("demo-data/model");
+    let text = std::fs::read_to_string(model.join("ratings.csv")).unwrap();
+    let ratings = tmp.path().join("theirs.csv");
+    std::fs::write(&ratings, text.replacen("user,", "member,", 1)).unwrap();
+    let path = |name: &str| model.join(name).display().to_string();
+    let out = tmp.path().join("m").display().to_string();
+    let args = [
+        "import",
+        "--ratings",
+        ratings.to_str().unwrap(),
+        "--user-vectors",
+        &path("users.csv"),
+        "--item-vectors",
+        &path("items.csv"),
+        "--center",
+        "none",
+        "--out",
+        &out,
+    ];
+    let err = refused(&args);
+    assert!(
+        err.contains("theirs.csv, line 1: missing column 'user'"),
+        "{err}"
+    );
+    assert!(err.contains("--user-col"), "{err}");
+    assert!(!err.contains("fit the model again"), "{err}");
+    // Following the advice works.
+    let mut fixed = args.to_vec();
+    fixed.extend(["--user-col", "member"]);
+    let _ = ok(&fixed);
+}

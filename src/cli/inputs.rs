@@ -121,6 +121,8 @@ impl RatingsArgs {
             scale,
             duplicates: self.duplicates.into(),
             known_ids_only,
+            // Files named on the command line: their columns are renamed with flags.
+            model_file: false,
         })
     }
 }

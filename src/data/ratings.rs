@@ -179,8 +179,11 @@ pub struct RatingsOptions {
     /// Policy for repeated (user, item) pairs.
     pub duplicates: Duplicates,
     /// When true, user and item ids must already be in the maps passed to
-    /// [`read_ratings_with_ids`] (used when loading a model directory).
+    /// [`read_ratings_with_ids`] (loading a model directory, importing vectors).
     pub known_ids_only: bool,
+    /// The ratings file of a model directory: no flag renames its columns, so a missing
+    /// one means the file is damaged (not that a flag is needed).
+    pub model_file: bool,
 }
 
 /// Loads a ratings CSV file.
@@ -231,7 +234,7 @@ pub fn read_ratings_with_ids(
     let cols = &options.columns;
     // In a model directory no flag renames a column: the file itself is wrong.
     let advice = |flag: &'static str| {
-        if options.known_ids_only {
+        if options.model_file {
             "the model directory's ratings file is damaged; fit the model again"
         } else {
             flag
@@ -241,7 +244,12 @@ pub fn read_ratings_with_ids(
     let item_col = find_column(&header, &cols.item, advice("--item-col"), path)?;
     let rating_col = find_column(&header, &cols.rating, advice("--rating-col"), path)?;
     let split_col = match &cols.split {
-        Some(name) => Some(find_column(&header, name, advice("--split-col"), path)?),
+        Some(name) => Some(find_column(
+            &header,
+            name,
+            advice("a split column marks each rating train or holdout"),
+            path,
+        )?),
         None => None,
     };
     let mut loader = Loader {

@@ -151,6 +151,7 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
             ..RatingColumns::default()
         },
         known_ids_only: true,
+        model_file: true,
         ..RatingsOptions::default()
     };
     let fast = files.ratings_bin.as_deref().and_then(|bin| {
