@@ -77,6 +77,89 @@ fn each_half_step_equals_scikit_learn_ridge_and_numpy_solve() {
     }
 }
 
+/// Values of a per-row vector (one entry per id) in the fixture's id order.
+fn by_id(names: &sextant::data::IdMap, values: &[f64], prefix: &str) -> Vec<f64> {
+    vectors_by_id(names, values, 1, prefix)
+}
+
+#[test]
+fn biased_half_steps_equal_numpy_solve_and_rescaled_scikit_learn_ridge() {
+    // Source: numpy.linalg.solve on each augmented system [v_j, 1] with penalty
+    // diag(λσ², …, λσ², λ_bσ²), for 1–5 iterations from the same start; and scikit-learn
+    // Ridge(alpha=λσ², fit_intercept=False) on the first member step with the bias feature
+    // scaled to s = √(λ/λ_b), so its single penalty equals ours (b = s·w'; the algebra is
+    // in tests/reference/make_fixtures.py). Fixture: biased_steps.json.
+    let fixture = fixture("biased_steps.json");
+    let mut worst = 0.0f64;
+    for case in fixture["cases"].as_array().unwrap() {
+        let rank = case["rank"].as_u64().unwrap() as usize;
+        let ratings = ratings_from(&case["ratings"]);
+        let (init, _) = matrix(&case["items_init"]);
+        let init = table("i", init, rank);
+        let options = FitOptions {
+            rank,
+            lambda: case["lambda"].as_f64().unwrap(),
+            sigma2: case["sigma2"].as_f64().unwrap(),
+            center: Center::Global,
+            ..FitOptions::default()
+        };
+        let mut fitter = Fitter::new(&ratings, &options, Some((&init, Path::new("init.csv"))))
+            .unwrap()
+            .with_biases(case["lambda_bias"].as_f64().unwrap())
+            .unwrap();
+        assert!((fitter.model().mu - case["mu"].as_f64().unwrap()).abs() < 1e-12);
+        let mut log_joint = fitter.log_joint();
+        for step in 0..case["iterations"].as_u64().unwrap() {
+            fitter.update_users().unwrap();
+            if step == 0 {
+                let users = vectors_by_id(&ratings.users, &fitter.model().users, rank, "u");
+                let bias = by_id(&ratings.users, &fitter.biases().unwrap().user, "u");
+                let (expected, width) = matrix(&case["first_user_step_sklearn"]);
+                assert_eq!(width, rank + 1);
+                let vectors: Vec<f64> = expected
+                    .chunks_exact(width)
+                    .flat_map(|row| row[..rank].to_vec())
+                    .collect();
+                let offsets: Vec<f64> = expected.chunks_exact(width).map(|row| row[rank]).collect();
+                worst = worst
+                    .max(max_rel_diff(&users, &vectors))
+                    .max(max_rel_diff(&bias, &offsets));
+            }
+            let after_users = fitter.log_joint();
+            fitter.update_items().unwrap();
+            let after_items = fitter.log_joint();
+            assert!(
+                after_users >= log_joint - 1e-9 * log_joint.abs()
+                    && after_items >= after_users - 1e-9 * after_users.abs(),
+                "L fell: {log_joint} → {after_users} → {after_items}"
+            );
+            log_joint = after_items;
+        }
+        let biases = fitter.biases().unwrap();
+        let m = fitter.model();
+        for (actual, key) in [
+            (vectors_by_id(&ratings.users, &m.users, rank, "u"), "users"),
+            (vectors_by_id(&ratings.items, &m.items, rank, "i"), "items"),
+            (by_id(&ratings.users, &biases.user, "u"), "user_bias"),
+            (by_id(&ratings.items, &biases.item, "i"), "item_bias"),
+        ] {
+            let expected = if key.ends_with("bias") {
+                floats(&case[key])
+            } else {
+                matrix(&case[key]).0
+            };
+            let diff = max_rel_diff(&actual, &expected);
+            assert!(
+                diff < 1e-10,
+                "{key} after {} iteration(s): {diff:e}",
+                case["iterations"]
+            );
+            worst = worst.max(diff);
+        }
+    }
+    eprintln!("biased steps: largest relative difference from numpy/scikit-learn {worst:e}");
+}
+
 fn singular_values(m: &DMatrix<f64>) -> Vec<f64> {
     let mut s: Vec<f64> = m.singular_values().iter().copied().collect();
     s.sort_by(|a, b| b.total_cmp(a));

@@ -9,7 +9,7 @@ use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use super::kernels::{BATCH, LOOKAHEAD};
-use super::solve::RidgeWorkspace;
+use super::solve::{Ridge, RidgeWorkspace};
 use super::{FactorModel, dot, squared_norm};
 use crate::data::ids::first_few;
 use crate::data::{FactorTable, Ratings};
@@ -131,11 +131,25 @@ pub struct IterationRecord {
     pub holdout_rmse: Option<f64>,
 }
 
+/// Per-member and per-item offsets fitted beside the vectors: the model becomes
+/// `M_ij ~ N(μ + b_i + c_j + u_i·v_j, σ²)` with `b, c ~ N(0, λ_b⁻¹)`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Biases {
+    /// `b_i`, one per member.
+    pub user: Vec<f64>,
+    /// `c_j`, one per item.
+    pub item: Vec<f64>,
+    /// Their prior precision λ_b.
+    pub lambda: f64,
+}
+
 /// What a fit produces.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitResult {
     /// The fitted vectors.
     pub factors: FactorModel,
+    /// The fitted offsets, for a fit with biases.
+    pub biases: Option<Biases>,
     /// One record per iteration.
     pub trace: Vec<IterationRecord>,
     /// True when the tolerance was reached before the iteration limit.
@@ -203,6 +217,22 @@ pub struct Fitter<'a> {
     by_item: Compressed,
     holdout: Vec<(u32, u32, f64)>,
     model: FactorModel,
+    biased: Option<Biased>,
+}
+
+/// The state of a fit with biases. Each side's vectors are kept with a constant 1 appended
+/// (width D + 1): as regressors they carry the other side's offset into its solve, so a
+/// member's `(u_i, b_i)` is one ridge regression on features `[v_j, 1]` with target
+/// `M_ij − μ − c_j` and penalty `diag(λσ², …, λσ², λ_bσ²)`, solved exactly; as the output
+/// buffer they receive `(u_i, b_i)`, whose last entry is then moved to the offsets.
+struct Biased {
+    biases: Biases,
+    users: Vec<f64>,
+    items: Vec<f64>,
+    /// The rows of each side with targets `M − μ` minus the other side's offsets,
+    /// rewritten before each half-step.
+    by_user: Compressed,
+    by_item: Compressed,
 }
 
 impl<'a> Fitter<'a> {
@@ -260,6 +290,49 @@ impl<'a> Fitter<'a> {
             by_item,
             holdout,
             model,
+            biased: None,
+        })
+    }
+
+    /// Fits a member offset `b_i` and an item offset `c_j` beside the vectors, with prior
+    /// precision `lambda_bias` (offsets start at 0). Coordinate ascent stays exact and
+    /// monotone: each half-step solves every `(u_i, b_i)` (or `(v_j, c_j)`) jointly.
+    pub fn with_biases(mut self, lambda_bias: f64) -> Result<Self, FitError> {
+        if !(lambda_bias.is_finite() && lambda_bias >= 0.0) {
+            return Err(FitError::Option(format!(
+                "--lambda-bias must be a finite number ≥ 0, not {lambda_bias}"
+            )));
+        }
+        let d = self.model.rank;
+        let with_one = |vectors: &[f64]| -> Vec<f64> {
+            vectors
+                .chunks_exact(d)
+                .flat_map(|v| v.iter().copied().chain([1.0]))
+                .collect()
+        };
+        self.biased = Some(Biased {
+            biases: Biases {
+                user: vec![0.0; self.by_user.rows()],
+                item: vec![0.0; self.by_item.rows()],
+                lambda: lambda_bias,
+            },
+            users: with_one(&self.model.users),
+            items: with_one(&self.model.items),
+            by_user: self.by_user.clone(),
+            by_item: self.by_item.clone(),
+        });
+        Ok(self)
+    }
+
+    /// The fitted offsets so far, for a fit with biases.
+    pub fn biases(&self) -> Option<&Biases> {
+        self.biased.as_ref().map(|b| &b.biases)
+    }
+
+    /// `b_i + c_j` (0 without biases).
+    fn offset(&self, i: u32, j: u32) -> f64 {
+        self.biased.as_ref().map_or(0.0, |b| {
+            b.biases.user[i as usize] + b.biases.item[j as usize]
         })
     }
 
@@ -271,6 +344,24 @@ impl<'a> Fitter<'a> {
     /// Updates every user vector (one ridge solve each) for the current item vectors.
     pub fn update_users(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
+        if let Some(b) = &mut self.biased {
+            let failed = biased_half_step(
+                &self.by_user,
+                &mut b.by_user,
+                &b.biases.item,
+                &mut b.users,
+                &b.items,
+                &mut b.biases.user,
+                &mut self.model.users,
+                Ridge::LastDiffers {
+                    rest: ridge,
+                    last: b.biases.lambda * self.options.sigma2,
+                },
+            );
+            return failed.map_or(Ok(()), |i| {
+                Err(self.not_positive_definite("user", self.ratings.users.name(i)))
+            });
+        }
         let failed = solve_side(
             &mut self.model.users,
             &self.model.items,
@@ -286,6 +377,24 @@ impl<'a> Fitter<'a> {
     /// Updates every item vector for the current user vectors.
     pub fn update_items(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
+        if let Some(b) = &mut self.biased {
+            let failed = biased_half_step(
+                &self.by_item,
+                &mut b.by_item,
+                &b.biases.user,
+                &mut b.items,
+                &b.users,
+                &mut b.biases.item,
+                &mut self.model.items,
+                Ridge::LastDiffers {
+                    rest: ridge,
+                    last: b.biases.lambda * self.options.sigma2,
+                },
+            );
+            return failed.map_or(Ok(()), |j| {
+                Err(self.not_positive_definite("item", self.ratings.items.name(j)))
+            });
+        }
         let failed = solve_side(
             &mut self.model.items,
             &self.model.users,
@@ -323,7 +432,7 @@ impl<'a> Fitter<'a> {
                 items
                     .iter()
                     .zip(targets)
-                    .map(|(&j, &y)| (y - dot(u, m.item(j))).powi(2))
+                    .map(|(&j, &y)| (y - self.offset(i as u32, j) - dot(u, m.item(j))).powi(2))
                     .sum::<f64>()
             })
             .collect();
@@ -339,7 +448,7 @@ impl<'a> Fitter<'a> {
             .holdout
             .par_iter()
             .with_min_len(1024)
-            .map(|&(i, j, y)| (y - m.predict(i, j)).powi(2))
+            .map(|&(i, j, y)| (y - m.predict(i, j) - self.offset(i, j)).powi(2))
             .collect();
         Some((squares.iter().sum::<f64>() / squares.len() as f64).sqrt())
     }
@@ -353,7 +462,13 @@ impl<'a> Fitter<'a> {
         let m = &self.model;
         let norms: f64 = m.users.chunks_exact(m.rank).map(squared_norm).sum::<f64>()
             + m.items.chunks_exact(m.rank).map(squared_norm).sum::<f64>();
-        -sse / (2.0 * self.options.sigma2) - self.options.lambda / 2.0 * norms
+        let offsets = self.biased.as_ref().map_or(0.0, |b| {
+            let b = &b.biases;
+            b.lambda / 2.0
+                * (b.user.iter().map(|x| x * x).sum::<f64>()
+                    + b.item.iter().map(|x| x * x).sum::<f64>())
+        });
+        -sse / (2.0 * self.options.sigma2) - self.options.lambda / 2.0 * norms - offsets
     }
 
     /// One full iteration (users, then items) and its record.
@@ -391,6 +506,7 @@ impl<'a> Fitter<'a> {
         }
         Ok(FitResult {
             factors: self.model,
+            biases: self.biased.map(|b| b.biases),
             trace,
             converged,
         })
@@ -425,8 +541,9 @@ fn solve_side(
     other: &[f64],
     rows: &Compressed,
     d: usize,
-    ridge: f64,
+    ridge: impl Into<Ridge>,
 ) -> Option<u32> {
+    let ridge = ridge.into();
     let failures: Vec<u32> = out
         .par_chunks_mut(d * BATCH)
         .enumerate()
@@ -448,6 +565,43 @@ fn solve_side(
         .flatten()
         .collect();
     failures.first().copied()
+}
+
+/// One half-step of a fit with biases: rewrites the targets `M − μ` of `rows` minus the
+/// other side's offsets into `offset_rows`, solves every `(vector, offset)` of this side
+/// against the other side's `[vector, 1]` rows, then moves each offset out of `augmented`
+/// (leaving the 1 there for the next half-step) and copies each vector into `plain`.
+#[allow(clippy::too_many_arguments)]
+fn biased_half_step(
+    rows: &Compressed,
+    offset_rows: &mut Compressed,
+    other_offsets: &[f64],
+    augmented: &mut [f64],
+    other_augmented: &[f64],
+    offsets: &mut [f64],
+    plain: &mut [f64],
+    ridge: Ridge,
+) -> Option<u32> {
+    offset_rows
+        .targets
+        .par_iter_mut()
+        .with_min_len(4096)
+        .zip(rows.targets.par_iter().zip(&rows.columns))
+        .for_each(|(t, (&y, &c))| *t = y - other_offsets[c as usize]);
+    let wide = offsets.len().max(1);
+    let d1 = augmented.len() / wide;
+    let failed = solve_side(augmented, other_augmented, offset_rows, d1, ridge);
+    let d = d1 - 1;
+    for ((row, offset), vector) in augmented
+        .chunks_exact_mut(d1)
+        .zip(offsets.iter_mut())
+        .zip(plain.chunks_exact_mut(d))
+    {
+        *offset = row[d];
+        row[d] = 1.0;
+        vector.copy_from_slice(&row[..d]);
+    }
+    failed
 }
 
 fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {

@@ -26,6 +26,53 @@ pub struct RidgeWorkspace {
     diagonal: Vec<LaneVector>,
 }
 
+/// The ridge term added to the diagonal of the normal equations: the same for every
+/// coordinate, or a different one for the last coordinate (a bias fitted beside the
+/// factors, whose prior precision λ_b may differ from the factors' λ).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Ridge {
+    /// `ridge·I`.
+    Uniform(f64),
+    /// `diag(rest, …, rest, last)`.
+    LastDiffers {
+        /// Added to every coordinate but the last.
+        rest: f64,
+        /// Added to the last coordinate.
+        last: f64,
+    },
+}
+
+impl Ridge {
+    /// The term added to coordinate `k` of a system of width `d`.
+    fn at(self, k: usize, d: usize) -> f64 {
+        match self {
+            Self::Uniform(r) => r,
+            Self::LastDiffers { rest, last } => {
+                if k + 1 == d {
+                    last
+                } else {
+                    rest
+                }
+            }
+        }
+    }
+
+    /// Whether some coordinate has no ridge (then the solve checks pivots against the
+    /// original diagonal to detect rank deficiency).
+    fn has_zero(self) -> bool {
+        match self {
+            Self::Uniform(r) => r == 0.0,
+            Self::LastDiffers { rest, last } => rest == 0.0 || last == 0.0,
+        }
+    }
+}
+
+impl From<f64> for Ridge {
+    fn from(r: f64) -> Self {
+        Self::Uniform(r)
+    }
+}
+
 /// The normal equations were not positive definite (only possible with no ridge term or
 /// non-finite input).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -62,7 +109,7 @@ impl RidgeWorkspace {
         table: &[f64],
         rows: &[u32],
         targets: &[f64],
-        ridge: f64,
+        ridge: impl Into<Ridge>,
         out: &mut [f64],
     ) -> Result<(), NotPositiveDefinite> {
         if self.solve_batch(table, &[(rows, targets)], ridge, out)[0] {
@@ -79,9 +126,10 @@ impl RidgeWorkspace {
         &mut self,
         table: &[f64],
         problems: &[Problem<'_>],
-        ridge: f64,
+        ridge: impl Into<Ridge>,
         out: &mut [f64],
     ) -> [bool; BATCH] {
+        let ridge = ridge.into();
         assert!(
             problems.len() <= BATCH,
             "at most {BATCH} problems per batch"
@@ -102,7 +150,7 @@ impl RidgeWorkspace {
             &mut self.lanes,
             &mut self.lane_rhs,
         );
-        let diagonal = (ridge == 0.0).then(|| {
+        let diagonal = ridge.has_zero().then(|| {
             self.diagonal.clear();
             let ls = round_up(d, COLUMN_BLOCK);
             self.diagonal.extend((0..d).map(|k| self.lanes[k * ls + k]));
@@ -121,13 +169,20 @@ impl RidgeWorkspace {
     }
 
     /// Builds the normal equations of one problem in the buffers of lane `lane`.
-    fn load_lane(&mut self, lane: usize, table: &[f64], rows: &[u32], targets: &[f64], ridge: f64) {
+    fn load_lane(
+        &mut self,
+        lane: usize,
+        table: &[f64],
+        rows: &[u32],
+        targets: &[f64],
+        ridge: Ridge,
+    ) {
         let (d, s) = (self.rank, self.stride);
         debug_assert!(rows.len() >= targets.len());
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
         normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
         for k in 0..d {
-            self.gram[lane][k * s + k] += ridge;
+            self.gram[lane][k * s + k] += ridge.at(k, d);
         }
     }
 

@@ -78,6 +78,76 @@ def ridge_half_steps(seed, n_users, n_items, rank, lam, sigma2, density, center)
     }
 
 
+def biased_steps(seed, n_users, n_items, rank, lam, lam_b, sigma2, density, iterations):
+    """Coordinate ascent with member and item offsets, each half-step by numpy.linalg.solve.
+
+    Model: M_ij ~ N(mu + b_i + c_j + u_i.v_j, sigma2), u, v ~ N(0, 1/lam), b, c ~ N(0, 1/lam_b).
+    The member step solves (u_i, b_i) jointly: features [v_j, 1], target M_ij - mu - c_j,
+    penalty diag(lam*sigma2, ..., lam*sigma2, lam_b*sigma2). The item step likewise with
+    features [u_i, 1] and target M_ij - mu - b_i. Offsets start at 0, items at v0.
+
+    The first member step is also computed with scikit-learn's Ridge, whose penalty is one
+    alpha for every coefficient: with the bias feature scaled to s = sqrt(lam / lam_b) and
+    alpha = lam*sigma2, the coefficient w' of that feature is penalised alpha*w'^2 =
+    lam*sigma2*w'^2, and the fitted value s*w' = b carries alpha*(b/s)^2 = lam_b*sigma2*b^2:
+    the same problem, so b = s*w'.
+    """
+    rng = np.random.default_rng(seed)
+    mask = rng.random((n_users, n_items)) < density
+    for i in range(n_users):
+        mask[i, rng.permutation(n_items)[: rank + 2]] = True
+    for j in range(n_items):
+        mask[rng.permutation(n_users)[: rank + 2], j] = True
+    values = rng.integers(1, 6, size=(n_users, n_items)).astype(float)
+    v = rng.normal(size=(n_items, rank))
+    v0 = v.copy()
+    mu = values[mask].mean()
+    penalty = np.diag([lam * sigma2] * rank + [lam_b * sigma2])
+    u = np.zeros((n_users, rank))
+    b = np.zeros(n_users)
+    c = np.zeros(n_items)
+    sklearn_first = None
+    for step in range(iterations):
+        for i in range(n_users):
+            cols = np.flatnonzero(mask[i])
+            x = np.hstack([v[cols], np.ones((len(cols), 1))])
+            y = values[i, cols] - mu - c[cols]
+            w = np.linalg.solve(x.T @ x + penalty, x.T @ y)
+            u[i], b[i] = w[:rank], w[rank]
+        if step == 0:
+            s = math.sqrt(lam / lam_b)
+            sklearn_first = []
+            for i in range(n_users):
+                cols = np.flatnonzero(mask[i])
+                x = np.hstack([v0[cols], np.full((len(cols), 1), s)])
+                y = values[i, cols] - mu
+                coef = Ridge(alpha=lam * sigma2, fit_intercept=False, solver="cholesky").fit(x, y).coef_
+                sklearn_first.append(list(coef[:rank]) + [s * coef[rank]])
+        for j in range(n_items):
+            rows = np.flatnonzero(mask[:, j])
+            x = np.hstack([u[rows], np.ones((len(rows), 1))])
+            y = values[rows, j] - mu - b[rows]
+            w = np.linalg.solve(x.T @ x + penalty, x.T @ y)
+            v[j], c[j] = w[:rank], w[rank]
+    ratings = [[f"u{i}", f"i{j}", values[i, j]] for i in range(n_users) for j in range(n_items) if mask[i, j]]
+    return {
+        "source": "numpy.linalg.solve on each augmented ridge system; scikit-learn Ridge with a rescaled bias feature for the first member step",
+        "rank": rank,
+        "lambda": lam,
+        "lambda_bias": lam_b,
+        "sigma2": sigma2,
+        "iterations": iterations,
+        "mu": mu,
+        "ratings": ratings,
+        "items_init": v0.tolist(),
+        "first_user_step_sklearn": sklearn_first,
+        "users": u.tolist(),
+        "user_bias": b.tolist(),
+        "items": v.tolist(),
+        "item_bias": c.tolist(),
+    }
+
+
 def soft_threshold_svd(seed, n_users, n_items, rank, lam):
     """A fully observed matrix: the MAP fit's product UV' has singular values
     max(s_i - lam*sigma2, 0) (sigma2 = 1) and its item subspace is the top right singular
@@ -213,6 +283,13 @@ def build():
                 ridge_half_steps(2, 15, 11, 4, 2.0, 0.5, 0.4, False),
                 ridge_half_steps(3, 10, 8, 2, 0.0, 1.0, 0.6, True),
                 ridge_half_steps(4, 30, 20, 10, 1.0, 1.0, 0.7, True),
+            ]
+        },
+        "biased_steps.json": {
+            "cases": [
+                biased_steps(21, 14, 10, 3, 0.8, 0.3, 1.2, 0.5, 1),
+                biased_steps(22, 25, 18, 4, 1.0, 1.0, 1.0, 0.4, 5),
+                biased_steps(23, 20, 15, 2, 2.0, 5.0, 0.7, 0.6, 3),
             ]
         },
         "soft_threshold_svd.json": soft_threshold_svd(11, 40, 30, 3, 1.5),
