@@ -134,6 +134,9 @@ fn median(mut times: Vec<f64>) -> f64 {
 
 struct Measured {
     rust: f64,
+    /// The same iteration with member and item offsets (`Fitter::with_biases`), timed
+    /// alternately with the plain one.
+    biased: f64,
     numpy: f64,
     peak: f64,
     flops: f64,
@@ -162,7 +165,11 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
     };
     let mut fitter =
         Fitter::new(ratings, &options, Some((&table, Path::new("init")))).expect("fitter");
+    let mut biased_fitter = Fitter::new(ratings, &options, Some((&table, Path::new("init"))))
+        .and_then(|f| f.with_biases(options.lambda))
+        .expect("biased fitter");
     let mut times = Vec::new();
+    let mut biased_times = Vec::new();
     let mut split = (0.0, 0.0);
     for _ in 0..reps {
         let start = Instant::now();
@@ -172,7 +179,12 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
         times.push(start.elapsed().as_secs_f64());
         split.0 += (middle - start).as_secs_f64() / reps as f64;
         split.1 += middle.elapsed().as_secs_f64() / reps as f64;
+        let start = Instant::now();
+        biased_fitter.update_users().expect("users");
+        biased_fitter.update_items().expect("items");
+        biased_times.push(start.elapsed().as_secs_f64());
     }
+    let biased = median(biased_times);
     if rust_only {
         eprintln!(
             "rank {rank}: users {:.4} s, items {:.4} s (means)",
@@ -182,6 +194,7 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
     if rust_only {
         return Measured {
             rust: median(times),
+            biased,
             numpy: f64::NAN,
             peak: f64::NAN,
             flops: gram_and_cholesky_flops(ratings, rank),
@@ -213,6 +226,7 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
         .fold(0.0, f64::max);
     Measured {
         rust: median(times),
+        biased,
         numpy: report["seconds"].as_f64().expect("seconds"),
         peak: report["peak_gflops"].as_f64().expect("peak"),
         flops: gram_and_cholesky_flops(ratings, rank),
@@ -282,6 +296,12 @@ fn main() {
             m.peak,
             sizes.reps,
             m.max_difference
+        );
+        let _ = writeln!(
+            report,
+            "rank {rank:>2}: with member and item biases {:.4} s -> {:+.1}% per iteration",
+            m.biased,
+            100.0 * (m.biased / m.rust - 1.0)
         );
     }
     let _ = std::fs::remove_dir_all(&dir);

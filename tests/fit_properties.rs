@@ -140,6 +140,32 @@ fn results_are_bit_identical_whatever_the_thread_count() {
         assert_eq!(one.factors.items, other.factors.items, "{threads} threads");
         assert_eq!(one.trace, other.trace, "{threads} threads");
     }
+    // With member and item offsets too; and L never falls.
+    let biased = |threads: usize| {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        pool.install(|| {
+            sextant::model::Fitter::new(&ratings, &options, None)
+                .and_then(|f| f.with_biases(0.5))
+                .and_then(|f| f.run(|_| {}))
+                .unwrap()
+        })
+    };
+    let one = biased(1);
+    assert!(
+        one.trace
+            .windows(2)
+            .all(|w| w[1].log_joint >= w[0].log_joint - 1e-9 * w[0].log_joint.abs()),
+        "L fell with biases"
+    );
+    for threads in [2, 3] {
+        let other = biased(threads);
+        assert_eq!(one.factors.users, other.factors.users, "{threads} threads");
+        assert_eq!(one.biases, other.biases, "{threads} threads");
+        assert_eq!(one.trace, other.trace, "{threads} threads");
+    }
 }
 
 /// A planted rank-`rank` matrix plus Gaussian noise, sampled at `fraction` of its entries.

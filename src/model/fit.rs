@@ -9,7 +9,7 @@ use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use super::kernels::{BATCH, LOOKAHEAD};
-use super::solve::{Ridge, RidgeWorkspace};
+use super::solve::RidgeWorkspace;
 use super::{FactorModel, dot, squared_norm};
 use crate::data::ids::first_few;
 use crate::data::{FactorTable, Ratings};
@@ -220,19 +220,17 @@ pub struct Fitter<'a> {
     biased: Option<Biased>,
 }
 
-/// The state of a fit with biases. Each side's vectors are kept with a constant 1 appended
-/// (width D + 1): as regressors they carry the other side's offset into its solve, so a
-/// member's `(u_i, b_i)` is one ridge regression on features `[v_j, 1]` with target
-/// `M_ij − μ − c_j` and penalty `diag(λσ², …, λσ², λ_bσ²)`, solved exactly; as the output
-/// buffer they receive `(u_i, b_i)`, whose last entry is then moved to the offsets.
+/// The state of a fit with biases. A member's `(u_i, b_i)` is one ridge regression on
+/// features `[v_j, 1]` with target `M_ij − μ − c_j` and penalty
+/// `diag(λσ², …, λσ², λ_bσ²)`, solved exactly
+/// ([`RidgeWorkspace::solve_batch_with_offsets`]); an item's `(v_j, c_j)` likewise.
 struct Biased {
     biases: Biases,
-    users: Vec<f64>,
-    items: Vec<f64>,
-    /// The rows of each side with targets `M − μ` minus the other side's offsets,
-    /// rewritten before each half-step.
-    by_user: Compressed,
-    by_item: Compressed,
+    /// Targets `M − μ` minus the other side's offsets, in the layout of `by_user` and
+    /// `by_item`, rewritten before each half-step (a streaming pass: cheaper than reading
+    /// an offset beside every row inside the solves).
+    user_targets: Vec<f64>,
+    item_targets: Vec<f64>,
 }
 
 impl<'a> Fitter<'a> {
@@ -303,23 +301,14 @@ impl<'a> Fitter<'a> {
                 "--lambda-bias must be a finite number ≥ 0, not {lambda_bias}"
             )));
         }
-        let d = self.model.rank;
-        let with_one = |vectors: &[f64]| -> Vec<f64> {
-            vectors
-                .chunks_exact(d)
-                .flat_map(|v| v.iter().copied().chain([1.0]))
-                .collect()
-        };
         self.biased = Some(Biased {
             biases: Biases {
                 user: vec![0.0; self.by_user.rows()],
                 item: vec![0.0; self.by_item.rows()],
                 lambda: lambda_bias,
             },
-            users: with_one(&self.model.users),
-            items: with_one(&self.model.items),
-            by_user: self.by_user.clone(),
-            by_item: self.by_item.clone(),
+            user_targets: self.by_user.targets.clone(),
+            item_targets: self.by_item.targets.clone(),
         });
         Ok(self)
     }
@@ -347,16 +336,12 @@ impl<'a> Fitter<'a> {
         if let Some(b) = &mut self.biased {
             let failed = biased_half_step(
                 &self.by_user,
-                &mut b.by_user,
+                &mut b.user_targets,
                 &b.biases.item,
-                &mut b.users,
-                &b.items,
-                &mut b.biases.user,
-                &mut self.model.users,
-                Ridge::LastDiffers {
-                    rest: ridge,
-                    last: b.biases.lambda * self.options.sigma2,
-                },
+                (&mut self.model.users, &mut b.biases.user),
+                &self.model.items,
+                self.model.rank,
+                (ridge, b.biases.lambda * self.options.sigma2),
             );
             return failed.map_or(Ok(()), |i| {
                 Err(self.not_positive_definite("user", self.ratings.users.name(i)))
@@ -380,16 +365,12 @@ impl<'a> Fitter<'a> {
         if let Some(b) = &mut self.biased {
             let failed = biased_half_step(
                 &self.by_item,
-                &mut b.by_item,
+                &mut b.item_targets,
                 &b.biases.user,
-                &mut b.items,
-                &b.users,
-                &mut b.biases.item,
-                &mut self.model.items,
-                Ridge::LastDiffers {
-                    rest: ridge,
-                    last: b.biases.lambda * self.options.sigma2,
-                },
+                (&mut self.model.items, &mut b.biases.item),
+                &self.model.users,
+                self.model.rank,
+                (ridge, b.biases.lambda * self.options.sigma2),
             );
             return failed.map_or(Ok(()), |j| {
                 Err(self.not_positive_definite("item", self.ratings.items.name(j)))
@@ -541,9 +522,8 @@ fn solve_side(
     other: &[f64],
     rows: &Compressed,
     d: usize,
-    ridge: impl Into<Ridge>,
+    ridge: f64,
 ) -> Option<u32> {
-    let ridge = ridge.into();
     let failures: Vec<u32> = out
         .par_chunks_mut(d * BATCH)
         .enumerate()
@@ -567,41 +547,60 @@ fn solve_side(
     failures.first().copied()
 }
 
-/// One half-step of a fit with biases: rewrites the targets `M − μ` of `rows` minus the
-/// other side's offsets into `offset_rows`, solves every `(vector, offset)` of this side
-/// against the other side's `[vector, 1]` rows, then moves each offset out of `augmented`
-/// (leaving the 1 there for the next half-step) and copies each vector into `plain`.
+/// One half-step of a fit with biases: writes the targets `M − μ` of `rows` minus the
+/// other side's offsets into `targets`, then solves every `(vector, offset)` of this side
+/// (`side`: its vectors and offsets) against the other side's vectors; `ridges` are λσ² and λ_bσ². Returns the first row
+/// that failed.
 #[allow(clippy::too_many_arguments)]
 fn biased_half_step(
     rows: &Compressed,
-    offset_rows: &mut Compressed,
+    targets: &mut [f64],
     other_offsets: &[f64],
-    augmented: &mut [f64],
-    other_augmented: &[f64],
-    offsets: &mut [f64],
-    plain: &mut [f64],
-    ridge: Ridge,
+    side: (&mut [f64], &mut [f64]),
+    other: &[f64],
+    d: usize,
+    ridges: (f64, f64),
 ) -> Option<u32> {
-    offset_rows
-        .targets
+    targets
         .par_iter_mut()
         .with_min_len(4096)
         .zip(rows.targets.par_iter().zip(&rows.columns))
         .for_each(|(t, (&y, &c))| *t = y - other_offsets[c as usize]);
-    let wide = offsets.len().max(1);
-    let d1 = augmented.len() / wide;
-    let failed = solve_side(augmented, other_augmented, offset_rows, d1, ridge);
-    let d = d1 - 1;
-    for ((row, offset), vector) in augmented
-        .chunks_exact_mut(d1)
-        .zip(offsets.iter_mut())
-        .zip(plain.chunks_exact_mut(d))
-    {
-        *offset = row[d];
-        row[d] = 1.0;
-        vector.copy_from_slice(&row[..d]);
-    }
-    failed
+    let targets = &*targets;
+    let (vectors, offsets) = side;
+    let failures: Vec<u32> = vectors
+        .par_chunks_mut(d * BATCH)
+        .zip(offsets.par_chunks_mut(BATCH))
+        .enumerate()
+        .with_min_len(16)
+        .map_init(
+            || RidgeWorkspace::new(d),
+            |ws, (batch, (vectors, offsets))| {
+                let first = batch * BATCH;
+                let count = offsets.len();
+                let empty: (&[u32], &[f64]) = (&[], &[]);
+                let mut problems = [empty; BATCH];
+                for (k, problem) in problems.iter_mut().enumerate().take(count) {
+                    let (columns, _) = rows.row_and_ahead(first + k);
+                    *problem = (
+                        columns,
+                        &targets[rows.start[first + k]..rows.start[first + k + 1]],
+                    );
+                }
+                let ok = ws.solve_batch_with_offsets(
+                    other,
+                    &problems[..count],
+                    ridges.0,
+                    ridges.1,
+                    vectors,
+                    offsets,
+                );
+                (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
+            },
+        )
+        .flatten()
+        .collect();
+    failures.first().copied()
 }
 
 fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {

@@ -29,7 +29,7 @@ pub mod store;
 pub use build::Provenance;
 pub use dir::{load_model, save_model};
 pub use fit::{Center, FitOptions, FitResult, Fitter, IterationRecord, fit};
-pub use solve::{Ridge, RidgeWorkspace};
+pub use solve::RidgeWorkspace;
 pub use store::Model;
 
 /// Fitted (or imported) vectors: one row per user and per item, row-major.

@@ -24,53 +24,11 @@ pub struct RidgeWorkspace {
     lanes: Vec<LaneVector>,
     lane_rhs: Vec<LaneVector>,
     diagonal: Vec<LaneVector>,
-}
-
-/// The ridge term added to the diagonal of the normal equations: the same for every
-/// coordinate, or a different one for the last coordinate (a bias fitted beside the
-/// factors, whose prior precision λ_b may differ from the factors' λ).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum Ridge {
-    /// `ridge·I`.
-    Uniform(f64),
-    /// `diag(rest, …, rest, last)`.
-    LastDiffers {
-        /// Added to every coordinate but the last.
-        rest: f64,
-        /// Added to the last coordinate.
-        last: f64,
-    },
-}
-
-impl Ridge {
-    /// The term added to coordinate `k` of a system of width `d`.
-    fn at(self, k: usize, d: usize) -> f64 {
-        match self {
-            Self::Uniform(r) => r,
-            Self::LastDiffers { rest, last } => {
-                if k + 1 == d {
-                    last
-                } else {
-                    rest
-                }
-            }
-        }
-    }
-
-    /// Whether some coordinate has no ridge (then the solve checks pivots against the
-    /// original diagonal to detect rank deficiency).
-    fn has_zero(self) -> bool {
-        match self {
-            Self::Uniform(r) => r == 0.0,
-            Self::LastDiffers { rest, last } => rest == 0.0 || last == 0.0,
-        }
-    }
-}
-
-impl From<f64> for Ridge {
-    fn from(r: f64) -> Self {
-        Self::Uniform(r)
-    }
+    /// Per lane, for a problem with an offset: the sum of its rows `s`, the sum of its
+    /// targets `t` and `n + ρ_b` (see [`RidgeWorkspace::solve_batch_with_offsets`]).
+    sums: [Vec<f64>; BATCH],
+    totals: [f64; BATCH],
+    denominators: [f64; BATCH],
 }
 
 /// The normal equations were not positive definite (only possible with no ridge term or
@@ -96,6 +54,9 @@ impl RidgeWorkspace {
             lanes: vec![LaneVector::ZERO; rank * round_up(rank, COLUMN_BLOCK)],
             lane_rhs: vec![LaneVector::ZERO; rank],
             diagonal: vec![LaneVector::ZERO; rank],
+            sums: std::array::from_fn(|_| vec![0.0; rank]),
+            totals: [0.0; BATCH],
+            denominators: [0.0; BATCH],
         }
     }
 
@@ -109,7 +70,7 @@ impl RidgeWorkspace {
         table: &[f64],
         rows: &[u32],
         targets: &[f64],
-        ridge: impl Into<Ridge>,
+        ridge: f64,
         out: &mut [f64],
     ) -> Result<(), NotPositiveDefinite> {
         if self.solve_batch(table, &[(rows, targets)], ridge, out)[0] {
@@ -126,10 +87,59 @@ impl RidgeWorkspace {
         &mut self,
         table: &[f64],
         problems: &[Problem<'_>],
-        ridge: impl Into<Ridge>,
+        ridge: f64,
         out: &mut [f64],
     ) -> [bool; BATCH] {
-        let ridge = ridge.into();
+        self.solve_lanes(table, problems, ridge, None, out)
+    }
+
+    /// Like [`Self::solve_batch`], with a free offset fitted beside each vector: solves
+    /// `min ‖y − Xw − b·1‖² + ridge·‖w‖² + offset_ridge·b²` for `(w, b)`, writing `w` to
+    /// `out[p * rank..]` and `b` to `offsets[p]`.
+    ///
+    /// The joint system `[[XᵀX + ridge·I, s], [sᵀ, n + ρ_b]] [w; b] = [Xᵀy; t]` (with
+    /// `s = Xᵀ1`, `t = Σy`, `n` rows, `ρ_b = offset_ridge`) is solved by eliminating `b`:
+    /// `(XᵀX + ridge·I − s sᵀ/(n + ρ_b)) w = Xᵀy − s·t/(n + ρ_b)`, the Schur complement,
+    /// which is positive definite when the joint system is; then `b = (t − sᵀw)/(n + ρ_b)`.
+    /// So the Cholesky factorization keeps the width of the vectors (no padding for the
+    /// offset), and `s` comes from one pass over rows the Gram kernel has just brought into
+    /// cache.
+    pub fn solve_batch_with_offsets(
+        &mut self,
+        table: &[f64],
+        problems: &[Problem<'_>],
+        ridge: f64,
+        offset_ridge: f64,
+        out: &mut [f64],
+        offsets: &mut [f64],
+    ) -> [bool; BATCH] {
+        let ok = self.solve_lanes(table, problems, ridge, Some(offset_ridge), out);
+        let d = self.rank;
+        for (lane, (w, b)) in out
+            .chunks_exact(d)
+            .zip(offsets.iter_mut())
+            .enumerate()
+            .take(problems.len())
+        {
+            let den = self.denominators[lane];
+            *b = if den > 0.0 {
+                let fitted: f64 = self.sums[lane].iter().zip(w).map(|(s, w)| s * w).sum();
+                (self.totals[lane] - fitted) / den
+            } else {
+                0.0
+            };
+        }
+        ok
+    }
+
+    fn solve_lanes(
+        &mut self,
+        table: &[f64],
+        problems: &[Problem<'_>],
+        ridge: f64,
+        offset: Option<f64>,
+        out: &mut [f64],
+    ) -> [bool; BATCH] {
         assert!(
             problems.len() <= BATCH,
             "at most {BATCH} problems per batch"
@@ -137,7 +147,9 @@ impl RidgeWorkspace {
         let (d, s) = (self.rank, self.stride);
         for lane in 0..BATCH {
             match problems.get(lane) {
-                Some(&(rows, targets)) => self.load_lane(lane, table, rows, targets, ridge),
+                Some(&(rows, targets)) => {
+                    self.load_lane(lane, table, rows, targets, ridge, offset);
+                }
                 None => self.load_identity(lane),
             }
         }
@@ -150,7 +162,7 @@ impl RidgeWorkspace {
             &mut self.lanes,
             &mut self.lane_rhs,
         );
-        let diagonal = ridge.has_zero().then(|| {
+        let diagonal = (ridge == 0.0).then(|| {
             self.diagonal.clear();
             let ls = round_up(d, COLUMN_BLOCK);
             self.diagonal.extend((0..d).map(|k| self.lanes[k * ls + k]));
@@ -175,14 +187,34 @@ impl RidgeWorkspace {
         table: &[f64],
         rows: &[u32],
         targets: &[f64],
-        ridge: Ridge,
+        ridge: f64,
+        offset: Option<f64>,
     ) {
         let (d, s) = (self.rank, self.stride);
         debug_assert!(rows.len() >= targets.len());
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
         normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
+        if let Some(offset_ridge) = offset {
+            let n = targets.len();
+            let sum = &mut self.sums[lane];
+            row_sums(table, d, &rows[..n], sum);
+            let total: f64 = targets.iter().sum();
+            let den = n as f64 + offset_ridge;
+            self.totals[lane] = total;
+            self.denominators[lane] = den;
+            if den > 0.0 {
+                // The Schur complement of the offset's row and column.
+                for i in 0..d {
+                    let scaled = sum[i] / den;
+                    for j in i..d {
+                        gram[i * s + j] -= scaled * sum[j];
+                    }
+                    rhs[i] -= scaled * total;
+                }
+            }
+        }
         for k in 0..d {
-            self.gram[lane][k * s + k] += ridge.at(k, d);
+            gram[k * s + k] += ridge;
         }
     }
 
@@ -196,6 +228,40 @@ impl RidgeWorkspace {
             }
             rhs[i] = 0.0;
         }
+    }
+}
+
+/// `sum = Σ_k table[rows[k]]` (rows of width `d`). The accumulators stay in registers:
+/// four columns at a time over all the rows (two interleaved sums per column, so the adds
+/// do not wait on each other), then the leftover columns one at a time. The rows were just
+/// read by the Gram kernel and are in cache; the order of the additions is fixed.
+fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
+    const W: usize = 4;
+    let row = |r: u32, c: usize| -> &[f64] { &table[r as usize * d + c..r as usize * d + d] };
+    let mut c = 0;
+    while c + W <= d {
+        let (mut even, mut odd) = ([0.0; W], [0.0; W]);
+        let mut pairs = rows.chunks_exact(2);
+        for pair in &mut pairs {
+            let (x, y) = (&row(pair[0], c)[..W], &row(pair[1], c)[..W]);
+            for k in 0..W {
+                even[k] += x[k];
+                odd[k] += y[k];
+            }
+        }
+        if let [last] = pairs.remainder() {
+            let x = &row(*last, c)[..W];
+            for k in 0..W {
+                even[k] += x[k];
+            }
+        }
+        for k in 0..W {
+            sum[c + k] = even[k] + odd[k];
+        }
+        c += W;
+    }
+    for (k, s) in sum.iter_mut().enumerate().take(d).skip(c) {
+        *s = rows.iter().map(|&r| table[r as usize * d + k]).sum();
     }
 }
 
@@ -214,6 +280,36 @@ mod tests {
             .unwrap();
         assert!((w[0] - 38.0 / 41.0).abs() < 1e-14);
         assert!((w[1] - 24.0 / 41.0).abs() < 1e-14);
+    }
+
+    #[test]
+    fn an_offset_is_solved_jointly_with_the_vector() {
+        // X = [1, 2, 3]ᵀ, y = [2, 3, 5], ridge 0.5, offset ridge 0.25: the joint system
+        // [[14.5, 6], [6, 3.25]] [w; b] = [23; 10], solved by Cramer's rule (common
+        // practice): det = 11.125, w = 14.75/11.125, b = 7/11.125.
+        let table = [1.0, 2.0, 3.0];
+        let mut ws = RidgeWorkspace::new(1);
+        let (mut w, mut b) = ([0.0; 1], [0.0; 1]);
+        let ok = ws.solve_batch_with_offsets(
+            &table,
+            &[(&[0, 1, 2], &[2.0, 3.0, 5.0])],
+            0.5,
+            0.25,
+            &mut w,
+            &mut b,
+        );
+        assert!(ok[0]);
+        assert!((w[0] - 14.75 / 11.125).abs() < 1e-14, "{w:?}");
+        assert!((b[0] - 7.0 / 11.125).abs() < 1e-14, "{b:?}");
+        // No rows: both are 0.
+        let ok = ws.solve_batch_with_offsets(&table, &[(&[], &[])], 0.5, 0.25, &mut w, &mut b);
+        assert!(ok[0]);
+        assert_eq!((w[0], b[0]), (0.0, 0.0));
+        // A constant feature and a free offset without any ridge cannot be told apart.
+        let flat = [1.0, 1.0];
+        let ok =
+            ws.solve_batch_with_offsets(&flat, &[(&[0, 1], &[1.0, 2.0])], 0.0, 0.0, &mut w, &mut b);
+        assert!(!ok[0], "{w:?} {b:?}");
     }
 
     #[test]
