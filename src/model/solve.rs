@@ -7,8 +7,8 @@
 //! Buffers are reused across solves; one workspace per thread.
 
 use super::kernels::{
-    BATCH, COLUMN_BLOCK, LaneVector, Scratch, TILE, cholesky_solve, interleave, normal_equations,
-    round_up,
+    BATCH, COLUMN_BLOCK, LaneVector, Scratch, TILE, cholesky_solve, gram_rhs_and_sums_direct,
+    interleave, normal_equations, round_up,
 };
 
 /// Reusable buffers for ridge solves of a fixed rank.
@@ -193,11 +193,19 @@ impl RidgeWorkspace {
         let (d, s) = (self.rank, self.stride);
         debug_assert!(rows.len() >= targets.len());
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
-        normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
+        // With an offset, the rows' sum comes from the Gram kernel's own pass where one
+        // exists (a second pass over the rows costs as much again at low ranks).
+        let summed = offset.is_some()
+            && gram_rhs_and_sums_direct(table, d, rows, targets, gram, rhs, &mut self.sums[lane]);
+        if !summed {
+            normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
+        }
         if let Some(offset_ridge) = offset {
             let n = targets.len();
             let sum = &mut self.sums[lane];
-            row_sums(table, d, &rows[..n], sum);
+            if !summed {
+                row_sums(table, d, &rows[..n], sum);
+            }
             let total: f64 = targets.iter().sum();
             let den = n as f64 + offset_ridge;
             self.totals[lane] = total;

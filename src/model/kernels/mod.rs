@@ -326,8 +326,70 @@ fn direct<const D: usize, const S: usize>(
     gram: &mut [f64],
     rhs: &mut [f64],
 ) {
+    direct_and_sums::<D, S, false>(table, rows, y, gram, rhs, &mut []);
+}
+
+/// [`gram_and_rhs_direct`] that also writes `sums[..d] = Σ_k x_k` (the rows' sum, which a
+/// solve with a free offset needs), accumulated in registers in the same pass. Returns
+/// false, writing nothing, where no such kernel exists (ranks above 12, and the 512-bit
+/// builds for now): the caller then sums the rows itself.
+pub fn gram_rhs_and_sums_direct(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) -> bool {
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    {
+        let _ = (table, d, rows, y, gram, rhs, sums);
+        false
+    }
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    {
+        let (t, r, g, h, s) = (table, rows, gram, rhs, sums);
+        match d {
+            1 => direct_and_sums::<1, 4, true>(t, r, y, g, h, s),
+            2 => direct_and_sums::<2, 4, true>(t, r, y, g, h, s),
+            3 => direct_and_sums::<3, 4, true>(t, r, y, g, h, s),
+            4 => direct_and_sums::<4, 4, true>(t, r, y, g, h, s),
+            5 => direct_and_sums::<5, 8, true>(t, r, y, g, h, s),
+            6 => direct_and_sums::<6, 8, true>(t, r, y, g, h, s),
+            7 => direct_and_sums::<7, 8, true>(t, r, y, g, h, s),
+            8 => direct_and_sums::<8, 8, true>(t, r, y, g, h, s),
+            9 => direct_and_sums::<9, 12, true>(t, r, y, g, h, s),
+            10 => direct_and_sums::<10, 12, true>(t, r, y, g, h, s),
+            11 => direct_and_sums::<11, 12, true>(t, r, y, g, h, s),
+            12 => direct_and_sums::<12, 12, true>(t, r, y, g, h, s),
+            _ => return false,
+        }
+        true
+    }
+}
+
+/// [`direct`], also summing the rows into `sums` when `SUMS` (the Gram and right-hand side
+/// are the same operations in the same order either way).
+fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
+    table: &[f64],
+    rows: &[u32],
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) {
     let mut acc = [[0.0f64; S]; D];
     let mut right = [0.0f64; S];
+    let mut total = [0.0f64; S];
     for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
         prefetch_ahead(table, D, rows, k);
         let start = r as usize * D;
@@ -346,12 +408,20 @@ fn direct<const D: usize, const S: usize>(
         for c in 0..S {
             right[c] = target.mul_add(row[c], right[c]);
         }
+        if SUMS {
+            for c in 0..S {
+                total[c] += row[c];
+            }
+        }
     }
     for a in 0..D {
         let start = a - a % TILE;
         gram[a * S + start..(a + 1) * S].copy_from_slice(&acc[a][start..]);
     }
     rhs[..S].copy_from_slice(&right);
+    if SUMS {
+        sums[..D].copy_from_slice(&total[..D]);
+    }
 }
 
 /// Number of independent systems factored side by side, one per SIMD lane.
