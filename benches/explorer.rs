@@ -52,6 +52,7 @@ fn main() {
         items: (0..items * rank)
             .map(|k| decay(k % rank) * rng.normal() * 0.3)
             .collect(),
+        biases: None,
     };
     let provenance = Provenance {
         scale: RatingScale::Levels(vec![1.0, 2.0, 3.0, 4.0, 5.0]),

@@ -162,6 +162,7 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
         ids,
         rank,
         values: init,
+        bias: None,
     };
     let mut fitter =
         Fitter::new(ratings, &options, Some((&table, Path::new("init")))).expect("fitter");

@@ -103,16 +103,22 @@ pub enum FitError {
     /// An option value that cannot work (rank 0, negative λ, …).
     #[error("invalid option: {0}")]
     Option(String),
-    /// λ = 0 with users or items that have fewer training ratings than the rank.
+    /// λ = 0 with users or items that have fewer training ratings than the rank (one more
+    /// with an unpenalised offset, λ_b = 0).
     #[error(
-        "with lambda = 0 every user and item needs at least {rank} training ratings (the rank), \
+        "with lambda = 0 every user and item needs at least {needed} training ratings ({why}), \
          but {short_users} user(s){user_list} and {short_items} item(s){item_list} have fewer; \
          their least-squares problems have no unique solution. Use --lambda > 0 (for example 0.1) \
-         or a smaller --rank"
+         or a smaller --rank{also}",
+        needed = rank + usize::from(*free_offset),
+        why = if *free_offset { "the rank, plus one for the offset" } else { "the rank" },
+        also = if *free_offset { ", or give the offsets a prior with --lambda-bias > 0" } else { "" }
     )]
     Underdetermined {
         /// The rank D.
         rank: usize,
+        /// Whether each solve also fits an unpenalised offset (biases with λ_b = 0).
+        free_offset: bool,
         /// How many users fall short.
         short_users: usize,
         /// How many items fall short.

@@ -434,7 +434,7 @@ fn tampered_models_are_refused_with_file_line_and_reason() {
             "manifest.ron",
             "version: 1,",
             "version: 99,",
-            "manifest.ron: format version 99 is not supported by this sextant, which reads version 1",
+            "manifest.ron: format version 99 is not supported by this sextant, which reads versions 1 to 2",
         ),
         (
             "manifest.ron",
@@ -583,6 +583,7 @@ fn large_model(dir: &Path) -> sextant::model::Model {
         mu: 3.0,
         users: (0..users as usize * rank).map(|_| rng.normal()).collect(),
         items: (0..items as usize * rank).map(|_| rng.normal()).collect(),
+        biases: None,
     };
     let provenance = sextant::model::Provenance {
         scale: RatingScale::Levels(vec![1.0, 2.0, 3.0, 4.0, 5.0]),

@@ -137,6 +137,11 @@ fn explain_formats_agree_and_add_up() {
     ] {
         assert!(j.get(field).is_some(), "field {field}");
     }
+    // A model without biases says so with nulls.
+    assert_eq!(
+        (&j["user_bias"], &j["item_bias"]),
+        (&serde_json::Value::Null, &serde_json::Value::Null)
+    );
     let contributions = j["contributions"].as_array().unwrap();
     let sum: f64 = j["mu"].as_f64().unwrap()
         + contributions
@@ -155,7 +160,9 @@ fn explain_formats_agree_and_add_up() {
             "predicted",
             "rounded",
             "predictive_sd",
-            "actual"
+            "actual",
+            "user_bias",
+            "item_bias"
         ]
     );
     // Unlabelled factors: null in JSON, empty in CSV.

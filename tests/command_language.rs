@@ -161,7 +161,7 @@ fn explain_csv_carries_mu_and_the_prediction_on_every_row() {
     let mut lines = csv.lines();
     assert_eq!(
         lines.next(),
-        Some("factor,value,label,mu,predicted,rounded,predictive_sd,actual")
+        Some("factor,value,label,mu,predicted,rounded,predictive_sd,actual,user_bias,item_bias")
     );
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
     assert_eq!(rows.len(), json["contributions"].as_array().unwrap().len());

@@ -22,7 +22,7 @@ fn predictive_sd_matches_numpy() {
             &items,
             d,
             rated,
-            case["lambda"].as_f64().unwrap(),
+            (case["lambda"].as_f64().unwrap(), None),
             case["sigma2"].as_f64().unwrap(),
         );
         for (j, expected) in floats(&case["sd"]).iter().enumerate() {

@@ -163,7 +163,10 @@ fn results_are_bit_identical_whatever_the_thread_count() {
     for threads in [2, 3] {
         let other = biased(threads);
         assert_eq!(one.factors.users, other.factors.users, "{threads} threads");
-        assert_eq!(one.biases, other.biases, "{threads} threads");
+        assert_eq!(
+            one.factors.biases, other.factors.biases,
+            "{threads} threads"
+        );
         assert_eq!(one.trace, other.trace, "{threads} threads");
     }
 }
@@ -261,6 +264,7 @@ fn committed_demo_model_is_reproduced_bit_for_bit() {
         max_iters: recorded.max_iters,
         tol: recorded.tol,
         seed: committed.manifest.seed,
+        lambda_bias: committed.manifest.lambda_bias,
     };
     let result = fit(&ratings, &options, None, |_| {}).unwrap();
     assert_eq!(result.trace, committed.manifest.trace);

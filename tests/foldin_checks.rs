@@ -74,7 +74,7 @@ fn folding_in_a_fitted_members_ratings_lands_on_their_vector() {
     let (mut gain, mut worst_relative) = (0.0f64, 0.0f64);
     for user in 0..model.factors.user_count() as u32 {
         let rated = training_ratings(&model, user);
-        let vector = fold_in(&model, &rated).unwrap();
+        let vector = fold_in(&model, &rated).unwrap().vector;
         let fitted = model.factors.user(user);
         let step = block(&vector, &rated) - block(fitted, &rated);
         assert!(
@@ -108,6 +108,7 @@ fn a_folded_member_gets_the_members_suggestions_and_explanations() {
     let vector = model.factors.user(user).to_vec();
     let profile = Profile {
         vector: &vector,
+        bias: 0.0,
         rated: &rated,
     };
     // With the member's own vector and training ratings, the profile suggestions equal the

@@ -308,6 +308,7 @@ mod tests {
             mu: 0.0,
             users: vec![],
             items,
+            biases: None,
         };
         let cats = Categories::from_meta(Some(&meta(&["a", "a", "a", "b", "b", "b"])), 6);
         let c = coherence(&factors, &cats, 2, Metric::Euclidean).unwrap();
@@ -332,6 +333,7 @@ mod tests {
             mu: 0.0,
             users: vec![],
             items,
+            biases: None,
         };
         let cats = Categories::from_meta(Some(&meta(&["a", "a", "a", "b", "b", "b"])), 6);
         let c = coherence(&factors, &cats, 2, Metric::Cosine).unwrap();
@@ -348,6 +350,7 @@ mod tests {
             mu: 0.0,
             users: vec![],
             items: vec![1.0, 2.0, 3.0],
+            biases: None,
         };
         let one = Categories::from_meta(Some(&meta(&["a", "a", ""])), 3);
         assert!(coherence(&factors, &one, 2, Metric::Euclidean).is_none());

@@ -45,44 +45,55 @@ pub fn actual_rating(model: &Model, user: u32, item: u32) -> Option<f64> {
 ///
 /// With the item vectors fixed, the member's update is a Bayesian linear regression: the
 /// posterior of `u_i` is Gaussian with covariance `S_i = σ² (λσ² I + Σ_{j∈Ω_i} v_j v_jᵀ)⁻¹`
-/// (Bishop, Pattern Recognition and Machine Learning, 2006, §3.3.2). It ignores the
-/// uncertainty of the item vectors themselves.
+/// (Bishop, Pattern Recognition and Machine Learning, 2006, §3.3.2). In a model with
+/// biases the regression is on features `x_j = [v_j, 1]` for `(u_i, b_i)` jointly, with
+/// `λ_bσ²` in the last place of the ridge diagonal. It ignores the uncertainty of the item
+/// vectors and offsets themselves.
 #[derive(Debug, Clone)]
 pub struct Posterior {
     sigma2: f64,
     factor: Option<Cholesky<f64, nalgebra::Dyn>>,
+    biased: bool,
 }
 
 impl Posterior {
     /// The posterior of a member who rated `rated` (training ratings).
     pub fn for_items(model: &Model, rated: impl IntoIterator<Item = u32>) -> Self {
         let m = &model.manifest;
+        let f = &model.factors;
         Self::new(
-            &model.factors.items,
-            model.factors.rank,
+            &f.items,
+            f.rank,
             rated,
-            m.lambda,
+            (m.lambda, f.biases.as_ref().map(|b| b.lambda)),
             m.sigma2,
         )
     }
 
     /// The posterior given item vectors `items` (row-major, width `d`), the rows rated, the
-    /// prior precision λ and the noise variance σ².
+    /// prior precisions λ and, for a model with biases, λ_b, and the noise variance σ².
     pub fn new(
         items: &[f64],
         d: usize,
         rated: impl IntoIterator<Item = u32>,
-        lambda: f64,
+        (lambda, lambda_bias): (f64, Option<f64>),
         sigma2: f64,
     ) -> Self {
-        let mut precision = DMatrix::<f64>::identity(d, d) * (lambda * sigma2);
+        let width = d + usize::from(lambda_bias.is_some());
+        let mut precision = DMatrix::<f64>::identity(width, width) * (lambda * sigma2);
+        if let Some(lambda_bias) = lambda_bias {
+            precision[(d, d)] = lambda_bias * sigma2;
+        }
+        let mut x = DVector::<f64>::from_element(width, 1.0);
         for j in rated {
-            let v = DVector::from_column_slice(&items[j as usize * d..(j as usize + 1) * d]);
-            precision += &v * v.transpose();
+            x.rows_mut(0, d)
+                .copy_from_slice(&items[j as usize * d..(j as usize + 1) * d]);
+            precision += &x * x.transpose();
         }
         Self {
             sigma2,
             factor: Cholesky::new(precision),
+            biased: lambda_bias.is_some(),
         }
     }
 
@@ -97,10 +108,15 @@ impl Posterior {
     /// Predictive standard deviation of a new rating of an item with vector `v`:
     /// `√(σ² + vᵀ S v)` (Bishop 2006, eq. 3.59). `None` when the posterior is improper
     /// (λ = 0 and too few ratings).
+    /// With biases the features are `[v, 1]`.
     pub fn predictive_sd(&self, v: &[f64]) -> Option<f64> {
         let factor = self.factor.as_ref()?;
-        let x = factor.solve(&DVector::from_column_slice(v));
-        let quadratic = self.sigma2 * dot(v, x.as_slice());
+        let mut features = v.to_vec();
+        if self.biased {
+            features.push(1.0);
+        }
+        let x = factor.solve(&DVector::from_column_slice(&features));
+        let quadratic = self.sigma2 * dot(&features, x.as_slice());
         Some((self.sigma2 + quadratic).sqrt())
     }
 }
@@ -151,7 +167,11 @@ pub struct Explanation {
     pub item: u32,
     /// The global offset μ.
     pub mu: f64,
-    /// `μ + Σ contributions`.
+    /// The member's offset `b_i` (`None` in a model without biases).
+    pub user_bias: Option<f64>,
+    /// The item's offset `c_j` (`None` in a model without biases).
+    pub item_bias: Option<f64>,
+    /// `μ + b_i + c_j + Σ contributions`.
     pub predicted: f64,
     /// The prediction rounded onto the rating scale.
     pub rounded: f64,
@@ -183,6 +203,7 @@ pub fn explain(
     let rated = training_ratings(model, user);
     let profile = Profile {
         vector: model.factors.user(user),
+        bias: model.factors.user_bias(user),
         rated: &rated,
     };
     let mut e = explain_profile(model, &profile, item, evidence, item_counts);
@@ -198,6 +219,8 @@ pub fn explain(
 pub struct Profile<'a> {
     /// The member vector.
     pub vector: &'a [f64],
+    /// The member's offset (0 in a model without biases).
+    pub bias: f64,
     /// The (item, rating) pairs behind it.
     pub rated: &'a [(u32, f64)],
 }
@@ -228,7 +251,7 @@ pub fn explain_profile(
             .total_cmp(&a.value.abs())
             .then(a.factor.cmp(&b.factor))
     });
-    let predicted = f.predict_for(u, item);
+    let predicted = f.predict_for(u, profile.bias, item);
     let rated = profile.rated;
     let mut nearest: Vec<Evidence> = rated
         .iter()
@@ -236,7 +259,7 @@ pub fn explain_profile(
         .map(|&(j, actual)| Evidence {
             item: j,
             actual,
-            predicted: f.predict_for(u, j),
+            predicted: f.predict_for(u, profile.bias, j),
             distance: squared_distance(f.item(j), v).sqrt(),
         })
         .collect();
@@ -248,6 +271,8 @@ pub fn explain_profile(
         user: None,
         item,
         mu: f.mu,
+        user_bias: f.biases.as_ref().map(|_| profile.bias),
+        item_bias: f.biases.as_ref().map(|b| b.item[item as usize]),
         predicted,
         rounded: model.manifest.scale.round(predicted),
         predictive_sd: Posterior::for_items(model, rated.iter().map(|&(j, _)| j)).predictive_sd(v),

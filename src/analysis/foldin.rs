@@ -4,7 +4,8 @@
 //! Folding in is exactly the fitter's user update: `u = (λσ² I + Σ_j v_j v_jᵀ)⁻¹ Σ_j (r_j −
 //! μ) v_j` over the profile's rated items (Hoerl & Kennard 1970), solved by the same
 //! Cholesky code, so folding in a fitted member's training ratings reproduces the vector
-//! the fit's last user step gave them.
+//! the fit's last user step gave them. In a model with biases the step solves the
+//! profile's vector and offset `(u, b)` jointly, against targets `r_j − μ − c_j`.
 
 use super::explain::Profile;
 use super::suggest::{Suggestion, top_unrated};
@@ -26,17 +27,85 @@ pub enum FoldInError {
     },
 }
 
-/// The member vector of a profile (pairs of item and rating; the order does not matter).
-/// An empty profile gives the zero vector when λ > 0 (everything predicted at μ).
-pub fn fold_in(model: &Model, rated: &[(u32, f64)]) -> Result<Vec<f64>, FoldInError> {
+/// A profile folded in: its member vector and, in a model with biases, its offset.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Folded {
+    /// The member vector `u`.
+    pub vector: Vec<f64>,
+    /// The member offset `b` (0 in a model without biases).
+    pub bias: f64,
+}
+
+impl Folded {
+    /// The profile of these ratings.
+    pub fn profile<'a>(&'a self, rated: &'a [(u32, f64)]) -> Profile<'a> {
+        Profile {
+            vector: &self.vector,
+            bias: self.bias,
+            rated,
+        }
+    }
+}
+
+/// The member vector (and offset) of a profile (pairs of item and rating; the order does
+/// not matter). An empty profile gives the zero vector when λ > 0 (everything predicted at
+/// μ, plus the item's offset).
+pub fn fold_in(model: &Model, rated: &[(u32, f64)]) -> Result<Folded, FoldInError> {
     let m = &model.manifest;
-    fold_in_vectors(
-        &model.factors.items,
-        model.factors.rank,
-        model.factors.mu,
-        m.lambda * m.sigma2,
-        rated,
-    )
+    let f = &model.factors;
+    let ridge = m.lambda * m.sigma2;
+    match &f.biases {
+        None => {
+            let vector = fold_in_vectors(&f.items, f.rank, f.mu, ridge, rated)?;
+            Ok(Folded { vector, bias: 0.0 })
+        }
+        Some(biases) => fold_in_with_offsets(
+            (&f.items, &biases.item),
+            f.rank,
+            f.mu,
+            (ridge, biases.lambda * m.sigma2),
+            rated,
+        ),
+    }
+}
+
+/// [`fold_in`] for a model with biases, on bare item vectors (row-major, width `d`) and
+/// item offsets, offset `mu` and ridge terms `(λσ², λ_bσ²)`: the profile's `(u, b)` is one
+/// ridge regression on features `[v_j, 1]` against targets `r_j − μ − c_j`.
+pub fn fold_in_with_offsets(
+    (items, item_offsets): (&[f64], &[f64]),
+    d: usize,
+    mu: f64,
+    (ridge, offset_ridge): (f64, f64),
+    rated: &[(u32, f64)],
+) -> Result<Folded, FoldInError> {
+    let mut sorted = rated.to_vec();
+    sorted.sort_by_key(|&(j, _)| j);
+    let rows: Vec<u32> = sorted.iter().map(|&(j, _)| j).collect();
+    let targets: Vec<f64> = sorted
+        .iter()
+        .map(|&(j, r)| r - mu - item_offsets[j as usize])
+        .collect();
+    let mut vector = vec![0.0; d];
+    let mut bias = [0.0];
+    let ok = RidgeWorkspace::new(d).solve_batch_with_offsets(
+        items,
+        &[(&rows, &targets)],
+        ridge,
+        offset_ridge,
+        &mut vector,
+        &mut bias,
+    );
+    if !ok[0] {
+        return Err(FoldInError::Underdetermined {
+            ratings: rated.len(),
+            rank: d,
+        });
+    }
+    Ok(Folded {
+        vector,
+        bias: bias[0],
+    })
 }
 
 /// [`fold_in`] on bare item vectors (row-major, width `d`), offset `mu` and ridge term
@@ -73,5 +142,5 @@ pub fn suggest_profile(
     let mut excluded: Vec<u32> = profile.rated.iter().map(|&(j, _)| j).collect();
     excluded.sort_unstable();
     excluded.dedup();
-    top_unrated(model, index, profile.vector, &excluded, &excluded, n)
+    top_unrated(model, index, profile, &excluded, n)
 }

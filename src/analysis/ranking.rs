@@ -11,7 +11,6 @@
 
 use rayon::prelude::*;
 
-use crate::index::{InnerProductIndex, Path};
 use crate::model::Model;
 
 /// Precision@k of a ranked list of hit flags: hits in the first k over k.
@@ -100,7 +99,7 @@ pub fn ranking_quality(model: &Model, k: usize, threshold: f64) -> Option<Rankin
     if spans.is_empty() || k == 0 {
         return None;
     }
-    let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
+    let index = super::suggest::ranking_index(model);
     let per_user: Vec<[f64; 6]> = spans
         .par_iter()
         .map(|&(user, start, end)| {
@@ -113,7 +112,8 @@ pub fn ranking_quality(model: &Model, k: usize, threshold: f64) -> Option<Rankin
                 .map(|r| r.item)
                 .collect();
             let keep = |j: u32| trained.binary_search(&j).is_err();
-            let top = index.top(model.factors.user(user), k, keep, trained.len());
+            let query = model.factors.ranking_query(model.factors.user(user));
+            let top = index.top(&query, k, keep, trained.len());
             let hits: Vec<bool> = top
                 .iter()
                 .map(|s| relevant.binary_search(&s.row).is_ok())

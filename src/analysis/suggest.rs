@@ -1,7 +1,7 @@
 //! Suggestions: the items a member has not rated with the highest predicted rating, found
 //! exactly through the inner-product index, each with its predictive uncertainty.
 
-use super::explain::{Posterior, training_ratings};
+use super::explain::{Posterior, Profile, training_ratings};
 use crate::index::InnerProductIndex;
 use crate::model::Model;
 
@@ -12,7 +12,7 @@ pub struct Suggestion {
     pub rank: usize,
     /// The item.
     pub item: u32,
-    /// Raw predicted rating `μ + u·v`.
+    /// Raw predicted rating `μ + b_i + c_j + u·v` (no offsets without biases).
     pub predicted: f64,
     /// Prediction rounded onto the rating scale.
     pub rounded: f64,
@@ -37,39 +37,45 @@ pub fn suggest(
         .map(|r| r.item)
         .collect();
     let excluded: &[u32] = if include_rated { &[] } else { &rated };
-    let trained: Vec<u32> = training_ratings(model, user)
-        .into_iter()
-        .map(|(j, _)| j)
-        .collect();
-    top_unrated(
-        model,
-        index,
-        model.factors.user(user),
-        excluded,
-        &trained,
-        n,
-    )
+    let trained = training_ratings(model, user);
+    let profile = Profile {
+        vector: model.factors.user(user),
+        bias: model.factors.user_bias(user),
+        rated: &trained,
+    };
+    top_unrated(model, index, &profile, excluded, n)
 }
 
-/// The top `n` items for member vector `vector` by predicted rating, leaving out the
-/// sorted item list `excluded`; the predictive uncertainty comes from a member who rated
-/// `rated`.
+/// The index for exact top-N by predicted rating over a model's items: on the item vectors,
+/// or with biases on `[v_j, c_j]` (see [`crate::model::FactorModel::ranking_rows`]).
+pub fn ranking_index(model: &Model) -> InnerProductIndex {
+    let (rows, width) = model.factors.ranking_rows();
+    InnerProductIndex::build(&rows, width, crate::index::Path::Auto)
+}
+
+/// The top `n` items for a profile by predicted rating, leaving out the sorted item list
+/// `excluded`; the predictive uncertainty comes from the profile's rated items. `index` is
+/// [`ranking_index`] of the model.
 pub fn top_unrated(
     model: &Model,
     index: &InnerProductIndex,
-    vector: &[f64],
+    profile: &Profile<'_>,
     excluded: &[u32],
-    rated: &[u32],
     n: usize,
 ) -> Vec<Suggestion> {
     let keep = |j: u32| excluded.binary_search(&j).is_err();
-    let posterior = Posterior::for_items(model, rated.iter().copied());
+    let posterior = Posterior::for_items(model, profile.rated.iter().map(|&(j, _)| j));
+    let f = &model.factors;
     index
-        .top(vector, n, keep, excluded.len())
+        .top(&f.ranking_query(profile.vector), n, keep, excluded.len())
         .into_iter()
         .enumerate()
         .map(|(k, scored)| {
-            let predicted = model.factors.mu - scored.score;
+            let predicted = if f.biases.is_some() {
+                f.predict_for(profile.vector, profile.bias, scored.row)
+            } else {
+                f.mu - scored.score
+            };
             Suggestion {
                 rank: k + 1,
                 item: scored.row,

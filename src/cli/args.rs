@@ -119,6 +119,43 @@ pub struct PriorArgs {
     pub noise: NoiseArgs,
 }
 
+/// The prior precision of the member and item offsets of a model with biases.
+#[derive(Debug, Clone, Copy, Args)]
+#[command(next_help_heading = "Model and fit")]
+pub struct LambdaBiasArg {
+    /// Prior precision λ_b of the member and item offsets of a model with biases (default:
+    /// the same as --lambda; for import: the λ_b the offsets were fitted with).
+    #[arg(long, value_name = "LAMBDA_B")]
+    pub lambda_bias: Option<f64>,
+}
+
+impl LambdaBiasArg {
+    /// λ_b, defaulting to `lambda`.
+    pub fn or(&self, lambda: f64) -> f64 {
+        self.lambda_bias.unwrap_or(lambda)
+    }
+}
+
+/// Whether a fit has member and item offsets, and their prior.
+#[derive(Debug, Clone, Copy, Args)]
+#[command(next_help_heading = "Model and fit")]
+#[command(mut_arg("lambda_bias", |a| a.requires("biases")))]
+pub struct BiasArgs {
+    /// Fit a member offset and an item offset beside the vectors (a generous rater, a
+    /// universally liked item): prediction = μ + b_member + c_item + u·v.
+    #[arg(long)]
+    pub biases: bool,
+    #[command(flatten)]
+    pub prior: LambdaBiasArg,
+}
+
+impl BiasArgs {
+    /// `Some(λ_b)` for a fit with biases.
+    pub fn lambda_bias(&self, lambda: f64) -> Option<f64> {
+        self.biases.then(|| self.prior.or(lambda))
+    }
+}
+
 /// How a fit runs: centring, seed, held-out share, stopping rule.
 #[derive(Debug, Clone, Copy, Args)]
 #[command(next_help_heading = "Model and fit")]
@@ -150,6 +187,7 @@ impl SolverArgs {
             max_iters: self.max_iters,
             tol: self.tol,
             seed: self.seed,
+            lambda_bias: None,
         }
     }
 

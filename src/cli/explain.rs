@@ -67,6 +67,10 @@ struct Report<'a> {
     /// The item's title, null when the model has none.
     title: Option<&'a str>,
     mu: f64,
+    /// The member's offset, null in a model without biases.
+    user_bias: Option<f64>,
+    /// The item's offset, null in a model without biases.
+    item_bias: Option<f64>,
     predicted: f64,
     rounded: f64,
     predictive_sd: Option<f64>,
@@ -92,6 +96,8 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         item: items.name(item),
         title: item_title(&model, item).0,
         mu: e.mu,
+        user_bias: e.user_bias,
+        item_bias: e.item_bias,
         predicted: e.predicted,
         rounded: e.rounded,
         predictive_sd: e.predictive_sd,
@@ -127,13 +133,16 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
     let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => {
-            let mut out =
-                String::from("factor,value,label,mu,predicted,rounded,predictive_sd,actual\n");
+            let mut out = String::from(
+                "factor,value,label,mu,predicted,rounded,predictive_sd,actual,user_bias,item_bias\n",
+            );
             let (mu, predicted, rounded) = (
                 csv_number(Some(report.mu)),
                 csv_number(Some(report.predicted)),
                 csv_number(Some(report.rounded)),
             );
+            let (user_bias, item_bias) =
+                (csv_number(report.user_bias), csv_number(report.item_bias));
             let (sd, actual) = (csv_number(report.predictive_sd), csv_number(report.actual));
             for c in &report.contributions {
                 output::csv_row(
@@ -147,6 +156,8 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
                         &rounded,
                         &sd,
                         &actual,
+                        &user_bias,
+                        &item_bias,
                     ],
                 );
             }
@@ -186,6 +197,10 @@ fn table(
         format!("{:+.3}", r.mu),
         model.manifest.center.mu_label()
     );
+    if let (Some(b), Some(c)) = (r.user_bias, r.item_bias) {
+        let _ = writeln!(out, "  {:>10}  the member's offset", format!("{b:+.3}"));
+        let _ = writeln!(out, "  {:>10}  the item's offset", format!("{c:+.3}"));
+    }
     for c in &r.contributions {
         let label = c
             .label

@@ -1,7 +1,6 @@
 //! `sextant export`: a model's factor tables, its predictions for the held-out ratings and
 //! every item's neighbour list, as Parquet or CSV files, for a data lake or a notebook.
 
-use std::fmt::Write as _;
 use std::path::PathBuf;
 use std::sync::Arc;
 
@@ -104,6 +103,10 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
         })
         .collect();
     let [users_file, items_file, held_file, lists_file] = names;
+    let (user_bias, item_bias) = match &f.biases {
+        Some(b) => (Some(&b.user[..]), Some(&b.item[..])),
+        None => (None, None),
+    };
     match format {
         ExportFormat::Parquet => {
             use arrow_array::{ArrayRef, Float64Array, RecordBatch, StringArray, UInt32Array};
@@ -118,10 +121,14 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
                 }
             };
             folder.write(users_file, |w| {
-                sextant::data::parquet::write_factor_parquet(w, &r.users, &f.users, f.rank)
+                sextant::data::parquet::write_factor_parquet(
+                    w, &r.users, &f.users, f.rank, user_bias,
+                )
             })?;
             folder.write(items_file, |w| {
-                sextant::data::parquet::write_factor_parquet(w, &r.items, &f.items, f.rank)
+                sextant::data::parquet::write_factor_parquet(
+                    w, &r.items, &f.items, f.rank, item_bias,
+                )
             })?;
             let schema = Arc::new(Schema::new(vec![
                 Field::new("user", DataType::Utf8, false),
@@ -167,25 +174,13 @@ pub fn run(args: &ExportArgs) -> anyhow::Result<()> {
         }
         ExportFormat::Csv => {
             let num = sextant::data::factors::format_float;
-            let table = |ids: &sextant::data::IdMap, values: &[f64]| {
-                let mut out = String::from("id");
-                for d in 1..=f.rank {
-                    let _ = write!(out, ",f{d}");
-                }
-                out.push('\n');
-                for (i, v) in values.chunks_exact(f.rank).enumerate() {
-                    let mut fields = vec![ids.name(i as u32).to_owned()];
-                    fields.extend(v.iter().map(|x| num(*x)));
-                    output::csv_row(
-                        &mut out,
-                        &fields.iter().map(String::as_str).collect::<Vec<_>>(),
-                    );
-                }
-                out
-            };
             let text = |out: String| move |w: &mut std::fs::File| w.write_all(out.as_bytes());
-            folder.write(users_file, text(table(&r.users, &f.users)))?;
-            folder.write(items_file, text(table(&r.items, &f.items)))?;
+            folder.write(users_file, |w| {
+                sextant::data::write_factor_table(w, &r.users, f.rank, &f.users, user_bias)
+            })?;
+            folder.write(items_file, |w| {
+                sextant::data::write_factor_table(w, &r.items, f.rank, &f.items, item_bias)
+            })?;
             let mut out = String::from("user,item,rating,predicted\n");
             for e in &held {
                 let fields = [

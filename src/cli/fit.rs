@@ -11,7 +11,7 @@ use sextant::model::fit::IterationRecord;
 use sextant::model::{FitOptions, Fitter, Model, Provenance};
 
 use super::UsageError;
-use super::args::{FitInputs, OutputArgs, PriorArgs, RunArgs, SolverArgs};
+use super::args::{BiasArgs, FitInputs, OutputArgs, PriorArgs, RunArgs, SolverArgs};
 use super::inputs;
 use super::output;
 use super::summary;
@@ -33,6 +33,8 @@ pub struct FitArgs {
     #[command(flatten)]
     prior: PriorArgs,
     #[command(flatten)]
+    biases: BiasArgs,
+    #[command(flatten)]
     solver: SolverArgs,
     #[command(flatten)]
     inputs: FitInputs,
@@ -44,8 +46,12 @@ pub struct FitArgs {
 
 impl FitArgs {
     fn fit_options(&self) -> FitOptions {
-        self.solver
-            .options(self.rank, self.prior.lambda, self.prior.noise.sigma2)
+        FitOptions {
+            lambda_bias: self.biases.lambda_bias(self.prior.lambda),
+            ..self
+                .solver
+                .options(self.rank, self.prior.lambda, self.prior.noise.sigma2)
+        }
     }
 }
 
@@ -112,7 +118,13 @@ fn fit_and_save(
     let init = match &args.init_items {
         Some(path) => {
             let mut reader = inputs::open(path)?;
-            let table = sextant::data::read_factor_table(&mut reader, path)?;
+            // An exported table of a model with biases carries its offsets: the vectors
+            // are what a start needs.
+            let table = sextant::data::read_factor_table_with(
+                &mut reader,
+                path,
+                sextant::data::BiasColumn::IfPresent,
+            )?;
             input_prints.push(inputs::input("init-items", path, &reader));
             Some((table, path.clone()))
         }
@@ -171,6 +183,12 @@ fn announce(
     );
     if let Some(meta) = meta {
         inputs::note_unknown_items(meta, "that have no ratings");
+    }
+    if let Some(lambda_bias) = given.lambda_bias {
+        eprintln!(
+            "member and item biases: lambda-bias {lambda_bias}{}",
+            mark(args.biases.prior.lambda_bias.is_none()).replace("default", "default: --lambda")
+        );
     }
     eprintln!(
         "options: rank {}{}, lambda {}{}, sigma2 {}{}, center {}{}, holdout {}{}, tol {:e}{}, max-iters {}{}, seed {}{}",

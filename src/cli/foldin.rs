@@ -6,10 +6,9 @@ use std::path::PathBuf;
 
 use clap::Args;
 use serde::Serialize;
-use sextant::analysis::explain::Profile;
 use sextant::analysis::foldin::{fold_in, suggest_profile};
+use sextant::analysis::suggest::ranking_index;
 use sextant::data::profile::load_profile;
-use sextant::index::{InnerProductIndex, Path};
 use sextant::model::load_model;
 
 use super::args::{ModelArg, OutputArgs, SuggestionCount};
@@ -35,6 +34,8 @@ pub struct FoldInArgs {
 #[derive(Serialize)]
 struct Report<'a> {
     vector: &'a [f64],
+    /// The profile's offset `b` (null in a model without biases).
+    bias: Option<f64>,
     ratings_used: usize,
     skipped: Vec<&'a str>,
     suggestions: Vec<super::suggest::Row<'a>>,
@@ -61,20 +62,19 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
             }
         );
     }
-    let vector = fold_in(&model, &profile.ratings)
+    let folded = fold_in(&model, &profile.ratings)
         .map_err(|e| super::UsageError(format!("{}: {e}", args.ratings.display())))?;
-    let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
+    let index = ranking_index(&model);
     let found = suggest_profile(
         &model,
         &index,
-        &Profile {
-            vector: &vector,
-            rated: &profile.ratings,
-        },
+        &folded.profile(&profile.ratings),
         args.count.n,
     );
+    let vector = &folded.vector;
     let report = Report {
-        vector: &vector,
+        vector,
+        bias: model.factors.biases.as_ref().map(|_| folded.bias),
         ratings_used: profile.ratings.len(),
         skipped: profile.unknown.iter().map(|(id, _)| id.as_str()).collect(),
         suggestions: super::suggest::rows(&model, &found),
@@ -92,6 +92,9 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
                 model.manifest.lambda,
                 model.manifest.sigma2
             );
+            if let Some(b) = report.bias {
+                let _ = writeln!(out, "  offset {b:>+8.3}");
+            }
             let peak = vector.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(1e-12);
             for (d, v) in vector.iter().enumerate() {
                 let width = (v.abs() / peak * 20.0).round() as usize;

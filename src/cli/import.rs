@@ -4,12 +4,14 @@ use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 use clap::Args;
-use sextant::data::read_factor_table;
+use sextant::data::{BiasColumn, read_factor_table_with};
 use sextant::error::DataError;
-use sextant::model::{Center, FactorModel, Model, Provenance};
+use sextant::model::{Biases, Center, FactorModel, Model, Provenance};
 
 use super::UsageError;
-use super::args::{CatalogueArg, CenterArgs, OutputArgs, PriorArgs, warn_if_spelled};
+use super::args::{
+    CatalogueArg, CenterArgs, LambdaBiasArg, OutputArgs, PriorArgs, warn_if_spelled,
+};
 use super::inputs::{self, RatingsArgs};
 use super::summary;
 
@@ -18,6 +20,7 @@ use super::summary;
 /// otherwise every rating counts as training.
 #[derive(Debug, Args)]
 #[command(mut_arg("catalogue", |a| a.alias("items-meta")))]
+#[command(mut_arg("lambda_bias", |a| a.requires("user_bias_col")))]
 pub struct ImportArgs {
     /// Ratings CSV; every user and item in it must have a vector.
     #[arg(long, value_name = "FILE")]
@@ -35,6 +38,13 @@ pub struct ImportArgs {
     /// else every float column in order).
     #[arg(long, value_name = "NAME")]
     vector_col: Option<String>,
+    /// The column of the user table holding each member's offset, for a model with biases
+    /// (prediction = μ + b_member + c_item + u·v); needs --item-bias-col too.
+    #[arg(long, value_name = "NAME", requires = "item_bias_col")]
+    user_bias_col: Option<String>,
+    /// The column of the item table holding each item's offset; needs --user-bias-col too.
+    #[arg(long, value_name = "NAME", requires = "user_bias_col")]
+    item_bias_col: Option<String>,
     /// Model directory to write.
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
@@ -45,6 +55,8 @@ pub struct ImportArgs {
     center: CenterArgs,
     #[command(flatten)]
     prior: PriorArgs,
+    #[command(flatten)]
+    bias_prior: LambdaBiasArg,
     #[command(flatten)]
     catalogue: CatalogueArg,
     #[command(flatten)]
@@ -79,6 +91,13 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
     if !(lambda.is_finite() && lambda >= 0.0 && sigma2.is_finite() && sigma2 > 0.0) {
         return Err(UsageError("--lambda must be ≥ 0 and --sigma2 > 0".into()).into());
     }
+    let lambda_bias = args.bias_prior.or(lambda);
+    if !(lambda_bias.is_finite() && lambda_bias >= 0.0) {
+        return Err(UsageError(format!(
+            "--lambda-bias must be a finite number ≥ 0, not {lambda_bias}"
+        ))
+        .into());
+    }
     if args.mu.is_some_and(|mu| !mu.is_finite()) {
         return Err(UsageError("--mu must be a finite number".into()).into());
     }
@@ -99,8 +118,18 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         vector: args.vector_col.clone(),
     };
     let tables = args.tables();
-    let (users, users_input) = read_table(tables.users, "users", &columns)?;
-    let (items, items_input) = read_table(tables.items, "items", &columns)?;
+    let (users, users_input) = read_table(
+        tables.users,
+        "users",
+        &columns,
+        bias("--user-bias-col", args.user_bias_col.as_deref()),
+    )?;
+    let (items, items_input) = read_table(
+        tables.items,
+        "items",
+        &columns,
+        bias("--item-bias-col", args.item_bias_col.as_deref()),
+    )?;
     if users.rank != items.rank {
         return Err(DataError::at_line(
             tables.items,
@@ -151,11 +180,20 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         }
         (None, Center::None | Center::Given) => 0.0,
     };
+    let biases = match (users.bias, items.bias) {
+        (Some(user), Some(item)) => Some(Biases {
+            user,
+            item,
+            lambda: lambda_bias,
+        }),
+        _ => None,
+    };
     let factors = FactorModel {
         rank: users.rank,
         mu,
         users: users.values,
         items: items.values,
+        biases,
     };
     let provenance = Provenance {
         scale,
@@ -173,10 +211,16 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
     summary::save_and_print(&model, &args.out, false, args.output.format)
 }
 
+/// The offsets column named by `flag`, when it was given.
+fn bias<'a>(flag: &'a str, col: Option<&'a str>) -> BiasColumn<'a> {
+    col.map_or(BiasColumn::Absent, |c| BiasColumn::Named(c, flag))
+}
+
 fn read_table(
     path: &std::path::Path,
     role: &str,
     columns: &sextant::data::parquet::ParquetColumns,
+    bias: BiasColumn<'_>,
 ) -> Result<(sextant::data::FactorTable, sextant::model::manifest::Input), DataError> {
     let parquet = path
         .extension()
@@ -193,9 +237,9 @@ fn read_table(
     let table = if parquet {
         // Fingerprint the bytes, then read the columns.
         std::io::copy(&mut reader, &mut std::io::sink()).map_err(|e| DataError::read(path, e))?;
-        sextant::data::parquet::read_factor_parquet(path, columns)?
+        sextant::data::parquet::read_factor_parquet(path, columns, bias)?
     } else {
-        read_factor_table(&mut reader, path)?
+        read_factor_table_with(&mut reader, path, bias)?
     };
     Ok((table, inputs::input(role, path, &reader)))
 }

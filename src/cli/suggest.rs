@@ -5,7 +5,6 @@ use std::fmt::Write as _;
 use clap::Args;
 use serde::Serialize;
 use sextant::analysis::{Suggestion, suggest};
-use sextant::index::{InnerProductIndex, Path};
 use sextant::model::{Model, load_model};
 
 use super::args::{ModelArg, OutputArgs, SuggestionCount};
@@ -53,7 +52,7 @@ struct Report<'a> {
 pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model.model)?;
     let user = resolve(&model.ratings.users, &args.user, "member")?;
-    let index = InnerProductIndex::build(&model.factors.items, model.factors.rank, Path::Auto);
+    let index = sextant::analysis::suggest::ranking_index(&model);
     let found = suggest(&model, &index, user, args.count.n, args.include_rated);
     let rows = rows(&model, &found);
     let report = Report {

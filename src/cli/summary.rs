@@ -68,6 +68,10 @@ struct InfoJson<'a> {
     origin: &'static str,
     final_log_joint: Option<f64>,
     described_items: usize,
+    /// Whether the model has member and item offsets.
+    biases: bool,
+    /// Their prior precision λ_b, null without biases.
+    lambda_bias: Option<f64>,
 }
 
 /// Renders the summary of `model` (called `label` in the table form).
@@ -124,6 +128,8 @@ fn json(model: &Model) -> InfoJson<'_> {
             .meta
             .as_ref()
             .map_or(0, sextant::data::ItemsMeta::described),
+        biases: m.lambda_bias.is_some(),
+        lambda_bias: m.lambda_bias,
     }
 }
 
@@ -165,6 +171,24 @@ fn table(model: &Model, label: &str) -> String {
         format!("{}    lambda {}    sigma2 {}", m.rank, m.lambda, m.sigma2),
     );
     line("mu", format!("{:.4} ({center})", m.mu));
+    if let (Some(lambda_bias), Some(b)) = (m.lambda_bias, &model.factors.biases) {
+        let spread = |v: &[f64]| {
+            let (lo, hi) = v
+                .iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &x| {
+                    (lo.min(x), hi.max(x))
+                });
+            format!("{lo:+.3} to {hi:+.3}")
+        };
+        line(
+            "biases",
+            format!(
+                "member and item offsets, lambda-bias {lambda_bias}; members {}, items {}",
+                spread(&b.user),
+                spread(&b.item)
+            ),
+        );
+    }
     line("scale", m.scale.describe());
     line(
         "ratings",

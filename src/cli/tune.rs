@@ -270,13 +270,15 @@ fn point_error(e: &sextant::error::FitError) -> String {
     match e {
         sextant::error::FitError::Underdetermined {
             rank,
+            free_offset,
             short_users,
             short_items,
             ..
         } => format!(
-            "λ = 0 needs at least {rank} training ratings per member and item, and \
+            "λ = 0 needs at least {} training ratings per member and item, and \
              {short_users} member(s) and {short_items} item(s) have fewer; include a λ above 0 \
-             in --lambdas"
+             in --lambdas",
+            rank + usize::from(*free_offset)
         ),
         other => other.to_string(),
     }

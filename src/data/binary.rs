@@ -16,13 +16,14 @@
 //! | 4 | version, 1 |
 //! | 4 | byte-order mark `0x0A0B0C0D` (reads `0x0D0C0B0A` in the wrong order) |
 //! | 4 | rank D |
-//! | 4 | reserved, 0 |
+//! | 4 | flags: bit 0 set when an offsets block follows the values; other bits 0 |
 //! | 8 | row count N |
 //! | 8 | size in bytes of the CSV twin when this file was written |
 //! | 8 | [`checksum`] of the CSV twin when this file was written |
 //! | 8 | size in bytes of the id block |
 //! | … | id block: per row, a 4-byte length and that many bytes of UTF-8 |
 //! | 8·N·D | the values, row by row |
+//! | 8·N | with flag bit 0: each row's offset (a model with biases) |
 //! | 8 | checksum of every byte before it ([`checksum`]) |
 
 use super::factors::FactorTable;
@@ -35,6 +36,8 @@ pub const MAGIC: [u8; 8] = *b"sxtfctrs";
 pub const VERSION: u32 = 1;
 const BYTE_ORDER: u32 = 0x0A0B_0C0D;
 const HEADER: usize = 8 + 4 + 4 + 4 + 4 + 8 + 8 + 8 + 8;
+/// Flag bit: an offsets block follows the values.
+const FLAG_BIAS: u32 = 1;
 
 /// Our own 64-bit checksum: FNV-1a's offset and prime applied to 8-byte little-endian
 /// words (the last zero-padded), then mixed with the length. Word-wise, so checking a
@@ -114,15 +117,24 @@ pub struct Twin {
 }
 
 /// The binary form of a table whose CSV twin is `twin`.
-pub fn encode(ids: &IdMap, rank: usize, values: &[f64], twin: Twin) -> Vec<u8> {
+/// With `bias`, the rows' offsets follow the values.
+pub fn encode(
+    ids: &IdMap,
+    rank: usize,
+    values: &[f64],
+    bias: Option<&[f64]>,
+    twin: Twin,
+) -> Vec<u8> {
     let id_block: usize = ids.names().iter().map(|n| 4 + n.len()).sum();
-    let mut out = Vec::with_capacity(HEADER + id_block + values.len() * 8 + 8);
-    write_header(&mut out, MAGIC, rank, ids.len(), twin, id_block);
+    let extra = bias.map_or(0, <[f64]>::len);
+    let mut out = Vec::with_capacity(HEADER + id_block + (values.len() + extra) * 8 + 8);
+    let flags = if bias.is_some() { FLAG_BIAS } else { 0 };
+    write_header(&mut out, MAGIC, (rank, flags), ids.len(), twin, id_block);
     for name in ids.names() {
         out.extend_from_slice(&(name.len() as u32).to_le_bytes());
         out.extend_from_slice(name.as_bytes());
     }
-    for v in values {
+    for v in values.iter().chain(bias.unwrap_or_default()) {
         out.extend_from_slice(&v.to_le_bytes());
     }
     let sum = checksum(&out);
@@ -138,7 +150,7 @@ pub struct Unusable(pub &'static str);
 fn write_header(
     out: &mut Vec<u8>,
     magic: [u8; 8],
-    rank: usize,
+    (rank, flags): (usize, u32),
     rows: usize,
     twin: Twin,
     id_block: usize,
@@ -147,7 +159,7 @@ fn write_header(
     out.extend_from_slice(&VERSION.to_le_bytes());
     out.extend_from_slice(&BYTE_ORDER.to_le_bytes());
     out.extend_from_slice(&(rank as u32).to_le_bytes());
-    out.extend_from_slice(&0u32.to_le_bytes());
+    out.extend_from_slice(&flags.to_le_bytes());
     out.extend_from_slice(&(rows as u64).to_le_bytes());
     out.extend_from_slice(&twin.bytes.to_le_bytes());
     out.extend_from_slice(&twin.checksum.to_le_bytes());
@@ -206,12 +218,12 @@ fn u64_at(bytes: &[u8], at: usize) -> u64 {
     u64::from_le_bytes(bytes[at..at + 8].try_into().expect("8 bytes"))
 }
 
-/// Decodes a binary table, checking it against the expected rank and row count and the
-/// current size of its CSV twin; `twin_checksum` computes the twin's checksum, and is only
-/// called when everything cheaper has checked out.
+/// Decodes a binary table, checking it against the expected rank, row count and presence
+/// of offsets (`biased`) and the current size of its CSV twin; `twin_checksum` computes the
+/// twin's checksum, and is only called when everything cheaper has checked out.
 pub fn decode(
     bytes: &[u8],
-    rank: usize,
+    (rank, biased): (usize, bool),
     rows: usize,
     twin_bytes: u64,
     twin_checksum: impl FnOnce() -> Option<u64>,
@@ -220,10 +232,13 @@ pub fn decode(
     if u32_at(bytes, 16) as usize != rank {
         return Err(Unusable("rank differs from the manifest"));
     }
+    if u32_at(bytes, 20) != if biased { FLAG_BIAS } else { 0 } {
+        return Err(Unusable("offsets differ from the manifest"));
+    }
     let id_block =
         usize::try_from(u64_at(bytes, 48)).map_err(|_| Unusable("id block too large"))?;
     let values_len = rows
-        .checked_mul(rank)
+        .checked_mul(rank + usize::from(biased))
         .and_then(|n| n.checked_mul(8))
         .ok_or(Unusable("too large"))?;
     let expected_len = HEADER
@@ -256,14 +271,20 @@ pub fn decode(
     if at != end {
         return Err(Unusable("id block has trailing bytes"));
     }
-    let values: Vec<f64> = body[end..]
+    let mut values: Vec<f64> = body[end..]
         .chunks_exact(8)
         .map(|c| f64::from_le_bytes(c.try_into().expect("8 bytes")))
         .collect();
     if values.iter().any(|v| !v.is_finite()) {
         return Err(Unusable("non-finite value"));
     }
-    Ok(FactorTable { ids, rank, values })
+    let bias = biased.then(|| values.split_off(rows * rank));
+    Ok(FactorTable {
+        ids,
+        rank,
+        values,
+        bias,
+    })
 }
 
 /// Magic of a binary ratings file.
@@ -275,7 +296,7 @@ pub const RATINGS_MAGIC: [u8; 8] = *b"sxtrtngs";
 pub fn encode_ratings(ratings: &Ratings, twin: Twin) -> Vec<u8> {
     let n = ratings.entries.len();
     let mut out = Vec::with_capacity(HEADER + n * 17 + 8);
-    write_header(&mut out, RATINGS_MAGIC, 0, n, twin, 0);
+    write_header(&mut out, RATINGS_MAGIC, (0, 0), n, twin, 0);
     out.extend(ratings.entries.iter().flat_map(|r| r.user.to_le_bytes()));
     out.extend(ratings.entries.iter().flat_map(|r| r.item.to_le_bytes()));
     out.extend(ratings.entries.iter().flat_map(|r| r.value.to_le_bytes()));
@@ -351,6 +372,7 @@ mod tests {
             ids,
             rank: 3,
             values: vec![0.1, -2.0, 1e-300, 3.5, 0.0, -0.0],
+            bias: None,
         }
     }
 
@@ -361,32 +383,55 @@ mod tests {
             bytes: 77,
             checksum: 5,
         };
-        let bytes = encode(&t.ids, 3, &t.values, twin);
-        let back = decode(&bytes, 3, 2, 77, || Some(5)).unwrap();
+        let bytes = encode(&t.ids, 3, &t.values, None, twin);
+        let back = decode(&bytes, (3, false), 2, 77, || Some(5)).unwrap();
         assert_eq!(back.ids, t.ids);
         assert_eq!(
             back.values.iter().map(|v| v.to_bits()).collect::<Vec<_>>(),
             t.values.iter().map(|v| v.to_bits()).collect::<Vec<_>>()
         );
         assert_eq!(
-            decode(&bytes, 4, 2, 77, || Some(5)).unwrap_err(),
+            decode(&bytes, (4, false), 2, 77, || Some(5)).unwrap_err(),
             Unusable("rank differs from the manifest")
         );
         let changed = Unusable("the CSV twin changed since the binary copy was written");
-        assert_eq!(decode(&bytes, 3, 2, 78, || Some(5)).unwrap_err(), changed);
-        assert_eq!(decode(&bytes, 3, 2, 77, || Some(6)).unwrap_err(), changed);
+        assert_eq!(
+            decode(&bytes, (3, false), 2, 78, || Some(5)).unwrap_err(),
+            changed
+        );
+        assert_eq!(
+            decode(&bytes, (3, false), 2, 77, || Some(6)).unwrap_err(),
+            changed
+        );
         let mut flipped = bytes.clone();
         let middle = flipped.len() - 20;
         flipped[middle] ^= 1;
         assert_eq!(
-            decode(&flipped, 3, 2, 77, || Some(5)).unwrap_err(),
+            decode(&flipped, (3, false), 2, 77, || Some(5)).unwrap_err(),
             Unusable("checksum mismatch")
         );
-        assert!(decode(&bytes[..bytes.len() - 1], 3, 2, 77, || Some(5)).is_err());
+        assert!(decode(&bytes[..bytes.len() - 1], (3, false), 2, 77, || Some(5)).is_err());
         let junk = [b'x'; 80];
         assert_eq!(
-            decode(&junk, 3, 2, 77, || Some(5)).unwrap_err(),
+            decode(&junk, (3, false), 2, 77, || Some(5)).unwrap_err(),
             Unusable("not a sextant binary file of this kind")
+        );
+        // Offsets ride after the values, and must be expected.
+        let bias = [0.25, -1.0];
+        let biased = encode(&t.ids, 3, &t.values, Some(&bias), twin);
+        let back = decode(&biased, (3, true), 2, 77, || Some(5)).unwrap();
+        assert_eq!(
+            (back.values, back.bias),
+            (t.values.clone(), Some(bias.to_vec()))
+        );
+        let differ = Unusable("offsets differ from the manifest");
+        assert_eq!(
+            decode(&biased, (3, false), 2, 77, || Some(5)).unwrap_err(),
+            differ
+        );
+        assert_eq!(
+            decode(&bytes, (3, true), 2, 77, || Some(5)).unwrap_err(),
+            differ
         );
     }
 

@@ -13,7 +13,10 @@ pub mod ratings;
 pub mod scale;
 pub mod split;
 
-pub use factors::{FactorTable, load_factor_table, read_factor_table, write_factor_table};
+pub use factors::{
+    BiasColumn, FactorTable, load_factor_table, read_factor_table, read_factor_table_with,
+    write_factor_table,
+};
 pub use ids::{IdMap, ItemIndex, UserIndex};
 pub use meta::{ItemMeta, ItemsMeta, load_items_meta, read_items_meta, write_items_meta};
 pub use ratings::{

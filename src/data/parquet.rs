@@ -3,7 +3,9 @@
 //!
 //! Reading accepts an id column (named by option, else `id`, else the first text column)
 //! and either one list-of-floats column (named by option, or the only one) or the float
-//! columns in schema order (`f1 … fD`). Writing gives `id` plus `f1 … fD` as doubles.
+//! columns in schema order (`f1 … fD`), and, for a model with biases, a float column of
+//! offsets named by option. Writing gives `id`, `bias` for a model with biases, and
+//! `f1 … fD`, as doubles.
 
 use std::fs::File;
 use std::path::Path;
@@ -17,7 +19,7 @@ use arrow_schema::{DataType, Field, Schema};
 use parquet::arrow::ArrowWriter;
 use parquet::arrow::arrow_reader::ParquetRecordBatchReaderBuilder;
 
-use super::factors::FactorTable;
+use super::factors::{BIAS, BiasColumn, FactorTable};
 use super::ids::IdMap;
 use super::ratings::{MAX_ID_BYTES, MAX_MAGNITUDE};
 use crate::error::DataError;
@@ -35,10 +37,12 @@ fn invalid(path: &Path, reason: impl Into<String>) -> DataError {
     DataError::in_file(path, reason)
 }
 
-/// Reads a factor table from a Parquet file.
+/// Reads a factor table from a Parquet file; `bias` says which float column, if any, holds
+/// the rows' offsets (as for CSV tables: a column named `bias` is never read as a factor).
 pub fn read_factor_parquet(
     path: &Path,
     columns: &ParquetColumns,
+    bias: BiasColumn<'_>,
 ) -> Result<FactorTable, DataError> {
     let file = File::open(path).map_err(|e| DataError::read(path, e))?;
     let builder = ParquetRecordBatchReaderBuilder::try_new(file)
@@ -81,6 +85,43 @@ pub fn read_factor_parquet(
             format!("the id column '{}' is not text", names[id_col]),
         ));
     }
+    let named_bias =
+        (0..fields.len()).find(|&c| c != id_col && names[c].eq_ignore_ascii_case(BIAS));
+    let bias_col = match bias {
+        BiasColumn::Named(name, option) => {
+            let c = find(name)
+                .or_else(|| names.iter().position(|n| n.eq_ignore_ascii_case(name)))
+                .ok_or_else(|| {
+                    invalid(
+                        path,
+                        format!(
+                            "no column '{name}' (found: {}); name the right column with {option}",
+                            names.join(", ")
+                        ),
+                    )
+                })?;
+            if c == id_col || !is_float(fields[c].data_type()) {
+                return Err(invalid(
+                    path,
+                    format!("the offsets column '{name}' is not a float column"),
+                ));
+            }
+            Some(c)
+        }
+        BiasColumn::IfPresent => named_bias,
+        BiasColumn::Absent => {
+            if let Some(c) = named_bias {
+                return Err(invalid(
+                    path,
+                    format!(
+                        "column '{}' holds offsets, not factors: used as a factor or left out it would shift every prediction. Import it as the table's bias column (import --user-bias-col / --item-bias-col)",
+                        names[c]
+                    ),
+                ));
+            }
+            None
+        }
+    };
     let lists: Vec<usize> = (0..fields.len())
         .filter(|&c| is_list(fields[c].data_type()))
         .collect();
@@ -108,7 +149,7 @@ pub fn read_factor_parquet(
             ));
         }
         None => (0..fields.len())
-            .filter(|&c| c != id_col && is_float(fields[c].data_type()))
+            .filter(|&c| c != id_col && Some(c) != bias_col && is_float(fields[c].data_type()))
             .collect(),
     };
     if vector_cols.is_empty() {
@@ -127,6 +168,7 @@ pub fn read_factor_parquet(
         ids: IdMap::new(),
         rank: 0,
         values: Vec::new(),
+        bias: bias_col.map(|_| Vec::new()),
     };
     let mut row = 0usize;
     for batch in reader {
@@ -184,6 +226,16 @@ pub fn read_factor_parquet(
             if table.ids.push_new(id).is_none() {
                 return Err(at(format!("id '{id}' appears more than once")));
             }
+            if let (Some(c), Some(offsets)) = (bias_col, &mut table.bias) {
+                let b = float_at(batch.column(c), r)
+                    .ok_or_else(|| at(format!("the offset of '{id}' is missing")))?;
+                if !b.is_finite() || b.abs() > MAX_MAGNITUDE {
+                    return Err(at(format!(
+                        "the offset of '{id}' is {b}: offsets must be finite, within ±1e12"
+                    )));
+                }
+                offsets.push(b + 0.0);
+            }
             table.values.extend(vector.iter().map(|v| v + 0.0));
         }
     }
@@ -238,19 +290,29 @@ fn list_at(column: &ArrayRef, r: usize) -> Option<Vec<f64>> {
         .and_then(|a| floats(&a.value(r)))
 }
 
-/// Writes a factor table as Parquet: `id` (text) and `f1 … fD` (doubles).
+/// Writes a factor table as Parquet: `id` (text), `bias` when given, and `f1 … fD`
+/// (doubles).
 pub fn write_factor_parquet(
     out: impl std::io::Write + Send,
     ids: &IdMap,
     values: &[f64],
     rank: usize,
+    bias: Option<&[f64]>,
 ) -> std::io::Result<()> {
     let mut fields = vec![Field::new("id", DataType::Utf8, false)];
+    if bias.is_some() {
+        fields.push(Field::new(BIAS, DataType::Float64, false));
+    }
     fields.extend((1..=rank).map(|d| Field::new(format!("f{d}"), DataType::Float64, false)));
     let schema = Arc::new(Schema::new(fields));
     let mut arrays: Vec<ArrayRef> = vec![Arc::new(StringArray::from_iter_values(
         ids.names().iter().map(String::as_str),
     ))];
+    if let Some(bias) = bias {
+        arrays.push(Arc::new(Float64Array::from_iter_values(
+            bias.iter().copied(),
+        )));
+    }
     for d in 0..rank {
         arrays.push(Arc::new(Float64Array::from_iter_values(
             values.chunks_exact(rank).map(|v| v[d]),

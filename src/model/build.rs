@@ -2,7 +2,7 @@
 
 use super::FactorModel;
 use super::fit::{Center, FitOptions, FitResult};
-use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Input, Manifest, Origin, RunOptions};
+use super::manifest::{Counts, FORMAT_TAG, Input, Manifest, Origin, RunOptions, version_for};
 use super::store::{Model, default_files};
 use crate::analysis::fit_metrics;
 use crate::data::{ItemsMeta, RatingScale, Ratings};
@@ -49,10 +49,11 @@ fn assemble(
     let metrics = fit_metrics(&factors, &ratings, &provenance.scale)?;
     let manifest = Manifest {
         format: FORMAT_TAG.into(),
-        version: FORMAT_VERSION,
+        version: version_for(factors.biases.is_some()),
         origin: record.origin,
         rank: factors.rank,
         lambda: record.lambda,
+        lambda_bias: factors.biases.as_ref().map(|b| b.lambda),
         sigma2: record.sigma2,
         mu: factors.mu,
         center: record.center,

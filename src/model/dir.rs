@@ -661,20 +661,24 @@ fn write_files(dir: &Path, model: &Model) -> io::Result<()> {
             &files.users_bin,
             &model.ratings.users,
             &f.users,
+            f.biases.as_ref().map(|b| &b.user[..]),
         ),
         (
             &files.items,
             &files.items_bin,
             &model.ratings.items,
             &f.items,
+            f.biases.as_ref().map(|b| &b.item[..]),
         ),
     ];
-    for (csv_name, bin_name, ids, values) in tables {
+    for (csv_name, bin_name, ids, values, bias) in tables {
         let csv_path = dir.join(csv_name);
-        write_synced(&csv_path, |w| write_factor_table(w, ids, f.rank, values))?;
+        write_synced(&csv_path, |w| {
+            write_factor_table(w, ids, f.rank, values, bias)
+        })?;
         if let Some(bin_name) = bin_name {
             let twin = stream_twin(File::open(&csv_path)?)?;
-            let encoded = crate::data::binary::encode(ids, f.rank, values, twin);
+            let encoded = crate::data::binary::encode(ids, f.rank, values, bias, twin);
             write_synced(&dir.join(bin_name), |w| w.write_all(&encoded))?;
         }
     }

@@ -10,7 +10,7 @@ use serde::{Deserialize, Serialize};
 
 use super::kernels::{BATCH, LOOKAHEAD};
 use super::solve::RidgeWorkspace;
-use super::{FactorModel, dot, squared_norm};
+use super::{Biases, FactorModel, dot, squared_norm};
 use crate::data::ids::first_few;
 use crate::data::{FactorTable, Ratings};
 use crate::error::{DataError, FitError};
@@ -67,6 +67,10 @@ pub struct FitOptions {
     pub tol: f64,
     /// Seed for the initial item vectors.
     pub seed: u64,
+    /// Fit member and item offsets beside the vectors, with this prior precision λ_b
+    /// (`None`: a model without biases).
+    #[serde(default)]
+    pub lambda_bias: Option<f64>,
 }
 
 impl Default for FitOptions {
@@ -79,6 +83,7 @@ impl Default for FitOptions {
             max_iters: 100,
             tol: 1e-6,
             seed: 0,
+            lambda_bias: None,
         }
     }
 }
@@ -114,6 +119,13 @@ impl FitOptions {
         if self.max_iters == 0 {
             return bad("--max-iters must be at least 1".into());
         }
+        if let Some(lambda_bias) = self.lambda_bias
+            && !(lambda_bias.is_finite() && lambda_bias >= 0.0)
+        {
+            return bad(format!(
+                "--lambda-bias must be a finite number ≥ 0, not {lambda_bias}"
+            ));
+        }
         Ok(())
     }
 }
@@ -131,25 +143,11 @@ pub struct IterationRecord {
     pub holdout_rmse: Option<f64>,
 }
 
-/// Per-member and per-item offsets fitted beside the vectors: the model becomes
-/// `M_ij ~ N(μ + b_i + c_j + u_i·v_j, σ²)` with `b, c ~ N(0, λ_b⁻¹)`.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Biases {
-    /// `b_i`, one per member.
-    pub user: Vec<f64>,
-    /// `c_j`, one per item.
-    pub item: Vec<f64>,
-    /// Their prior precision λ_b.
-    pub lambda: f64,
-}
-
 /// What a fit produces.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitResult {
-    /// The fitted vectors.
+    /// The fitted vectors (and offsets, for a fit with biases).
     pub factors: FactorModel,
-    /// The fitted offsets, for a fit with biases.
-    pub biases: Option<Biases>,
     /// One record per iteration.
     pub trace: Vec<IterationRecord>,
     /// True when the tolerance was reached before the iteration limit.
@@ -225,7 +223,6 @@ pub struct Fitter<'a> {
 /// `diag(λσ², …, λσ², λ_bσ²)`, solved exactly
 /// ([`RidgeWorkspace::solve_batch_with_offsets`]); an item's `(v_j, c_j)` likewise.
 struct Biased {
-    biases: Biases,
     /// Targets `M − μ` minus the other side's offsets, in the layout of `by_user` and
     /// `by_item`, rewritten before each half-step (a streaming pass: cheaper than reading
     /// an offset beside every row inside the solves).
@@ -255,7 +252,9 @@ impl<'a> Fitter<'a> {
             Center::None | Center::Given => 0.0,
         };
         if options.lambda == 0.0 {
-            guard_underdetermined(ratings, d)?;
+            // With a free, unpenalised offset a member needs one rating more than the rank.
+            let free_offset = options.lambda_bias == Some(0.0);
+            guard_underdetermined(ratings, d, free_offset)?;
         }
         let by_user = Compressed::build(
             ratings.users.len(),
@@ -280,6 +279,7 @@ impl<'a> Fitter<'a> {
             mu,
             users: vec![0.0; ratings.users.len() * d],
             items,
+            biases: None,
         };
         Ok(Self {
             options: options.clone(),
@@ -289,40 +289,49 @@ impl<'a> Fitter<'a> {
             holdout,
             model,
             biased: None,
-        })
+        }
+        .with_optional_biases(options.lambda_bias))
+    }
+
+    fn with_optional_biases(self, lambda_bias: Option<f64>) -> Self {
+        match lambda_bias {
+            Some(lambda_bias) => self.biased_with(lambda_bias),
+            None => self,
+        }
     }
 
     /// Fits a member offset `b_i` and an item offset `c_j` beside the vectors, with prior
     /// precision `lambda_bias` (offsets start at 0). Coordinate ascent stays exact and
     /// monotone: each half-step solves every `(u_i, b_i)` (or `(v_j, c_j)`) jointly.
-    pub fn with_biases(mut self, lambda_bias: f64) -> Result<Self, FitError> {
-        if !(lambda_bias.is_finite() && lambda_bias >= 0.0) {
-            return Err(FitError::Option(format!(
-                "--lambda-bias must be a finite number ≥ 0, not {lambda_bias}"
-            )));
+    pub fn with_biases(self, lambda_bias: f64) -> Result<Self, FitError> {
+        FitOptions {
+            lambda_bias: Some(lambda_bias),
+            ..self.options.clone()
         }
+        .validate()?;
+        if self.options.lambda == 0.0 && lambda_bias == 0.0 {
+            guard_underdetermined(self.ratings, self.model.rank, true)?;
+        }
+        Ok(self.biased_with(lambda_bias))
+    }
+
+    fn biased_with(mut self, lambda_bias: f64) -> Self {
+        self.options.lambda_bias = Some(lambda_bias);
+        self.model.biases = Some(Biases {
+            user: vec![0.0; self.by_user.rows()],
+            item: vec![0.0; self.by_item.rows()],
+            lambda: lambda_bias,
+        });
         self.biased = Some(Biased {
-            biases: Biases {
-                user: vec![0.0; self.by_user.rows()],
-                item: vec![0.0; self.by_item.rows()],
-                lambda: lambda_bias,
-            },
             user_targets: self.by_user.targets.clone(),
             item_targets: self.by_item.targets.clone(),
         });
-        Ok(self)
+        self
     }
 
     /// The fitted offsets so far, for a fit with biases.
     pub fn biases(&self) -> Option<&Biases> {
-        self.biased.as_ref().map(|b| &b.biases)
-    }
-
-    /// `b_i + c_j` (0 without biases).
-    fn offset(&self, i: u32, j: u32) -> f64 {
-        self.biased.as_ref().map_or(0.0, |b| {
-            b.biases.user[i as usize] + b.biases.item[j as usize]
-        })
+        self.model.biases.as_ref()
     }
 
     /// The current vectors.
@@ -333,15 +342,15 @@ impl<'a> Fitter<'a> {
     /// Updates every user vector (one ridge solve each) for the current item vectors.
     pub fn update_users(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
-        if let Some(b) = &mut self.biased {
+        if let (Some(b), Some(biases)) = (&mut self.biased, &mut self.model.biases) {
             let failed = biased_half_step(
                 &self.by_user,
                 &mut b.user_targets,
-                &b.biases.item,
-                (&mut self.model.users, &mut b.biases.user),
+                &biases.item,
+                (&mut self.model.users, &mut biases.user),
                 &self.model.items,
                 self.model.rank,
-                (ridge, b.biases.lambda * self.options.sigma2),
+                (ridge, biases.lambda * self.options.sigma2),
             );
             return failed.map_or(Ok(()), |i| {
                 Err(self.not_positive_definite("user", self.ratings.users.name(i)))
@@ -362,15 +371,15 @@ impl<'a> Fitter<'a> {
     /// Updates every item vector for the current user vectors.
     pub fn update_items(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
-        if let Some(b) = &mut self.biased {
+        if let (Some(b), Some(biases)) = (&mut self.biased, &mut self.model.biases) {
             let failed = biased_half_step(
                 &self.by_item,
                 &mut b.item_targets,
-                &b.biases.user,
-                (&mut self.model.items, &mut b.biases.item),
+                &biases.user,
+                (&mut self.model.items, &mut biases.item),
                 &self.model.users,
                 self.model.rank,
-                (ridge, b.biases.lambda * self.options.sigma2),
+                (ridge, biases.lambda * self.options.sigma2),
             );
             return failed.map_or(Ok(()), |j| {
                 Err(self.not_positive_definite("item", self.ratings.items.name(j)))
@@ -413,7 +422,7 @@ impl<'a> Fitter<'a> {
                 items
                     .iter()
                     .zip(targets)
-                    .map(|(&j, &y)| (y - self.offset(i as u32, j) - dot(u, m.item(j))).powi(2))
+                    .map(|(&j, &y)| (y - m.offset(i as u32, j) - dot(u, m.item(j))).powi(2))
                     .sum::<f64>()
             })
             .collect();
@@ -429,7 +438,7 @@ impl<'a> Fitter<'a> {
             .holdout
             .par_iter()
             .with_min_len(1024)
-            .map(|&(i, j, y)| (y - m.predict(i, j) - self.offset(i, j)).powi(2))
+            .map(|&(i, j, y)| (y - m.predict(i, j)).powi(2))
             .collect();
         Some((squares.iter().sum::<f64>() / squares.len() as f64).sqrt())
     }
@@ -443,8 +452,7 @@ impl<'a> Fitter<'a> {
         let m = &self.model;
         let norms: f64 = m.users.chunks_exact(m.rank).map(squared_norm).sum::<f64>()
             + m.items.chunks_exact(m.rank).map(squared_norm).sum::<f64>();
-        let offsets = self.biased.as_ref().map_or(0.0, |b| {
-            let b = &b.biases;
+        let offsets = m.biases.as_ref().map_or(0.0, |b| {
             b.lambda / 2.0
                 * (b.user.iter().map(|x| x * x).sum::<f64>()
                     + b.item.iter().map(|x| x * x).sum::<f64>())
@@ -487,7 +495,6 @@ impl<'a> Fitter<'a> {
         }
         Ok(FitResult {
             factors: self.model,
-            biases: self.biased.map(|b| b.biases),
             trace,
             converged,
         })
@@ -603,7 +610,14 @@ fn biased_half_step(
     failures.first().copied()
 }
 
-fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {
+/// Refuses a fit with λ = 0 where some member or item has fewer training ratings than the
+/// unknowns of its solve: the rank, plus one with an unpenalised offset.
+fn guard_underdetermined(
+    ratings: &Ratings,
+    rank: usize,
+    free_offset: bool,
+) -> Result<(), FitError> {
+    let d = rank + usize::from(free_offset);
     let (users, items) = ratings.train_support();
     let short_users: Vec<u32> = (0..users.len() as u32)
         .filter(|&i| (users[i as usize] as usize) < d)
@@ -615,7 +629,8 @@ fn guard_underdetermined(ratings: &Ratings, d: usize) -> Result<(), FitError> {
         return Ok(());
     }
     Err(FitError::Underdetermined {
-        rank: d,
+        rank,
+        free_offset,
         short_users: short_users.len(),
         short_items: short_items.len(),
         user_list: first_few(short_users.iter().map(|&i| ratings.users.name(i)), 5),

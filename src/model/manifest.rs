@@ -9,8 +9,15 @@ use crate::data::{Duplicates, RatingScale};
 
 /// The `format` tag every manifest carries.
 pub const FORMAT_TAG: &str = "sextant-model";
-/// The manifest version this build writes and reads.
-pub const FORMAT_VERSION: u32 = 1;
+/// The newest manifest version this build writes and reads: 2 for a model with biases
+/// (its factor tables carry a `bias` column), 1 for one without (written so, byte for byte
+/// as before, so that older builds keep reading the models they can).
+pub const FORMAT_VERSION: u32 = 2;
+
+/// The version a model is written with.
+pub fn version_for(biased: bool) -> u32 {
+    if biased { 2 } else { 1 }
+}
 
 /// How the vectors came to be.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -113,6 +120,10 @@ pub struct Manifest {
     pub rank: usize,
     /// Prior precision λ.
     pub lambda: f64,
+    /// Prior precision λ_b of the member and item offsets, for a model with biases (whose
+    /// factor tables then carry a `bias` column); absent otherwise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lambda_bias: Option<f64>,
     /// Noise variance σ².
     pub sigma2: f64,
     /// Global offset μ.

@@ -11,8 +11,9 @@ use std::path::{Component, Path, PathBuf};
 
 use super::FactorModel;
 use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Files, Manifest};
+use crate::data::factors::BIAS;
 use crate::data::ratings::{RatingColumns, RatingsOptions, read_ratings_with_ids};
-use crate::data::{ItemsMeta, Ratings, read_factor_table, read_items_meta};
+use crate::data::{BiasColumn, ItemsMeta, Ratings, read_factor_table_with, read_items_meta};
 use crate::error::DataError;
 
 pub use super::dir::{
@@ -127,12 +128,12 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     {
         check_file_name(name, &manifest_path)?;
     }
-    let rank = manifest.rank;
+    let shape = (manifest.rank, manifest.lambda_bias.is_some());
     let users = load_table(
         source,
         files.users_bin.as_deref(),
         &files.users,
-        rank,
+        shape,
         manifest.counts.users,
         "users",
     )?;
@@ -140,7 +141,7 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         source,
         files.items_bin.as_deref(),
         &files.items,
-        rank,
+        shape,
         manifest.counts.items,
         "items",
     )?;
@@ -214,11 +215,16 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         }
         None => None,
     };
+    let biases = match (manifest.lambda_bias, users.bias, items.bias) {
+        (Some(lambda), Some(user), Some(item)) => Some(super::Biases { user, item, lambda }),
+        _ => None,
+    };
     let factors = FactorModel {
-        rank,
+        rank: manifest.rank,
         mu: manifest.mu,
         users: users.values,
         items: items.values,
+        biases,
     };
     Ok(Model {
         manifest,
@@ -234,39 +240,48 @@ fn fast_table(
     source: &dyn ModelSource,
     bin: Option<&str>,
     csv: &str,
-    rank: usize,
+    shape: (usize, bool),
     rows: usize,
 ) -> Option<crate::data::FactorTable> {
     let bin = bin?;
     let csv_bytes = source.size(csv)?;
     let bytes = source.read(bin).ok()?;
-    crate::data::binary::decode(&bytes, rank, rows, csv_bytes, || source.checksum(csv)).ok()
+    crate::data::binary::decode(&bytes, shape, rows, csv_bytes, || source.checksum(csv)).ok()
 }
 
-/// A factor table from its binary twin when that checks out, else from the CSV.
+/// A factor table from its binary twin when that checks out, else from the CSV. `shape` is
+/// the rank and whether the model has biases (a `bias` column).
 fn load_table(
     source: &dyn ModelSource,
     bin: Option<&str>,
     csv: &str,
-    rank: usize,
+    shape: (usize, bool),
     rows: usize,
     what: &str,
 ) -> Result<crate::data::FactorTable, DataError> {
-    match fast_table(source, bin, csv, rank, rows) {
+    match fast_table(source, bin, csv, shape, rows) {
         Some(table) => Ok(table),
-        None => read_table(source, csv, rank, rows, what),
+        None => read_table(source, csv, shape, rows, what),
     }
 }
 
 fn read_table(
     source: &dyn ModelSource,
     name: &str,
-    rank: usize,
+    (rank, biased): (usize, bool),
     expected: usize,
     what: &str,
 ) -> Result<crate::data::FactorTable, DataError> {
     let path = source.path(name);
-    let table = read_factor_table(source.read(name)?.as_slice(), &path)?;
+    let column = if biased {
+        BiasColumn::Named(
+            BIAS,
+            "the manifest records biases (lambda_bias), so each factor table needs a bias column after its id",
+        )
+    } else {
+        BiasColumn::Absent
+    };
+    let table = read_factor_table_with(source.read(name)?.as_slice(), &path, column)?;
     if table.rank != rank {
         return Err(DataError::at_line(
             &path,
@@ -323,11 +338,24 @@ pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> 
             manifest.format
         ));
     }
-    if manifest.version != FORMAT_VERSION {
+    if manifest.version == 0 || manifest.version > FORMAT_VERSION {
         return bad(format!(
-            "format version {} is not supported by this sextant, which reads version {FORMAT_VERSION}",
+            "format version {} is not supported by this sextant, which reads versions 1 to {FORMAT_VERSION}",
             manifest.version
         ));
+    }
+    if let Some(lambda_bias) = manifest.lambda_bias {
+        if manifest.version < 2 {
+            return bad(format!(
+                "lambda_bias makes this a model with biases, which is format version 2, not {}",
+                manifest.version
+            ));
+        }
+        if !(lambda_bias.is_finite() && lambda_bias >= 0.0) {
+            return bad(format!(
+                "lambda_bias is {lambda_bias}, not a finite number ≥ 0"
+            ));
+        }
     }
     if let Err(why) = crate::limits::check_rank(manifest.rank) {
         return bad(format!("the rank {why}"));

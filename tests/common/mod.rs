@@ -60,7 +60,12 @@ pub fn table(prefix: &str, values: Vec<f64>, rank: usize) -> FactorTable {
     for k in 0..values.len() / rank {
         ids.intern(&format!("{prefix}{k}"));
     }
-    FactorTable { ids, rank, values }
+    FactorTable {
+        ids,
+        rank,
+        values,
+        bias: None,
+    }
 }
 
 /// Largest absolute difference, relative to max(1, |expected|).

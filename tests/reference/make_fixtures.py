@@ -275,6 +275,36 @@ def fold_in():
     return {"source": "numpy.linalg.solve", "cases": cases}
 
 
+def biased_profile():
+    """A profile folded into fixed item vectors and offsets in a model with biases: one
+    ridge solve on features [v_j, 1] with penalty diag(lambda sigma2, ..., lambda_b sigma2)
+    and targets r - mu - c_j (numpy.linalg.solve); the posterior of (u, b) is
+    S = sigma2 A^-1 with A that penalty plus X'X, and a new rating's predictive SD
+    sqrt(sigma2 + x' S x) with x = [v, 1] (Bishop 2006, eq. 3.59, with the offset as one
+    more feature)."""
+    rng = np.random.default_rng(71)
+    cases = []
+    for n_items, d, n_rated, lam, lam_b, sigma2, mu in [(40, 6, 9, 1.0, 0.5, 1.0, 3.5), (25, 3, 2, 0.3, 2.0, 0.7, 0.0), (60, 10, 30, 2.0, 0.01, 0.5, 2.75), (30, 4, 0, 1.0, 1.0, 1.0, 3.0)]:
+        items = rng.normal(size=(n_items, d))
+        offsets = rng.normal(scale=0.5, size=n_items)
+        rated = np.sort(rng.choice(n_items, size=n_rated, replace=False))
+        ratings = rng.integers(1, 6, size=n_rated).astype(float)
+        x = np.hstack([items[rated], np.ones((n_rated, 1))])
+        penalty = np.diag([lam * sigma2] * d + [lam_b * sigma2])
+        a = penalty + x.T @ x
+        w = np.linalg.solve(a, x.T @ (ratings - mu - offsets[rated]))
+        u, b = w[:d], w[d]
+        s = sigma2 * np.linalg.inv(a)
+        features = np.hstack([items, np.ones((n_items, 1))])
+        sd = [float(np.sqrt(sigma2 + f @ s @ f)) for f in features]
+        cases.append({"d": d, "lambda": lam, "lambda_bias": lam_b, "sigma2": sigma2, "mu": mu,
+                      "items": items.tolist(), "item_offsets": offsets.tolist(),
+                      "rated": rated.astype(float).tolist(), "ratings": ratings.tolist(),
+                      "vector": u.tolist(), "bias": float(b),
+                      "predictions": (mu + b + offsets + items @ u).tolist(), "sd": sd})
+    return {"source": "numpy.linalg.solve and numpy.linalg.inv (Bishop 2006, eq. 3.59)", "cases": cases}
+
+
 def build():
     return {
         "ridge_steps.json": {
@@ -300,6 +330,7 @@ def build():
         "hypergeometric.json": hypergeometric(),
         "ndcg.json": ndcg_cases(),
         "fold_in.json": fold_in(),
+        "biased_profile.json": biased_profile(),
     }
 
 

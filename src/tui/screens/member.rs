@@ -218,6 +218,7 @@ impl MemberView {
                 model,
                 &Profile {
                     vector: &w.vector,
+                    bias: w.bias,
                     rated: &w.ratings,
                 },
                 item,

@@ -88,9 +88,8 @@ impl Shared {
 
     /// The inner-product index for suggestions, built on first use.
     pub fn suggestion_index(&self) -> &InnerProductIndex {
-        let f = &self.model.factors;
         self.suggestions
-            .get_or_init(|| InnerProductIndex::build(&f.items, f.rank, Path::Auto))
+            .get_or_init(|| sextant::analysis::suggest::ranking_index(&self.model))
     }
 
     /// The items' categories and the number of items in each.

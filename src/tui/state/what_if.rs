@@ -2,8 +2,7 @@
 //! from them against the fixed item vectors. The vector, suggestions and explanations
 //! follow every edit at once.
 
-use sextant::analysis::explain::Profile;
-use sextant::analysis::foldin::{fold_in, suggest_profile};
+use sextant::analysis::foldin::{Folded, fold_in, suggest_profile};
 use sextant::data::RatingScale;
 
 use super::shared::Shared;
@@ -20,6 +19,8 @@ pub struct WhatIf {
     pub ratings: Vec<(u32, f64)>,
     /// The folded-in vector (zeros when it cannot be determined).
     pub vector: Vec<f64>,
+    /// The folded-in offset (0 without biases or when it cannot be determined).
+    pub bias: f64,
     /// Why there is no vector, when there is none.
     pub problem: Option<String>,
 }
@@ -53,16 +54,22 @@ fn refresh(view: &mut MemberView, shared: &Shared, keep: Option<u32>) {
     let Some(w) = &mut view.what_if else { return };
     let model = &shared.model;
     let f = &model.factors;
-    let (vector, problem) = match fold_in(model, &w.ratings) {
+    let (folded, problem) = match fold_in(model, &w.ratings) {
         Ok(v) => (v, None),
-        Err(e) => (vec![0.0; f.rank], Some(e.to_string())),
+        Err(e) => (
+            Folded {
+                vector: vec![0.0; f.rank],
+                bias: 0.0,
+            },
+            Some(e.to_string()),
+        ),
     };
     let scale = &model.manifest.scale;
     view.rated = w
         .ratings
         .iter()
         .map(|&(item, actual)| {
-            let predicted = f.predict_for(&vector, item);
+            let predicted = f.predict_for(&folded.vector, folded.bias, item);
             RatedRow {
                 item,
                 actual,
@@ -77,16 +84,14 @@ fn refresh(view: &mut MemberView, shared: &Shared, keep: Option<u32>) {
         suggest_profile(
             model,
             shared.suggestion_index(),
-            &Profile {
-                vector: &vector,
-                rated: &w.ratings,
-            },
+            &folded.profile(&w.ratings),
             10,
         )
     } else {
         Vec::new()
     };
-    w.vector = vector;
+    w.vector = folded.vector;
+    w.bias = folded.bias;
     w.problem = problem;
     view.suggestion_selected = view
         .suggestion_selected
@@ -137,6 +142,7 @@ impl App {
                 origin,
                 ratings,
                 vector: vec![0.0; self.shared.model.factors.rank],
+                bias: 0.0,
                 problem: None,
             }),
         );
@@ -167,7 +173,7 @@ impl App {
             .model
             .manifest
             .scale
-            .round(shared.model.factors.predict_for(&w.vector, item));
+            .round(shared.model.factors.predict_for(&w.vector, w.bias, item));
         w.ratings.push((item, value));
         let count = w.ratings.len();
         refresh(view, shared, Some(item));
