@@ -405,3 +405,37 @@ fn without_the_prior_a_free_offset_needs_one_rating_more_than_the_rank() {
     };
     assert!(sextant::model::Fitter::new(&ratings, &penalised, None).is_ok());
 }
+
+#[test]
+fn tune_fits_its_grid_with_offsets_and_keeps_them_in_the_best_model() {
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("best");
+    let report = json(&[
+        "tune",
+        &repo("tests/bad-inputs/good-small.csv")
+            .display()
+            .to_string(),
+        "--ranks",
+        "1,2",
+        "--lambdas",
+        "1",
+        "--biases",
+        "--lambda-bias",
+        "3",
+        "--holdout",
+        "0.3",
+        "--quiet",
+        "--format",
+        "json",
+        "--out",
+        &out.display().to_string(),
+    ]);
+    assert_eq!(report["biases"], Value::Bool(true));
+    assert_eq!(report["lambda_bias"], 3.0);
+    let best = load_model(&out).unwrap();
+    assert_eq!(best.manifest.lambda_bias, Some(3.0));
+    assert_eq!(best.factors.biases.as_ref().unwrap().lambda, 3.0);
+    // --lambda-bias alone is a usage error: it has no offsets to apply to.
+    let alone = sextant(&["tune", "x.csv", "--lambda-bias", "3"]);
+    assert_eq!(alone.status.code(), Some(2));
+}

@@ -12,7 +12,7 @@ use sextant::data::assign_holdout;
 use sextant::model::{FitOptions, FitResult, Fitter, Model, Provenance};
 
 use super::UsageError;
-use super::args::{FitInputs, NoiseArgs, OutputArgs, RunArgs, SolverArgs};
+use super::args::{BiasArgs, FitInputs, NoiseArgs, OutputArgs, RunArgs, SolverArgs};
 use super::fit::{Prepared, prepare};
 use super::output::{self, Format};
 
@@ -45,6 +45,8 @@ pub struct TuneArgs {
     #[command(flatten)]
     noise: NoiseArgs,
     #[command(flatten)]
+    biases: BiasArgs,
+    #[command(flatten)]
     solver: SolverArgs,
     #[command(flatten)]
     inputs: FitInputs,
@@ -72,6 +74,11 @@ struct Point {
 struct Report<'a> {
     holdout: f64,
     holdout_ratings: usize,
+    /// Every fit's λ_b when the grid has member and item offsets (λ_b defaults to each
+    /// fit's λ, then this is null and `biases` true).
+    lambda_bias: Option<f64>,
+    /// Whether every fit of the grid has member and item offsets.
+    biases: bool,
     grid: &'a [Point],
     best: Option<&'a Point>,
 }
@@ -109,7 +116,10 @@ pub fn run(args: &TuneArgs) -> anyhow::Result<()> {
 }
 
 fn options(args: &TuneArgs, rank: usize, lambda: f64) -> FitOptions {
-    args.solver.options(rank, lambda, args.noise.sigma2)
+    FitOptions {
+        lambda_bias: args.biases.lambda_bias(lambda),
+        ..args.solver.options(rank, lambda, args.noise.sigma2)
+    }
 }
 
 fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::Result<()> {
@@ -229,6 +239,8 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
     let report = Report {
         holdout: args.solver.holdout,
         holdout_ratings: held,
+        lambda_bias: args.biases.prior.lambda_bias.filter(|_| args.biases.biases),
+        biases: args.biases.biases,
         grid: &points,
         best: best_index.map(|k| &points[k]),
     };

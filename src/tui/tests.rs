@@ -772,3 +772,62 @@ fn keys_never_act_on_a_screen_that_is_not_shown() {
         }
     }
 }
+
+/// The demo ratings refitted with member and item offsets (a few iterations).
+fn biased_app() -> App {
+    let demo = demo_app().shared.model.clone();
+    let options = sextant::model::FitOptions {
+        rank: demo.factors.rank,
+        lambda_bias: Some(1.0),
+        max_iters: 5,
+        ..sextant::model::FitOptions::default()
+    };
+    let result = sextant::model::fit(&demo.ratings, &options, None, |_| {}).expect("fit");
+    let run = demo.manifest.options.clone().expect("fitted");
+    let provenance = sextant::model::Provenance {
+        scale: demo.manifest.scale.clone(),
+        inputs: Vec::new(),
+        meta: demo.meta.clone(),
+    };
+    let model = sextant::model::Model::from_fit(demo.ratings, &options, run, result, provenance)
+        .expect("a model");
+    App::new(model, "biased")
+}
+
+#[test]
+fn a_model_with_biases_shows_its_offsets_in_the_why_pane_what_if_and_fit() {
+    let mut app = biased_app();
+    press(&mut app, KeyCode::Char('u'));
+    type_text(&mut app, "m0001");
+    let e = app
+        .screens
+        .member
+        .as_ref()
+        .and_then(|m| m.explanation.clone())
+        .expect("an explanation");
+    let (b, c) = (e.user_bias.expect("offset"), e.item_bias.expect("offset"));
+    let text = screen(&mut app, 120, 40);
+    assert!(
+        text.contains(&format!("{b:+8.3}  the member's offset")),
+        "{text}"
+    );
+    assert!(
+        text.contains(&format!("{c:+8.3}  the item's offset")),
+        "{text}"
+    );
+    assert!(
+        text.contains("the prediction (μ + offsets + factors)"),
+        "{text}"
+    );
+    press(&mut app, KeyCode::Char('w'));
+    let w = app
+        .screens
+        .member
+        .as_ref()
+        .and_then(|m| m.what_if.clone())
+        .expect("what-if");
+    let text = screen(&mut app, 120, 40);
+    assert!(text.contains(&format!("off {:>+7.3}", w.bias)), "{text}");
+    press(&mut app, KeyCode::Char('4'));
+    assert!(screen(&mut app, 120, 40).contains("offsets λ_b 1"));
+}

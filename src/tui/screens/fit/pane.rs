@@ -171,8 +171,14 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             },
         ),
         Line::raw(format!(
-            "rank {} · λ {} · σ² {} · μ {:.3}",
-            m.rank, m.lambda, m.sigma2, m.mu
+            "rank {} · λ {} · σ² {} · μ {:.3}{}",
+            m.rank,
+            m.lambda,
+            m.sigma2,
+            m.mu,
+            m.lambda_bias
+                .map(|l| format!(" · offsets λ_b {l}"))
+                .unwrap_or_default()
         )),
         Line::styled(
             format!(

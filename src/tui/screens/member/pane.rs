@@ -99,12 +99,24 @@ fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, 
     frame.render_widget(framed(title, focused, theme), area);
     let mut body = inner(area);
     if let Some(w) = &m.what_if {
-        // The folded-in vector, one small signed bar per factor, above the ratings.
-        let rows = (w.vector.len() as u16 + 1).min(body.height / 3);
+        // The folded-in vector, one small signed bar per factor (after the offset, in a
+        // model with biases), above the ratings.
+        let biased = app.shared.model.factors.biases.is_some();
+        let entries: Vec<(String, f64)> = biased
+            .then(|| ("off ".to_owned(), w.bias))
+            .into_iter()
+            .chain(
+                w.vector
+                    .iter()
+                    .enumerate()
+                    .map(|(d, &v)| (format!("f{:<3}", d + 1), v)),
+            )
+            .collect();
+        let rows = (entries.len() as u16 + 1).min(body.height / 3);
         let [vector_area, rest] =
             Layout::vertical([Constraint::Length(rows), Constraint::Min(0)]).areas(body);
         body = rest;
-        let scale = w.vector.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        let scale = entries.iter().fold(0.0f64, |a, (_, v)| a.max(v.abs()));
         let half = (vector_area.width as usize).saturating_sub(14) / 2;
         let mut lines = vec![match &w.problem {
             Some(p) => Line::styled(fit(p, vector_area.width as usize), theme.warning()),
@@ -113,15 +125,10 @@ fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, 
                 theme.muted(),
             ),
         }];
-        for (d, &v) in w
-            .vector
-            .iter()
-            .enumerate()
-            .take(rows.saturating_sub(1) as usize)
-        {
-            let (l, r) = crate::tui::panes::loadings::signed_bar(v, scale, half);
+        for (name, v) in entries.iter().take(rows.saturating_sub(1) as usize) {
+            let (l, r) = crate::tui::panes::loadings::signed_bar(*v, scale, half);
             lines.push(Line::from(vec![
-                Span::raw(format!("f{:<3}{v:>+7.3} ", d + 1)),
+                Span::raw(format!("{name}{v:>+7.3} ")),
                 Span::styled(l, theme.negative()),
                 Span::styled("│", theme.muted()),
                 Span::styled(r, theme.positive()),
@@ -195,8 +202,14 @@ fn render_suggestions(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Re
     frame.render_widget(Paragraph::new(lines), body);
 }
 
-/// Lines of the explanation before the contributions (title, prediction, μ).
+/// Lines of the explanation before the contributions (title, prediction, μ), and the two
+/// offsets' lines of a model with biases.
 const HEAD: usize = 3;
+
+/// The member's and the item's offsets, when the model has them.
+fn offsets(e: &Explanation) -> Option<(f64, f64)> {
+    e.user_bias.zip(e.item_bias)
+}
 
 /// How many lines the explanation `e` takes (for scrolling).
 pub fn why_line_count(e: &Explanation) -> usize {
@@ -205,7 +218,8 @@ pub fn why_line_count(e: &Explanation) -> usize {
     } else {
         1 + e.evidence.len()
     };
-    HEAD + e.contributions.len() + 1 + evidence + 1
+    let offsets = if offsets(e).is_some() { 2 } else { 0 };
+    HEAD + offsets + e.contributions.len() + 1 + evidence + 1
 }
 
 /// The explanation as lines of at most `width` characters: the prediction, μ and every
@@ -236,6 +250,11 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
             width,
         )),
     ];
+    if let Some((b, c)) = offsets(e) {
+        for (value, what) in [(b, "the member's offset"), (c, "the item's offset")] {
+            lines.push(Line::raw(fit(&format!("  {value:+8.3}  {what}"), width)));
+        }
+    }
     for c in &e.contributions {
         lines.push(Line::raw(fit(
             &format!(
@@ -249,8 +268,13 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
     lines.push(Line::styled(
         fit(
             &format!(
-                "= {:+8.3}  the prediction (μ plus every factor)",
-                e.predicted
+                "= {:+8.3}  the prediction ({})",
+                e.predicted,
+                if offsets(e).is_some() {
+                    "μ + offsets + factors"
+                } else {
+                    "μ plus every factor"
+                }
             ),
             width,
         ),
