@@ -198,7 +198,27 @@ fn a_biased_fit_carries_its_offsets_into_every_figure() {
             .map(|c| c["value"].as_f64().unwrap())
             .sum::<f64>();
     assert!((sum - e["predicted"].as_f64().unwrap()).abs() < 1e-12);
+    // By the member's own ratings: the shares, μ, the re-solved member offset and the item
+    // offset add up to the re-solved prediction.
+    let refreshed = &e["by_rating_refreshed"];
+    let shares: f64 = e["by_rating"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| s["share"].as_f64().unwrap())
+        .sum();
+    let total = e["mu"].as_f64().unwrap()
+        + refreshed["user_bias"].as_f64().unwrap()
+        + e["item_bias"].as_f64().unwrap()
+        + shares;
+    assert!((total - refreshed["predicted"].as_f64().unwrap()).abs() < 1e-12);
+    let gap = refreshed["predicted"].as_f64().unwrap() - e["predicted"].as_f64().unwrap();
+    assert!((gap - refreshed["difference"].as_f64().unwrap()).abs() < 1e-15);
     let table = text(&sextant(&["explain", &d, "m0001", "r005"]).stdout);
+    assert!(
+        table.contains("the member's own ratings that produced it"),
+        "{table}"
+    );
     assert!(
         table.contains("the member's offset") && table.contains("the item's offset"),
         "{table}"

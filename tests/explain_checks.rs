@@ -4,7 +4,10 @@
 mod common;
 
 use common::{fixture, floats, matrix, repo};
-use sextant::analysis::explain::{explain, item_support};
+use sextant::analysis::explain::{
+    explain, explain_profile, item_support, smoother_shares, training_ratings,
+};
+use sextant::analysis::foldin::fold_in;
 use sextant::analysis::{Posterior, suggest};
 use sextant::index::{InnerProductIndex, Path};
 use sextant::model::load_model;
@@ -103,5 +106,103 @@ fn suggestions_equal_a_brute_force_ranking_and_skip_rated_items() {
                 .unwrap();
             assert_eq!(with_rated[0].item, best);
         }
+    }
+}
+
+#[test]
+fn the_by_rating_decomposition_matches_numpy() {
+    // Source: numpy.linalg.solve of the member's ridge system, read as a linear smoother
+    // (the prediction's vector part is Σ_j s_jk y_j with s_jk = [v_k, 0]ᵀ A⁻¹ x_j), via
+    // tests/reference/fixtures/by_rating.json; with and without a member offset.
+    let f = fixture("by_rating.json");
+    for (n, case) in f["cases"].as_array().unwrap().iter().enumerate() {
+        let d = case["d"].as_u64().unwrap() as usize;
+        let (items, _) = matrix(&case["items"]);
+        let offsets = floats(&case["item_offsets"]);
+        let lambda_bias = case["lambda_bias"].as_f64();
+        let rated: Vec<(u32, f64)> = floats(&case["rated"])
+            .iter()
+            .zip(floats(&case["ratings"]))
+            .map(|(&j, r)| (j as u32, r))
+            .collect();
+        let (shares, w) = smoother_shares(
+            (&items, lambda_bias.map(|l| (&offsets[..], l))),
+            d,
+            (
+                case["mu"].as_f64().unwrap(),
+                case["lambda"].as_f64().unwrap(),
+                case["sigma2"].as_f64().unwrap(),
+            ),
+            &rated,
+            case["item"].as_u64().unwrap() as u32,
+        )
+        .unwrap();
+        let close = |a: f64, b: f64| (a - b).abs() <= 1e-12 * b.abs().max(1.0);
+        for ((s, weight), share) in shares
+            .iter()
+            .zip(floats(&case["weights"]))
+            .zip(floats(&case["shares"]))
+        {
+            assert!(
+                close(s.weight, weight),
+                "case {n}: {} vs {weight}",
+                s.weight
+            );
+            assert!(close(s.share, share), "case {n}: {} vs {share}", s.share);
+        }
+        for (a, b) in w.iter().zip(floats(&case["vector"])) {
+            assert!(close(*a, b), "case {n}: vector {a} vs {b}");
+        }
+        if let Some(bias) = case["bias"].as_f64() {
+            assert!(close(w[d], bias), "case {n}: offset {} vs {bias}", w[d]);
+        }
+        // The shares add up to the vector's part of the prediction.
+        let k = case["item"].as_u64().unwrap() as usize;
+        let part: f64 = w[..d]
+            .iter()
+            .zip(&items[k * d..(k + 1) * d])
+            .map(|(a, b)| a * b)
+            .sum();
+        let sum: f64 = shares.iter().map(|s| s.share).sum();
+        assert!((sum - part).abs() < 1e-12, "case {n}: {sum} vs {part}");
+    }
+}
+
+#[test]
+fn by_rating_shares_add_up_and_say_how_far_the_stored_vector_is() {
+    let model = load_model(&repo("demo-data/model")).unwrap();
+    let counts = item_support(&model);
+    for (user, item) in [(0u32, 0u32), (5, 17), (1499, 399), (42, 7)] {
+        let e = explain(&model, user, item, 5, &counts);
+        let b = e.by_rating.as_ref().expect("λ > 0: always determined");
+        let sum: f64 = e.mu + b.shares.iter().map(|s| s.share).sum::<f64>();
+        assert!((sum - b.predicted).abs() < 1e-12, "{user}/{item}");
+        assert!(
+            b.shares
+                .windows(2)
+                .all(|w| w[0].share.abs() >= w[1].share.abs())
+        );
+        assert_eq!(b.shares.len(), e.support.user_ratings);
+        // The re-solved member is the fold-in of their training ratings.
+        let rated = training_ratings(&model, user);
+        let folded = fold_in(&model, &rated).unwrap();
+        let refreshed = model.factors.predict_for(&folded.vector, folded.bias, item);
+        assert!(
+            (refreshed - b.predicted).abs() < 1e-12,
+            "{refreshed} vs {}",
+            b.predicted
+        );
+        assert!((b.difference - (b.predicted - e.predicted)).abs() < 1e-15);
+        // The demo fit converged (tol 1e-6 on L): the stored vector is near the optimum
+        // for the final item vectors, not at it; a thousandth of a star is typical.
+        assert!(
+            b.difference != 0.0 && b.difference.abs() < 0.05,
+            "{}",
+            b.difference
+        );
+        // A what-if profile's vector is the optimum itself.
+        let profile = explain_profile(&model, &folded.profile(&rated), item, 0, &counts);
+        let p = profile.by_rating.unwrap();
+        assert!(p.difference.abs() < 1e-12, "{}", p.difference);
     }
 }

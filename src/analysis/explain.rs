@@ -79,20 +79,15 @@ impl Posterior {
         (lambda, lambda_bias): (f64, Option<f64>),
         sigma2: f64,
     ) -> Self {
-        let width = d + usize::from(lambda_bias.is_some());
-        let mut precision = DMatrix::<f64>::identity(width, width) * (lambda * sigma2);
-        if let Some(lambda_bias) = lambda_bias {
-            precision[(d, d)] = lambda_bias * sigma2;
-        }
-        let mut x = DVector::<f64>::from_element(width, 1.0);
-        for j in rated {
-            x.rows_mut(0, d)
-                .copy_from_slice(&items[j as usize * d..(j as usize + 1) * d]);
-            precision += &x * x.transpose();
-        }
         Self {
             sigma2,
-            factor: Cholesky::new(precision),
+            factor: Cholesky::new(normal_matrix(
+                items,
+                d,
+                rated,
+                (lambda, lambda_bias),
+                sigma2,
+            )),
             biased: lambda_bias.is_some(),
         }
     }
@@ -119,6 +114,122 @@ impl Posterior {
         let quadratic = self.sigma2 * dot(&features, x.as_slice());
         Some((self.sigma2 + quadratic).sqrt())
     }
+}
+
+/// The member's features for item `j`: `v_j`, or `[v_j, 1]` with an offset.
+fn features(items: &[f64], d: usize, j: u32, offset: bool) -> DVector<f64> {
+    let v = &items[j as usize * d..(j as usize + 1) * d];
+    if offset {
+        DVector::from_iterator(d + 1, v.iter().copied().chain([1.0]))
+    } else {
+        DVector::from_column_slice(v)
+    }
+}
+
+/// The matrix of a member's ridge regression, `A = diag(λσ², …, λσ²[, λ_bσ²]) + Σ_j x_j x_jᵀ`
+/// over the rated items' features (see [`Posterior`]).
+fn normal_matrix(
+    items: &[f64],
+    d: usize,
+    rated: impl IntoIterator<Item = u32>,
+    (lambda, lambda_bias): (f64, Option<f64>),
+    sigma2: f64,
+) -> DMatrix<f64> {
+    let width = d + usize::from(lambda_bias.is_some());
+    let mut a = DMatrix::<f64>::identity(width, width) * (lambda * sigma2);
+    if let Some(lambda_bias) = lambda_bias {
+        a[(d, d)] = lambda_bias * sigma2;
+    }
+    for j in rated {
+        let x = features(items, d, j, lambda_bias.is_some());
+        a += &x * x.transpose();
+    }
+    a
+}
+
+/// One of the member's own ratings and its part in a prediction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RatingShare {
+    /// The rated item.
+    pub item: u32,
+    /// The member's rating of it.
+    pub rating: f64,
+    /// Its smoother weight `s_jk = [v_k, 0]ᵀ A⁻¹ x_j`: how much one more point on this
+    /// rating (above μ and the item's offset) moves the prediction.
+    pub weight: f64,
+    /// `weight × (rating − μ − c_j)`.
+    pub share: f64,
+}
+
+/// A prediction taken apart by the member's own ratings.
+///
+/// A member's vector (and offset) is a ridge solution, linear in their ratings:
+/// `w = A⁻¹ Σ_j x_j (r_j − μ − c_j)` with `A` as in [`Posterior`]. So the vector's part of a
+/// prediction, `v_k·u`, is exactly `Σ_j s_jk (r_j − μ − c_j)` with `s_jk = [v_k, 0]ᵀ A⁻¹ x_j`
+/// (ridge regression as a linear smoother; Hu, Koren & Volinsky 2008, §5, derive the same
+/// for implicit feedback). The member's offset is kept whole, as an offset.
+///
+/// This holds for the vector that is the exact optimum given the current item vectors. A
+/// fitted member's stored vector is one step behind the last item step, so the
+/// decomposition is of the member re-solved against the current items, and
+/// [`Self::difference`] says how far that prediction is from the stored one.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ByRating {
+    /// One entry per rated item, largest |share| first.
+    pub shares: Vec<RatingShare>,
+    /// The re-solved prediction: `μ + b + c_k + Σ shares`.
+    pub predicted: f64,
+    /// The re-solved member offset `b` (`None` without biases).
+    pub user_bias: Option<f64>,
+    /// `predicted` minus the prediction from the stored vector.
+    pub difference: f64,
+}
+
+/// The smoother decomposition of the prediction of item `k` from item vectors `items`
+/// (width `d`), item offsets (with their prior precision) when the model has biases, the
+/// offset `mu`, λ and σ², for a member who rated `rated`: each rating's weight and share
+/// in the order given, and the re-solved vector and offset `w`. `None` when `A` is not
+/// positive definite (λ = 0 and too few ratings).
+pub fn smoother_shares(
+    (items, offsets): (&[f64], Option<(&[f64], f64)>),
+    d: usize,
+    (mu, lambda, sigma2): (f64, f64, f64),
+    rated: &[(u32, f64)],
+    k: u32,
+) -> Option<(Vec<RatingShare>, Vec<f64>)> {
+    let biased = offsets.is_some();
+    let a = normal_matrix(
+        items,
+        d,
+        rated.iter().map(|&(j, _)| j),
+        (lambda, offsets.map(|(_, l)| l)),
+        sigma2,
+    );
+    let factor = Cholesky::new(a)?;
+    let mut query = features(items, d, k, biased);
+    if biased {
+        query[d] = 0.0;
+    }
+    let z = factor.solve(&query);
+    let offset = |j: u32| offsets.map_or(0.0, |(c, _)| c[j as usize]);
+    let mut gradient = DVector::<f64>::zeros(d + usize::from(biased));
+    let shares = rated
+        .iter()
+        .map(|&(j, rating)| {
+            let x = features(items, d, j, biased);
+            let target = rating - mu - offset(j);
+            gradient += &x * target;
+            let weight = z.dot(&x);
+            RatingShare {
+                item: j,
+                rating,
+                weight,
+                share: weight * target,
+            }
+        })
+        .collect();
+    let w = factor.solve(&gradient);
+    Some((shares, w.as_slice().to_vec()))
 }
 
 /// One factor's share of a prediction.
@@ -185,6 +296,9 @@ pub struct Explanation {
     pub evidence: Vec<Evidence>,
     /// Rating counts and low-support flags.
     pub support: Support,
+    /// The prediction by the member's own ratings (`None` when their regression is not
+    /// determined: λ = 0 and too few ratings).
+    pub by_rating: Option<ByRating>,
 }
 
 /// Training ratings per item.
@@ -267,6 +381,33 @@ pub fn explain_profile(
     nearest.truncate(evidence);
     let rank = f.rank;
     let item_ratings = item_counts[item as usize] as usize;
+    let m = &model.manifest;
+    let by_rating = smoother_shares(
+        (&f.items, f.biases.as_ref().map(|b| (&b.item[..], b.lambda))),
+        rank,
+        (f.mu, m.lambda, m.sigma2),
+        rated,
+        item,
+    )
+    .map(|(mut shares, w)| {
+        shares.sort_by(|a, b| {
+            b.share
+                .abs()
+                .total_cmp(&a.share.abs())
+                .then(a.item.cmp(&b.item))
+        });
+        let user_bias = f.biases.as_ref().map(|_| w[rank]);
+        let refreshed = f.mu
+            + user_bias.unwrap_or(0.0)
+            + f.item_bias(item)
+            + shares.iter().map(|s| s.share).sum::<f64>();
+        ByRating {
+            shares,
+            predicted: refreshed,
+            user_bias,
+            difference: refreshed - predicted,
+        }
+    });
     Explanation {
         user: None,
         item,
@@ -286,6 +427,7 @@ pub fn explain_profile(
             user_low_support: rated.len() < rank,
             item_low_support: item_ratings < rank,
         },
+        by_rating,
     }
 }
 

@@ -123,6 +123,45 @@ fn evidence_sentence(model: &Model, e: &Explanation, scale: &RatingScale) -> Opt
     ))
 }
 
+/// Smallest share of a rating worth naming, in rating points.
+const NOTABLE_SHARE: f64 = 0.05;
+
+/// Which of the member's own ratings raised the estimate most, and which lowered it most
+/// (their shares in the decomposition by rating; the explained item itself is not named).
+fn influence_sentence(model: &Model, e: &Explanation, scale: &RatingScale) -> Option<String> {
+    let shares = &e.by_rating.as_ref()?.shares;
+    let others = || shares.iter().filter(|s| s.item != e.item);
+    let raised = others()
+        .filter(|s| s.share >= NOTABLE_SHARE)
+        .max_by(|a, b| a.share.total_cmp(&b.share));
+    let lowered = others()
+        .filter(|s| s.share <= -NOTABLE_SHARE)
+        .min_by(|a, b| a.share.total_cmp(&b.share));
+    let yours = |s: &super::explain::RatingShare| {
+        format!(
+            "your {} for {}",
+            rating_words(s.rating, scale),
+            name(model, s.item)
+        )
+    };
+    match (raised, lowered) {
+        (Some(up), Some(down)) => Some(format!(
+            "Of your own ratings, {} did most to raise this estimate, and {} did most to lower it.",
+            yours(up),
+            yours(down)
+        )),
+        (Some(up), None) => Some(format!(
+            "Of your own ratings, {} did most to raise this estimate.",
+            yours(up)
+        )),
+        (None, Some(down)) => Some(format!(
+            "Of your own ratings, {} did most to lower this estimate.",
+            yours(down)
+        )),
+        (None, None) => None,
+    }
+}
+
 /// How many of the member's ratings stand behind the estimate, held-out ones included.
 fn support_sentence(e: &Explanation) -> String {
     let used = e.support.user_ratings;
@@ -199,6 +238,7 @@ pub fn plain_explanation(model: &Model, e: &Explanation, notes: &Annotations) ->
     let item = name(model, e.item);
     let mut sentences = vec![estimate_sentence(&item, e, scale)];
     sentences.extend(evidence_sentence(model, e, scale));
+    sentences.extend(influence_sentence(model, e, scale));
     if let Some(top) = e.contributions.first()
         && let Some(label) = notes.factor_label(top.factor)
         && top.value.abs() >= 0.05

@@ -51,6 +51,27 @@ struct EvidenceRow<'a> {
 }
 
 #[derive(Serialize)]
+struct ShareRow<'a> {
+    item: &'a str,
+    /// The item's title, null when the model has none.
+    title: Option<&'a str>,
+    rating: f64,
+    weight: f64,
+    share: f64,
+}
+
+/// The member the `by_rating` shares are of: re-solved against the current item vectors.
+#[derive(Serialize)]
+struct RefreshedRow {
+    /// Its prediction: μ + user_bias + item_bias + Σ shares.
+    predicted: f64,
+    /// Its offset, null in a model without biases.
+    user_bias: Option<f64>,
+    /// `predicted` minus the prediction from the stored vector (0 for the exact optimum).
+    difference: f64,
+}
+
+#[derive(Serialize)]
 struct SupportRow {
     user_ratings: usize,
     /// The member's ratings held out of the fit (not counted in `user_ratings`).
@@ -78,6 +99,11 @@ struct Report<'a> {
     contributions: Vec<ContributionRow>,
     evidence: Vec<EvidenceRow<'a>>,
     support: SupportRow,
+    /// The prediction by the member's own training ratings, largest |share| first; null
+    /// when the member's regression is not determined (λ = 0 and too few ratings).
+    by_rating: Option<Vec<ShareRow<'a>>>,
+    /// What `by_rating` adds up to.
+    by_rating_refreshed: Option<RefreshedRow>,
 }
 
 pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
@@ -129,6 +155,23 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
             user_low_support: e.support.user_low_support,
             item_low_support: e.support.item_low_support,
         },
+        by_rating: e.by_rating.as_ref().map(|b| {
+            b.shares
+                .iter()
+                .map(|s| ShareRow {
+                    item: items.name(s.item),
+                    title: item_title(&model, s.item).0,
+                    rating: s.rating,
+                    weight: s.weight,
+                    share: s.share,
+                })
+                .collect()
+        }),
+        by_rating_refreshed: e.by_rating.as_ref().map(|b| RefreshedRow {
+            predicted: b.predicted,
+            user_bias: b.user_bias,
+            difference: b.difference,
+        }),
     };
     let text = match args.output.format {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
@@ -232,6 +275,9 @@ fn table(
             );
         }
     }
+    if let Some(b) = &e.by_rating {
+        by_rating_table(&mut out, model, b, r.mu);
+    }
     let s = &r.support;
     let flag = |low: bool| {
         if low {
@@ -267,4 +313,71 @@ fn table(
     );
     let _ = writeln!(out, "member's motives or traits.");
     out
+}
+
+/// How many of the member's ratings the table lists by share.
+const SHARES_SHOWN: usize = 5;
+
+/// The prediction by the member's own ratings, and which member it is of.
+fn by_rating_table(
+    out: &mut String,
+    model: &sextant::model::Model,
+    b: &sextant::analysis::explain::ByRating,
+    mu: f64,
+) {
+    let _ = writeln!(
+        out,
+        "\nthe member's own ratings that produced it (share = weight × (rating − μ{})):",
+        if b.user_bias.is_some() {
+            " − item offset"
+        } else {
+            ""
+        }
+    );
+    let _ = writeln!(
+        out,
+        "  {:>8}  {:>7}  {:>6}  item",
+        "share", "weight", "rated"
+    );
+    for s in b.shares.iter().take(SHARES_SHOWN) {
+        let _ = writeln!(
+            out,
+            "  {:>+8.3}  {:>7.3}  {:>6}  {}",
+            s.share,
+            s.weight,
+            s.rating,
+            item_label(model, s.item)
+        );
+    }
+    let rest = b.shares.len().saturating_sub(SHARES_SHOWN);
+    let shown: f64 = b.shares.iter().take(SHARES_SHOWN).map(|s| s.share).sum();
+    let total: f64 = b.shares.iter().map(|s| s.share).sum();
+    if rest > 0 {
+        let _ = writeln!(
+            out,
+            "  {:>+8.3}  the other {rest} rating(s) together",
+            total - shown
+        );
+    }
+    let offsets = b.predicted - mu - total;
+    let _ = writeln!(
+        out,
+        "  {:>+8.3}  in all; with μ{} that is {:.3}",
+        total,
+        if b.user_bias.is_some() {
+            format!(" and the offsets ({offsets:+.3})")
+        } else {
+            String::new()
+        },
+        b.predicted
+    );
+    if b.difference.abs() > 1e-9 * b.predicted.abs().max(1.0) {
+        let _ = writeln!(
+            out,
+            "  The stored member vector is not exactly the best fit to the current item vectors (a\n  fit's last item step comes after its last member step): re-solved, it predicts {:.3},\n  {:+.4} from the {:.3} above. The shares are those of the re-solved vector.",
+            b.predicted,
+            b.difference,
+            b.predicted - b.difference
+        );
+    }
 }

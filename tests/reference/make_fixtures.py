@@ -305,6 +305,39 @@ def biased_profile():
     return {"source": "numpy.linalg.solve and numpy.linalg.inv (Bishop 2006, eq. 3.59)", "cases": cases}
 
 
+def by_rating():
+    """A member's ridge solution is linear in their ratings (the linear-smoother view of
+    ridge regression): w = A^-1 sum_j x_j y_j with A = penalty + sum_j x_j x_j',
+    x_j = [v_j] (or [v_j, 1] with an offset), y_j = r_j - mu - c_j. So the vector part of a
+    prediction, v_k . u, is sum_j s_jk y_j with s_jk = [v_k, 0]' A^-1 x_j (numpy.linalg.solve)."""
+    rng = np.random.default_rng(83)
+    cases = []
+    for n_items, d, n_rated, lam, lam_b, sigma2, mu in [(30, 4, 8, 1.0, None, 1.0, 3.5), (50, 10, 25, 0.5, 2.0, 0.8, 3.0), (20, 3, 2, 2.0, 1.0, 1.0, 0.0), (25, 5, 12, 1.0, None, 0.6, 2.5)]:
+        items = rng.normal(size=(n_items, d))
+        offsets = rng.normal(scale=0.5, size=n_items) if lam_b is not None else np.zeros(n_items)
+        rated = np.sort(rng.choice(n_items, size=n_rated, replace=False))
+        ratings = rng.integers(1, 6, size=n_rated).astype(float)
+        k = int(rng.integers(n_items))
+        if lam_b is None:
+            x = items[rated]
+            penalty = lam * sigma2 * np.eye(d)
+            query = items[k]
+        else:
+            x = np.hstack([items[rated], np.ones((n_rated, 1))])
+            penalty = np.diag([lam * sigma2] * d + [lam_b * sigma2])
+            query = np.append(items[k], 0.0)
+        a = penalty + x.T @ x
+        y = ratings - mu - offsets[rated]
+        weights = x @ np.linalg.solve(a, query)
+        w = np.linalg.solve(a, x.T @ y)
+        cases.append({"d": d, "lambda": lam, "lambda_bias": lam_b, "sigma2": sigma2, "mu": mu,
+                      "items": items.tolist(), "item_offsets": offsets.tolist(),
+                      "rated": rated.astype(float).tolist(), "ratings": ratings.tolist(), "item": k,
+                      "weights": weights.tolist(), "shares": (weights * y).tolist(),
+                      "vector": w[:d].tolist(), "bias": float(w[d]) if lam_b is not None else None})
+    return {"source": "numpy.linalg.solve (ridge regression as a linear smoother)", "cases": cases}
+
+
 def build():
     return {
         "ridge_steps.json": {
@@ -331,6 +364,7 @@ def build():
         "ndcg.json": ndcg_cases(),
         "fold_in.json": fold_in(),
         "biased_profile.json": biased_profile(),
+        "by_rating.json": by_rating(),
     }
 
 

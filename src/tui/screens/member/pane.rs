@@ -213,18 +213,29 @@ fn offsets(e: &Explanation) -> Option<(f64, f64)> {
 
 /// How many lines the explanation `e` takes (for scrolling).
 pub fn why_line_count(e: &Explanation) -> usize {
-    let evidence = if e.evidence.is_empty() {
+    let evidence = if e.evidence.is_empty() || e.by_rating.is_some() {
         0
     } else {
         1 + e.evidence.len()
     };
     let offsets = if offsets(e).is_some() { 2 } else { 0 };
-    HEAD + offsets + e.contributions.len() + 1 + evidence + 1
+    HEAD + offsets + e.contributions.len() + 1 + by_rating_lines(e) + evidence + 1
 }
 
-/// The explanation as lines of at most `width` characters: the prediction, μ and every
-/// factor's contribution (curators' labels beside the factor), their sum, the member's own
-/// nearest rated items, and the support.
+/// How many of the member's ratings the Why pane lists by share.
+const SHARES_SHOWN: usize = 4;
+
+/// Lines of the by-rating part: a heading and the largest shares.
+fn by_rating_lines(e: &Explanation) -> usize {
+    e.by_rating
+        .as_ref()
+        .map_or(0, |b| 1 + b.shares.len().min(SHARES_SHOWN))
+}
+
+/// The explanation as lines of at most `width` characters: the prediction, μ (and the
+/// offsets) and every factor's contribution (curators' labels beside the factor), their
+/// sum, the member's own ratings that moved it most (or, when that decomposition is not
+/// determined, their nearest rated items), and the support.
 pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<Line<'static>> {
     let sd = e
         .predictive_sd
@@ -280,7 +291,31 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
         ),
         theme.title(),
     ));
-    if !e.evidence.is_empty() {
+    if let Some(b) = &e.by_rating {
+        let behind = if b.difference.abs() >= 5e-4 {
+            format!(" (re-solved: {:.3})", b.predicted)
+        } else {
+            String::new()
+        };
+        lines.push(Line::styled(
+            fit(&format!("their ratings that moved it most{behind}:"), width),
+            theme.muted(),
+        ));
+        for s in b.shares.iter().take(SHARES_SHOWN) {
+            lines.push(Line::raw(fit(
+                &format!(
+                    "  {:+8.3}  rated {} · {}",
+                    s.share,
+                    s.rating,
+                    app.title(s.item)
+                ),
+                width,
+            )));
+        }
+    }
+    // The nearest rated items answer the same question less exactly: shown only when the
+    // decomposition by rating is not determined.
+    if !e.evidence.is_empty() && e.by_rating.is_none() {
         lines.push(Line::styled(
             "their own nearest rated items:",
             theme.muted(),
