@@ -3,6 +3,9 @@
 //! of the same updates (benches/numpy_fit.py) timed on the same data in the same run, and
 //! the machine's float64 matrix-product peak measured by numpy.
 //!
+//! The same data read as counts gives the implicit-feedback iteration (confidence
+//! 1 + 40·count), timed beside the implicit mode of the same numpy script.
+//!
 //! Run: `cargo bench --bench fit` (add `-- --quick` for a smaller data set). Prints ratios;
 //! absolute times vary with the machine and its load.
 
@@ -63,7 +66,7 @@ fn generate(sizes: &Sizes, seed: u64) -> Ratings {
     ratings
 }
 
-fn write_arrays(dir: &Path, ratings: &Ratings, init: &[f64], options: &FitOptions) {
+fn write_arrays(dir: &Path, ratings: &Ratings, init: &[f64], options: &FitOptions, alpha: f64) {
     std::fs::create_dir_all(dir).expect("bench directory");
     let bytes =
         |values: Vec<u8>, name: &str| std::fs::write(dir.join(name), values).expect("write");
@@ -96,7 +99,7 @@ fn write_arrays(dir: &Path, ratings: &Ratings, init: &[f64], options: &FitOption
         "init_items.f64",
     );
     let meta = format!(
-        "{{\"rank\": {}, \"users\": {}, \"items\": {}, \"lambda\": {}, \"sigma2\": {}}}",
+        "{{\"rank\": {}, \"users\": {}, \"items\": {}, \"lambda\": {}, \"sigma2\": {}, \"alpha\": {alpha}}}",
         options.rank,
         ratings.users.len(),
         ratings.items.len(),
@@ -153,7 +156,7 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
     let init: Vec<f64> = (0..ratings.items.len() * rank)
         .map(|_| rng.normal())
         .collect();
-    write_arrays(dir, ratings, &init, &options);
+    write_arrays(dir, ratings, &init, &options, ALPHA);
     let mut ids = IdMap::new();
     for name in ratings.items.names() {
         ids.intern(name);
@@ -202,22 +205,7 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
             max_difference: f64::NAN,
         };
     }
-    let output = Command::new("python3")
-        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/numpy_fit.py"))
-        .arg(dir)
-        .arg(reps.to_string())
-        .arg("dump")
-        // Some machines here set these for old OpenBLAS builds; they slow a current numpy.
-        .env_remove("OPENBLAS_CORETYPE")
-        .env_remove("OPENBLAS_L2_SIZE")
-        .output()
-        .expect("python3 runs benches/numpy_fit.py");
-    assert!(
-        output.status.success(),
-        "numpy baseline failed: {}",
-        String::from_utf8_lossy(&output.stderr)
-    );
-    let report: serde_json::Value = serde_json::from_slice(&output.stdout).expect("numpy JSON");
+    let report = numpy(dir, reps, &["dump"]);
     let numpy_items = read_f64(&dir.join("numpy_items.f64"));
     let ours = &fitter.model().items;
     let max_difference = ours
@@ -233,6 +221,77 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
         flops: gram_and_cholesky_flops(ratings, rank),
         max_difference,
     }
+}
+
+/// The confidence slope of the implicit benchmark (the paper's default).
+const ALPHA: f64 = 40.0;
+
+/// One implicit iteration (members, then items) on the same data read as counts, beside
+/// the implicit mode of the numpy script; returns (sextant, numpy) seconds and the largest
+/// difference of the item vectors after the same iterations. Reuses the arrays that
+/// [`measure`] wrote into `dir` (with [`ALPHA`] in their meta).
+fn measure_implicit(
+    ratings: &Ratings,
+    rank: usize,
+    reps: usize,
+    dir: &Path,
+    rust_only: bool,
+) -> (f64, f64, f64) {
+    use sextant::model::implicit::{Confidence, ImplicitFitter, ImplicitOptions};
+    let options = ImplicitOptions {
+        rank,
+        confidence: Confidence::Linear { alpha: ALPHA },
+        ..ImplicitOptions::default()
+    };
+    let init = read_f64(&dir.join("init_items.f64"));
+    let mut fitter = ImplicitFitter::new(ratings, &options)
+        .expect("implicit fitter")
+        .with_items(init);
+    let mut times = Vec::new();
+    for _ in 0..reps {
+        let start = Instant::now();
+        fitter.update_users().expect("users");
+        fitter.update_items().expect("items");
+        times.push(start.elapsed().as_secs_f64());
+    }
+    let rust = median(times);
+    if rust_only {
+        return (rust, f64::NAN, f64::NAN);
+    }
+    let report = numpy(dir, reps, &["dump", "implicit"]);
+    let numpy_items = read_f64(&dir.join("numpy_items.f64"));
+    let max_difference = fitter
+        .model()
+        .items
+        .iter()
+        .zip(&numpy_items)
+        .map(|(a, b)| (a - b).abs())
+        .fold(0.0, f64::max);
+    (
+        rust,
+        report["seconds"].as_f64().expect("seconds"),
+        max_difference,
+    )
+}
+
+/// Runs benches/numpy_fit.py on the arrays in `dir` and returns its JSON report.
+fn numpy(dir: &Path, reps: usize, extra: &[&str]) -> serde_json::Value {
+    let output = Command::new("python3")
+        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("benches/numpy_fit.py"))
+        .arg(dir)
+        .arg(reps.to_string())
+        .args(extra)
+        // Some machines here set these for old OpenBLAS builds; they slow a current numpy.
+        .env_remove("OPENBLAS_CORETYPE")
+        .env_remove("OPENBLAS_L2_SIZE")
+        .output()
+        .expect("python3 runs benches/numpy_fit.py");
+    assert!(
+        output.status.success(),
+        "numpy baseline failed: {}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    serde_json::from_slice(&output.stdout).expect("numpy JSON")
 }
 
 fn main() {
@@ -303,6 +362,15 @@ fn main() {
             "rank {rank:>2}: with member and item biases {:.4} s -> {:+.1}% per iteration",
             m.biased,
             100.0 * (m.biased / m.rust - 1.0)
+        );
+        let (ours, theirs, difference) =
+            measure_implicit(&ratings, rank, sizes.reps, &dir, rust_only);
+        let _ = writeln!(
+            report,
+            "rank {rank:>2}: implicit feedback (the values as counts) sextant {ours:.4} s, numpy \
+             {theirs:.4} s -> {:.1}x faster; max |sextant - numpy| after {} iterations {difference:.1e}",
+            theirs / ours,
+            sizes.reps
         );
     }
     let _ = std::fs::remove_dir_all(&dir);

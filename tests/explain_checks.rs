@@ -206,3 +206,44 @@ fn by_rating_shares_add_up_and_say_how_far_the_stored_vector_is() {
         assert!(p.difference.abs() < 1e-12, "{}", p.difference);
     }
 }
+
+#[test]
+fn expected_percentile_rank_matches_numpy() {
+    // Source: numpy by the definition of Hu, Koren & Volinsky (ICDM 2008, §6): candidates
+    // are the items without a training interaction, ties count half. Fixture:
+    // percentile_rank.json (one case with tied scores).
+    use sextant::analysis::ranking::expected_percentile_rank;
+    use sextant::data::{Rating, Ratings};
+    let f = fixture("percentile_rank.json");
+    for case in f["cases"].as_array().unwrap() {
+        let rank = case["rank"].as_u64().unwrap() as usize;
+        let (users, _) = matrix(&case["users"]);
+        let (items, _) = matrix(&case["items"]);
+        let mut counts = Ratings::default();
+        for u in 0..users.len() / rank {
+            counts.users.intern(&format!("u{u}"));
+        }
+        for j in 0..case["n_items"].as_u64().unwrap() {
+            counts.items.intern(&format!("i{j}"));
+        }
+        for row in case["counts"].as_array().unwrap() {
+            counts.entries.push(Rating {
+                user: counts.users.get(row[0].as_str().unwrap()).unwrap(),
+                item: counts.items.get(row[1].as_str().unwrap()).unwrap(),
+                value: row[2].as_f64().unwrap(),
+                holdout: row[3] == "holdout",
+            });
+        }
+        counts.entries.sort_by_key(|r| (r.user, r.item));
+        let factors = sextant::model::FactorModel {
+            rank,
+            mu: 0.0,
+            users,
+            items,
+            biases: None,
+        };
+        let epr = expected_percentile_rank(&factors, &counts).unwrap();
+        let expected = case["epr"].as_f64().unwrap();
+        assert!((epr - expected).abs() < 1e-12, "{epr} vs {expected}");
+    }
+}

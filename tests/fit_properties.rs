@@ -169,6 +169,37 @@ fn results_are_bit_identical_whatever_the_thread_count() {
         );
         assert_eq!(one.trace, other.trace, "{threads} threads");
     }
+    // Implicit feedback (the ratings read as counts, with the Gram sums in fixed chunks):
+    // the same bits on any number of threads, and the loss never rises.
+    let implicit = |threads: usize| {
+        let pool = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap();
+        let options = sextant::model::implicit::ImplicitOptions {
+            rank: options.rank,
+            max_iters: 8,
+            ..Default::default()
+        };
+        pool.install(|| {
+            sextant::model::implicit::ImplicitFitter::new(&ratings, &options)
+                .and_then(|f| f.run(|_| {}))
+                .unwrap()
+        })
+    };
+    let one = implicit(1);
+    assert!(
+        one.trace
+            .windows(2)
+            .all(|w| w[1].loss <= w[0].loss * (1.0 + 1e-12)),
+        "the implicit loss rose: {:?}",
+        one.trace
+    );
+    for threads in [2, 3] {
+        let other = implicit(threads);
+        assert_eq!(one.factors, other.factors, "{threads} threads");
+        assert_eq!(one.trace, other.trace, "{threads} threads");
+    }
 }
 
 /// A planted rank-`rank` matrix plus Gaussian noise, sampled at `fraction` of its entries.

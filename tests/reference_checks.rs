@@ -354,3 +354,70 @@ fn nist_longley_through_the_ridge_solver_at_lambda_zero() {
     let numpy = floats(&f["beta"]);
     assert!(max_rel_diff(&beta, &numpy) < 1e-5, "vs numpy lstsq");
 }
+
+#[test]
+fn implicit_half_steps_equal_the_dense_numpy_solves() {
+    // Source: numpy.linalg.solve on each member's and item's dense weighted normal
+    // equations Yᵀ C_u Y + λI (C_u over the whole catalogue, formed explicitly), for 1–4
+    // iterations from the same start, with linear and logarithmic confidences (Hu, Koren &
+    // Volinsky, ICDM 2008, eqs. 4–6 [equation numbers from memory]). Fixture:
+    // implicit_steps.json. Our solves use the YᵀY + Yᵀ(C_u − I)Y identity instead.
+    use sextant::model::implicit::{Confidence, ImplicitFitter, ImplicitOptions};
+    let fixture = fixture("implicit_steps.json");
+    let mut worst = 0.0f64;
+    for case in fixture["cases"].as_array().unwrap() {
+        let rank = case["rank"].as_u64().unwrap() as usize;
+        let counts = ratings_from(&case["counts"]);
+        let alpha = case["alpha"].as_f64().unwrap();
+        let confidence = match case["epsilon"].as_f64() {
+            Some(epsilon) => Confidence::Log { alpha, epsilon },
+            None => Confidence::Linear { alpha },
+        };
+        let options = ImplicitOptions {
+            rank,
+            lambda: case["lambda"].as_f64().unwrap(),
+            confidence,
+            ..ImplicitOptions::default()
+        };
+        // The starting items, in the order the counts interned them.
+        let (init, _) = matrix(&case["items_init"]);
+        let mut start = vec![0.0; init.len()];
+        for k in 0..init.len() / rank {
+            let j = counts.items.get(&format!("i{k}")).unwrap() as usize;
+            start[j * rank..(j + 1) * rank].copy_from_slice(&init[k * rank..(k + 1) * rank]);
+        }
+        let mut fitter = ImplicitFitter::new(&counts, &options)
+            .unwrap()
+            .with_items(start);
+        let losses = floats(&case["losses"]);
+        let mut loss = f64::INFINITY;
+        for (step, expected) in losses.iter().enumerate() {
+            fitter.update_users().unwrap();
+            let after_users = fitter.loss();
+            fitter.update_items().unwrap();
+            let after_items = fitter.loss();
+            assert!(
+                after_users <= loss * (1.0 + 1e-12) && after_items <= after_users * (1.0 + 1e-12),
+                "the loss rose: {loss} → {after_users} → {after_items}"
+            );
+            loss = after_items;
+            let diff = (loss - expected).abs() / expected.abs().max(1.0);
+            assert!(
+                diff < 1e-10,
+                "loss after iteration {}: {loss} vs {expected}",
+                step + 1
+            );
+            worst = worst.max(diff);
+        }
+        let m = fitter.model();
+        for (actual, key) in [
+            (vectors_by_id(&counts.users, &m.users, rank, "u"), "users"),
+            (vectors_by_id(&counts.items, &m.items, rank, "i"), "items"),
+        ] {
+            let diff = max_rel_diff(&actual, &matrix(&case[key]).0);
+            assert!(diff < 1e-10, "{key}: {diff:e}");
+            worst = worst.max(diff);
+        }
+    }
+    eprintln!("implicit steps: largest relative difference from numpy {worst:e}");
+}

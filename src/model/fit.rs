@@ -156,14 +156,14 @@ pub struct FitResult {
 
 /// Compressed rows: for each row, its column indices and target values.
 #[derive(Debug, Clone, Default)]
-struct Compressed {
+pub(super) struct Compressed {
     start: Vec<usize>,
-    columns: Vec<u32>,
-    targets: Vec<f64>,
+    pub(super) columns: Vec<u32>,
+    pub(super) targets: Vec<f64>,
 }
 
 impl Compressed {
-    fn build(rows: usize, pairs: impl Iterator<Item = (u32, u32, f64)> + Clone) -> Self {
+    pub(super) fn build(rows: usize, pairs: impl Iterator<Item = (u32, u32, f64)> + Clone) -> Self {
         let mut start = vec![0usize; rows + 1];
         for (r, _, _) in pairs.clone() {
             start[r as usize + 1] += 1;
@@ -188,7 +188,7 @@ impl Compressed {
         }
     }
 
-    fn row(&self, r: usize) -> (&[u32], &[f64]) {
+    pub(super) fn row(&self, r: usize) -> (&[u32], &[f64]) {
         let range = self.start[r]..self.start[r + 1];
         (&self.columns[range.clone()], &self.targets[range])
     }
@@ -202,7 +202,7 @@ impl Compressed {
         (&self.columns[range.start..ahead], &self.targets[range])
     }
 
-    fn rows(&self) -> usize {
+    pub(super) fn rows(&self) -> usize {
         self.start.len() - 1
     }
 }
@@ -531,6 +531,21 @@ fn solve_side(
     d: usize,
     ridge: f64,
 ) -> Option<u32> {
+    solve_rows(out, rows, d, |ws, problems, vectors| {
+        ws.solve_batch(other, problems, ridge, vectors)
+    })
+}
+
+/// Solves every row of `rows` with `solve` (a batch of up to [`BATCH`] problems, each its
+/// columns and targets, into their vectors), in parallel; returns the first row (in index
+/// order) that failed.
+pub(super) fn solve_rows(
+    out: &mut [f64],
+    rows: &Compressed,
+    d: usize,
+    solve: impl Fn(&mut RidgeWorkspace, &[super::solve::Problem<'_>], &mut [f64]) -> [bool; BATCH]
+    + Sync,
+) -> Option<u32> {
     let failures: Vec<u32> = out
         .par_chunks_mut(d * BATCH)
         .enumerate()
@@ -545,7 +560,7 @@ fn solve_side(
                 for (k, problem) in problems.iter_mut().enumerate().take(count) {
                     *problem = rows.row_and_ahead(first + k);
                 }
-                let ok = ws.solve_batch(other, &problems[..count], ridge, vectors);
+                let ok = solve(ws, &problems[..count], vectors);
                 (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
             },
         )
@@ -639,7 +654,7 @@ fn guard_underdetermined(
 }
 
 /// Initial item vectors drawn i.i.d. `N(0, 1/λ)` (or `N(0, 1)` when λ = 0).
-fn random_items(count: usize, d: usize, lambda: f64, seed: u64) -> Vec<f64> {
+pub(super) fn random_items(count: usize, d: usize, lambda: f64, seed: u64) -> Vec<f64> {
     let scale = if lambda > 0.0 {
         1.0 / lambda.sqrt()
     } else {

@@ -20,6 +20,7 @@
 pub mod build;
 pub mod dir;
 pub mod fit;
+pub mod implicit;
 pub mod kernels;
 pub mod manifest;
 pub mod notes;

@@ -8,7 +8,7 @@
 
 use super::kernels::{
     BATCH, COLUMN_BLOCK, LaneVector, Scratch, TILE, cholesky_solve, gram_rhs_and_sums_direct,
-    interleave, normal_equations, round_up,
+    interleave, normal_equations, round_up, scaled_normal_equations,
 };
 
 /// Reusable buffers for ridge solves of a fixed rank.
@@ -29,6 +29,9 @@ pub struct RidgeWorkspace {
     sums: [Vec<f64>; BATCH],
     totals: [f64; BATCH],
     denominators: [f64; BATCH],
+    /// For weighted problems: each row's scale `√(c − 1)` and target `c/√(c − 1)`.
+    scales: Vec<f64>,
+    scaled_targets: Vec<f64>,
 }
 
 /// The normal equations were not positive definite (only possible with no ridge term or
@@ -57,6 +60,8 @@ impl RidgeWorkspace {
             sums: std::array::from_fn(|_| vec![0.0; rank]),
             totals: [0.0; BATCH],
             denominators: [0.0; BATCH],
+            scales: Vec::new(),
+            scaled_targets: Vec::new(),
         }
     }
 
@@ -132,6 +137,76 @@ impl RidgeWorkspace {
         ok
     }
 
+    /// Solves up to [`BATCH`] weighted problems side by side: for problem `p` with rows
+    /// `x_k` (rows `rows[k]` of `table`) and weights `c_k`, solves
+    /// `(base + Σ_k (c_k − 1) x_k x_kᵀ) w = Σ_k c_k x_k`, writing `w` to `out[p * rank..]`.
+    /// `base` is a symmetric `rank × rank` matrix (row-major) shared by every problem.
+    ///
+    /// This is the implicit-feedback step of Hu, Koren & Volinsky (ICDM 2008, eq. 4):
+    /// with `base = YᵀY + λI` and `c_k` the confidences of one member's interactions
+    /// (preference 1), `w` minimises `Σ_all c (p − x·w)² + λ‖w‖²` over the whole catalogue
+    /// at the cost of the member's own interactions. `exact_zero_ridge` says the base has no
+    /// ridge term, so a pivot is judged against the matrix's own diagonal.
+    pub fn solve_batch_weighted(
+        &mut self,
+        table: &[f64],
+        problems: &[Problem<'_>],
+        base: &[f64],
+        exact_zero_ridge: bool,
+        out: &mut [f64],
+    ) -> [bool; BATCH] {
+        assert!(
+            problems.len() <= BATCH,
+            "at most {BATCH} problems per batch"
+        );
+        let (d, s) = (self.rank, self.stride);
+        for lane in 0..BATCH {
+            let Some(&(rows, weights)) = problems.get(lane) else {
+                self.load_identity(lane);
+                continue;
+            };
+            // Σ (c − 1) x xᵀ is the Gram matrix of the rows scaled by √(c − 1), so the
+            // register-tiled kernels build it; the target c/√(c − 1) of a scaled row gives
+            // Σ c x as its right-hand side.
+            self.scales.clear();
+            self.scaled_targets.clear();
+            let mut unscalable = false;
+            for &c in weights {
+                let root = (c - 1.0).sqrt();
+                unscalable |= root.is_nan() || root == 0.0;
+                self.scales.push(root);
+                self.scaled_targets.push(c / root);
+            }
+            let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
+            scaled_normal_equations(
+                table,
+                d,
+                rows,
+                &self.scales,
+                &self.scaled_targets,
+                &mut self.scratch,
+                gram,
+                rhs,
+            );
+            if unscalable {
+                // A confidence of 1 adds nothing to the matrix but still to Σ c x.
+                rhs[..d].fill(0.0);
+                for (&r, &c) in rows.iter().zip(weights) {
+                    let x = &table[r as usize * d..r as usize * d + d];
+                    for (acc, &v) in rhs.iter_mut().zip(x) {
+                        *acc = c.mul_add(v, *acc);
+                    }
+                }
+            }
+            for i in 0..d {
+                for j in i..d {
+                    gram[i * s + j] += base[i * d + j];
+                }
+            }
+        }
+        self.finish_lanes(problems.len(), exact_zero_ridge, out)
+    }
+
     fn solve_lanes(
         &mut self,
         table: &[f64],
@@ -144,7 +219,6 @@ impl RidgeWorkspace {
             problems.len() <= BATCH,
             "at most {BATCH} problems per batch"
         );
-        let (d, s) = (self.rank, self.stride);
         for lane in 0..BATCH {
             match problems.get(lane) {
                 Some(&(rows, targets)) => {
@@ -153,6 +227,13 @@ impl RidgeWorkspace {
                 None => self.load_identity(lane),
             }
         }
+        self.finish_lanes(problems.len(), ridge == 0.0, out)
+    }
+
+    /// Solves the systems loaded into the lanes (the first `count` are problems) by the
+    /// batched Cholesky factorization, writing the solutions to `out`.
+    fn finish_lanes(&mut self, count: usize, zero_ridge: bool, out: &mut [f64]) -> [bool; BATCH] {
+        let (d, s) = (self.rank, self.stride);
         // Interleave the systems, one per lane.
         interleave(
             &self.gram,
@@ -162,14 +243,14 @@ impl RidgeWorkspace {
             &mut self.lanes,
             &mut self.lane_rhs,
         );
-        let diagonal = (ridge == 0.0).then(|| {
+        let diagonal = zero_ridge.then(|| {
             self.diagonal.clear();
             let ls = round_up(d, COLUMN_BLOCK);
             self.diagonal.extend((0..d).map(|k| self.lanes[k * ls + k]));
             self.diagonal.as_slice()
         });
         let mut ok = cholesky_solve(&mut self.lanes, &mut self.lane_rhs, d, diagonal);
-        for (lane, solution) in out.chunks_exact_mut(d).enumerate().take(problems.len()) {
+        for (lane, solution) in out.chunks_exact_mut(d).enumerate().take(count) {
             for (k, value) in solution.iter_mut().enumerate() {
                 *value = self.lane_rhs[k].as_array()[lane];
             }

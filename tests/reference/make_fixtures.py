@@ -148,6 +148,85 @@ def biased_steps(seed, n_users, n_items, rank, lam, lam_b, sigma2, density, iter
     }
 
 
+def implicit_steps(seed, n_users, n_items, rank, lam, alpha, epsilon, density, iterations):
+    """Alternating least squares for implicit feedback (Hu, Koren & Volinsky, ICDM 2008),
+    in the dense form: for each member, C_u = diag(confidences over the whole catalogue)
+    and p_u = [count > 0], x_u = solve(Y' C_u Y + lam I, Y' C_u p_u) with Y' C_u Y formed
+    explicitly (no Y'Y + Y'(C_u - I)Y shortcut); items likewise. Confidence 1 + alpha*count,
+    or 1 + alpha*log(1 + count/epsilon) when epsilon is given. The loss
+    sum_all c (p - x.y)^2 + lam (|X|^2 + |Y|^2) is recorded after each iteration."""
+    rng = np.random.default_rng(seed)
+    counts = np.where(rng.random((n_users, n_items)) < density, rng.integers(1, 20, size=(n_users, n_items)), 0).astype(float)
+    for i in range(n_users):
+        counts[i, rng.integers(n_items)] = float(rng.integers(1, 5))
+    for j in range(n_items):
+        counts[rng.integers(n_users), j] = float(rng.integers(1, 5))
+    if epsilon is None:
+        conf = 1.0 + alpha * counts
+    else:
+        conf = 1.0 + alpha * np.log1p(counts / epsilon)
+    pref = (counts > 0).astype(float)
+    y = rng.normal(scale=0.3, size=(n_items, rank))
+    y0 = y.copy()
+    x = np.zeros((n_users, rank))
+    losses = []
+    for _ in range(iterations):
+        for u in range(n_users):
+            cu = np.diag(conf[u])
+            x[u] = np.linalg.solve(y.T @ cu @ y + lam * np.eye(rank), y.T @ cu @ pref[u])
+        for i in range(n_items):
+            ci = np.diag(conf[:, i])
+            y[i] = np.linalg.solve(x.T @ ci @ x + lam * np.eye(rank), x.T @ ci @ pref[:, i])
+        losses.append(float((conf * (pref - x @ y.T) ** 2).sum() + lam * ((x ** 2).sum() + (y ** 2).sum())))
+    # Every positive count, and a few explicit zeros (which are no interaction).
+    rows = [[f"u{i}", f"i{j}", counts[i, j]] for i in range(n_users) for j in range(n_items) if counts[i, j] > 0]
+    zeros = np.argwhere(counts == 0)[:5]
+    rows += [[f"u{i}", f"i{j}", 0.0] for i, j in zeros]
+    return {
+        "source": "numpy.linalg.solve on the dense weighted normal equations of each member and item",
+        "rank": rank, "lambda": lam, "alpha": alpha, "epsilon": epsilon, "iterations": iterations,
+        "counts": rows, "items_init": y0.tolist(), "users": x.tolist(), "items": y.tolist(),
+        "losses": losses,
+    }
+
+
+def percentile_rank():
+    """Expected percentile rank (Hu, Koren & Volinsky 2008, section 6) computed directly:
+    for each member, candidates are the items without a training interaction, ranked by
+    x.y descending; a held-out item's rank is (candidates strictly above + half the other
+    candidates with an equal score) / (candidates - 1); the result is sum(count * rank) /
+    sum(count) over held-out interactions. Scores are rounded to one decimal in one case
+    so that ties occur."""
+    rng = np.random.default_rng(97)
+    cases = []
+    for n_users, n_items, rank, ties in [(12, 30, 3, False), (20, 15, 2, True)]:
+        x = rng.normal(size=(n_users, rank))
+        y = rng.normal(size=(n_items, rank))
+        if ties:
+            x = np.round(x, 0)
+            y = np.round(y, 0)
+        rows = []
+        num = den = 0.0
+        for u in range(n_users):
+            items = rng.permutation(n_items)
+            train, held = items[:5], items[5:8] if u % 4 else items[5:5]
+            for j in train:
+                rows.append([f"u{u}", f"i{j}", float(rng.integers(1, 9)), "train"])
+            candidates = np.setdiff1d(np.arange(n_items), train)
+            scores = y[candidates] @ x[u]
+            for j in held:
+                count = float(rng.integers(1, 9))
+                rows.append([f"u{u}", f"i{j}", count, "holdout"])
+                s = scores[np.searchsorted(candidates, j)]  # the same product as in the list
+                above = (scores > s).sum()
+                tied = (scores == s).sum() - 1
+                num += count * (above + 0.5 * tied) / (len(candidates) - 1)
+                den += count
+        cases.append({"rank": rank, "users": x.tolist(), "items": y.tolist(), "counts": rows,
+                      "n_items": n_items, "epr": num / den})
+    return {"source": "numpy, by the definition", "cases": cases}
+
+
 def soft_threshold_svd(seed, n_users, n_items, rank, lam):
     """A fully observed matrix: the MAP fit's product UV' has singular values
     max(s_i - lam*sigma2, 0) (sigma2 = 1) and its item subspace is the top right singular
@@ -355,6 +434,14 @@ def build():
                 biased_steps(23, 20, 15, 2, 2.0, 5.0, 0.7, 0.6, 3),
             ]
         },
+        "implicit_steps.json": {
+            "cases": [
+                implicit_steps(31, 15, 12, 3, 0.5, 40.0, None, 0.3, 1),
+                implicit_steps(32, 30, 25, 5, 1.0, 10.0, None, 0.2, 4),
+                implicit_steps(33, 20, 18, 4, 2.0, 5.0, 0.5, 0.25, 3),
+            ]
+        },
+        "percentile_rank.json": percentile_rank(),
         "soft_threshold_svd.json": soft_threshold_svd(11, 40, 30, 3, 1.5),
         "subspace_angles.json": subspace_angle_cases(),
         "longley.json": longley(),

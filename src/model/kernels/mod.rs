@@ -124,7 +124,63 @@ pub struct Scratch {
         target_feature = "fma"
     )))]
     gathered: Vec<f64>,
+    /// Scaled rows of [`scaled_normal_equations`] where they are staged, and `0..n`.
+    staging: Vec<f64>,
+    sequence: Vec<u32>,
 }
+
+/// [`normal_equations`] of the rows scaled by `scale` (row `k` of `X` is `scale[k]` times
+/// row `rows[k]` of `table`), for weighted problems: `XᵀX = Σ scale² x xᵀ`. Where the Gram
+/// kernel gathers its rows anyway (the portable kernels above the direct ranks) the scaling
+/// happens in that copy; otherwise the scaled rows are staged once and read directly.
+#[allow(clippy::too_many_arguments)]
+pub fn scaled_normal_equations(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    scale: &[f64],
+    y: &[f64],
+    scratch: &mut Scratch,
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) {
+    let n = y.len();
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    if d > PORTABLE_DIRECT_MAX {
+        let s = round_up(d, TILE);
+        gather(table, d, rows, n, &mut scratch.gathered);
+        for (slot, &c) in scratch.gathered[..n * s].chunks_exact_mut(s).zip(scale) {
+            for v in &mut slot[..d] {
+                *v *= c;
+            }
+        }
+        gram_and_rhs(&scratch.gathered[..n * s], s, y, gram, rhs);
+        return;
+    }
+    let mut staging = std::mem::take(&mut scratch.staging);
+    staging.clear();
+    for (&r, &c) in rows.iter().zip(scale).take(n) {
+        staging.extend(
+            table[r as usize * d..(r as usize + 1) * d]
+                .iter()
+                .map(|v| v * c),
+        );
+    }
+    if scratch.sequence.len() < n {
+        scratch.sequence = (0..n as u32).collect();
+    }
+    let sequence = std::mem::take(&mut scratch.sequence);
+    normal_equations(&staging, d, &sequence[..n], y, scratch, gram, rhs);
+    scratch.sequence = sequence;
+    scratch.staging = staging;
+}
+
+/// The largest rank the portable direct kernels handle.
+const PORTABLE_DIRECT_MAX: usize = 12;
 
 /// Upper triangle of `XᵀX` and `Xᵀy`, where row `k` of `X` is row `rows[k]` of the
 /// row-major `table` (width `d`): the normal equations of one ridge problem, without the
