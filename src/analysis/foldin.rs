@@ -82,14 +82,13 @@ pub fn fold_in_with_offsets(
     let mut sorted = rated.to_vec();
     sorted.sort_by_key(|&(j, _)| j);
     let rows: Vec<u32> = sorted.iter().map(|&(j, _)| j).collect();
-    let targets: Vec<f64> = sorted
-        .iter()
-        .map(|&(j, r)| r - mu - item_offsets[j as usize])
-        .collect();
+    // The solver takes the item offsets off these targets, as in the fit.
+    let targets: Vec<f64> = sorted.iter().map(|&(_, r)| r - mu).collect();
     let mut vector = vec![0.0; d];
     let mut bias = [0.0];
     let ok = RidgeWorkspace::new(d).solve_batch_with_offsets(
         items,
+        item_offsets,
         &[(&rows, &targets)],
         ridge,
         offset_ridge,

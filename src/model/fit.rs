@@ -208,6 +208,12 @@ impl Compressed {
 }
 
 /// A fit in progress: exposes the half-steps so callers (and tests) can watch L.
+///
+/// With biases (`FitOptions::lambda_bias`), a member's `(u_i, b_i)` is one ridge regression
+/// on features `[v_j, 1]` with target `M_ij − μ − c_j` and penalty
+/// `diag(λσ², …, λσ², λ_bσ²)`, solved exactly by
+/// [`RidgeWorkspace::solve_batch_with_offsets`], which takes the item offsets `c_j` off the
+/// stored targets `M_ij − μ` as each problem is loaded; an item's `(v_j, c_j)` likewise.
 pub struct Fitter<'a> {
     options: FitOptions,
     ratings: &'a Ratings,
@@ -215,19 +221,6 @@ pub struct Fitter<'a> {
     by_item: Compressed,
     holdout: Vec<(u32, u32, f64)>,
     model: FactorModel,
-    biased: Option<Biased>,
-}
-
-/// The state of a fit with biases. A member's `(u_i, b_i)` is one ridge regression on
-/// features `[v_j, 1]` with target `M_ij − μ − c_j` and penalty
-/// `diag(λσ², …, λσ², λ_bσ²)`, solved exactly
-/// ([`RidgeWorkspace::solve_batch_with_offsets`]); an item's `(v_j, c_j)` likewise.
-struct Biased {
-    /// Targets `M − μ` minus the other side's offsets, in the layout of `by_user` and
-    /// `by_item`, rewritten before each half-step (a streaming pass: cheaper than reading
-    /// an offset beside every row inside the solves).
-    user_targets: Vec<f64>,
-    item_targets: Vec<f64>,
 }
 
 impl<'a> Fitter<'a> {
@@ -288,7 +281,6 @@ impl<'a> Fitter<'a> {
             by_item,
             holdout,
             model,
-            biased: None,
         }
         .with_optional_biases(options.lambda_bias))
     }
@@ -322,10 +314,6 @@ impl<'a> Fitter<'a> {
             item: vec![0.0; self.by_item.rows()],
             lambda: lambda_bias,
         });
-        self.biased = Some(Biased {
-            user_targets: self.by_user.targets.clone(),
-            item_targets: self.by_item.targets.clone(),
-        });
         self
     }
 
@@ -342,15 +330,23 @@ impl<'a> Fitter<'a> {
     /// Updates every user vector (one ridge solve each) for the current item vectors.
     pub fn update_users(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
-        if let (Some(b), Some(biases)) = (&mut self.biased, &mut self.model.biases) {
-            let failed = biased_half_step(
+        if let Some(biases) = &mut self.model.biases {
+            let failed = solve_rows(
+                &mut self.model.users,
+                Some(&mut biases.user),
                 &self.by_user,
-                &mut b.user_targets,
-                &biases.item,
-                (&mut self.model.users, &mut biases.user),
-                &self.model.items,
                 self.model.rank,
-                (ridge, biases.lambda * self.options.sigma2),
+                |ws, problems, vectors, offsets| {
+                    ws.solve_batch_with_offsets(
+                        &self.model.items,
+                        &biases.item,
+                        problems,
+                        ridge,
+                        biases.lambda * self.options.sigma2,
+                        vectors,
+                        offsets,
+                    )
+                },
             );
             return failed.map_or(Ok(()), |i| {
                 Err(self.not_positive_definite("user", self.ratings.users.name(i)))
@@ -371,15 +367,23 @@ impl<'a> Fitter<'a> {
     /// Updates every item vector for the current user vectors.
     pub fn update_items(&mut self) -> Result<(), FitError> {
         let ridge = self.options.lambda * self.options.sigma2;
-        if let (Some(b), Some(biases)) = (&mut self.biased, &mut self.model.biases) {
-            let failed = biased_half_step(
+        if let Some(biases) = &mut self.model.biases {
+            let failed = solve_rows(
+                &mut self.model.items,
+                Some(&mut biases.item),
                 &self.by_item,
-                &mut b.item_targets,
-                &biases.user,
-                (&mut self.model.items, &mut biases.item),
-                &self.model.users,
                 self.model.rank,
-                (ridge, biases.lambda * self.options.sigma2),
+                |ws, problems, vectors, offsets| {
+                    ws.solve_batch_with_offsets(
+                        &self.model.users,
+                        &biases.user,
+                        problems,
+                        ridge,
+                        biases.lambda * self.options.sigma2,
+                        vectors,
+                        offsets,
+                    )
+                },
             );
             return failed.map_or(Ok(()), |j| {
                 Err(self.not_positive_definite("item", self.ratings.items.name(j)))
@@ -531,66 +535,33 @@ fn solve_side(
     d: usize,
     ridge: f64,
 ) -> Option<u32> {
-    solve_rows(out, rows, d, |ws, problems, vectors| {
+    solve_rows(out, None, rows, d, |ws, problems, vectors, _| {
         ws.solve_batch(other, problems, ridge, vectors)
     })
 }
 
 /// Solves every row of `rows` with `solve` (a batch of up to [`BATCH`] problems, each its
-/// columns and targets, into their vectors), in parallel; returns the first row (in index
-/// order) that failed.
+/// columns and targets, into their vectors and, when `offsets` is given, their offsets),
+/// in parallel; returns the first row (in index order) that failed.
 pub(super) fn solve_rows(
     out: &mut [f64],
+    offsets: Option<&mut [f64]>,
     rows: &Compressed,
     d: usize,
-    solve: impl Fn(&mut RidgeWorkspace, &[super::solve::Problem<'_>], &mut [f64]) -> [bool; BATCH]
+    solve: impl Fn(
+        &mut RidgeWorkspace,
+        &[super::solve::Problem<'_>],
+        &mut [f64],
+        &mut [f64],
+    ) -> [bool; BATCH]
     + Sync,
 ) -> Option<u32> {
+    let mut unused = Vec::new();
+    let offsets = offsets.unwrap_or_else(|| {
+        unused = vec![0.0; rows.rows()];
+        &mut unused
+    });
     let failures: Vec<u32> = out
-        .par_chunks_mut(d * BATCH)
-        .enumerate()
-        .with_min_len(16)
-        .map_init(
-            || RidgeWorkspace::new(d),
-            |ws, (batch, vectors)| {
-                let first = batch * BATCH;
-                let count = vectors.len() / d;
-                let empty: (&[u32], &[f64]) = (&[], &[]);
-                let mut problems = [empty; BATCH];
-                for (k, problem) in problems.iter_mut().enumerate().take(count) {
-                    *problem = rows.row_and_ahead(first + k);
-                }
-                let ok = solve(ws, &problems[..count], vectors);
-                (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
-            },
-        )
-        .flatten()
-        .collect();
-    failures.first().copied()
-}
-
-/// One half-step of a fit with biases: writes the targets `M − μ` of `rows` minus the
-/// other side's offsets into `targets`, then solves every `(vector, offset)` of this side
-/// (`side`: its vectors and offsets) against the other side's vectors; `ridges` are λσ² and λ_bσ². Returns the first row
-/// that failed.
-#[allow(clippy::too_many_arguments)]
-fn biased_half_step(
-    rows: &Compressed,
-    targets: &mut [f64],
-    other_offsets: &[f64],
-    side: (&mut [f64], &mut [f64]),
-    other: &[f64],
-    d: usize,
-    ridges: (f64, f64),
-) -> Option<u32> {
-    targets
-        .par_iter_mut()
-        .with_min_len(4096)
-        .zip(rows.targets.par_iter().zip(&rows.columns))
-        .for_each(|(t, (&y, &c))| *t = y - other_offsets[c as usize]);
-    let targets = &*targets;
-    let (vectors, offsets) = side;
-    let failures: Vec<u32> = vectors
         .par_chunks_mut(d * BATCH)
         .zip(offsets.par_chunks_mut(BATCH))
         .enumerate()
@@ -599,24 +570,13 @@ fn biased_half_step(
             || RidgeWorkspace::new(d),
             |ws, (batch, (vectors, offsets))| {
                 let first = batch * BATCH;
-                let count = offsets.len();
+                let count = vectors.len() / d;
                 let empty: (&[u32], &[f64]) = (&[], &[]);
                 let mut problems = [empty; BATCH];
                 for (k, problem) in problems.iter_mut().enumerate().take(count) {
-                    let (columns, _) = rows.row_and_ahead(first + k);
-                    *problem = (
-                        columns,
-                        &targets[rows.start[first + k]..rows.start[first + k + 1]],
-                    );
+                    *problem = rows.row_and_ahead(first + k);
                 }
-                let ok = ws.solve_batch_with_offsets(
-                    other,
-                    &problems[..count],
-                    ridges.0,
-                    ridges.1,
-                    vectors,
-                    offsets,
-                );
+                let ok = solve(ws, &problems[..count], vectors, offsets);
                 (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
             },
         )

@@ -379,9 +379,10 @@ fn half_step(
     let zero_ridge = lambda == 0.0;
     solve_rows(
         out,
+        None,
         rows,
         d,
-        |ws: &mut RidgeWorkspace, problems, vectors| {
+        |ws: &mut RidgeWorkspace, problems, vectors, _| {
             debug_assert!(problems.len() <= BATCH);
             ws.solve_batch_weighted(other, problems, &base, zero_ridge, vectors)
         },

@@ -32,6 +32,8 @@ pub struct RidgeWorkspace {
     /// For weighted problems: each row's scale `√(c − 1)` and target `c/√(c − 1)`.
     scales: Vec<f64>,
     scaled_targets: Vec<f64>,
+    /// For problems with an offset: the targets less the rows' known offsets.
+    adjusted: Vec<f64>,
 }
 
 /// The normal equations were not positive definite (only possible with no ridge term or
@@ -62,6 +64,7 @@ impl RidgeWorkspace {
             denominators: [0.0; BATCH],
             scales: Vec::new(),
             scaled_targets: Vec::new(),
+            adjusted: Vec::new(),
         }
     }
 
@@ -99,8 +102,11 @@ impl RidgeWorkspace {
     }
 
     /// Like [`Self::solve_batch`], with a free offset fitted beside each vector: solves
-    /// `min ‖y − Xw − b·1‖² + ridge·‖w‖² + offset_ridge·b²` for `(w, b)`, writing `w` to
-    /// `out[p * rank..]` and `b` to `offsets[p]`.
+    /// `min ‖y − o − Xw − b·1‖² + ridge·‖w‖² + offset_ridge·b²` for `(w, b)`, writing `w` to
+    /// `out[p * rank..]` and `b` to `offsets[p]`. `o_k = known[rows[k]]` are fixed offsets
+    /// of the rows (the other side's, in a fit with biases), subtracted from the targets
+    /// as each problem is loaded: the targets themselves stay `M − μ`, so no pass over all
+    /// of them is needed when the other side's offsets change.
     ///
     /// The joint system `[[XᵀX + ridge·I, s], [sᵀ, n + ρ_b]] [w; b] = [Xᵀy; t]` (with
     /// `s = Xᵀ1`, `t = Σy`, `n` rows, `ρ_b = offset_ridge`) is solved by eliminating `b`:
@@ -109,16 +115,18 @@ impl RidgeWorkspace {
     /// So the Cholesky factorization keeps the width of the vectors (no padding for the
     /// offset), and `s` comes from one pass over rows the Gram kernel has just brought into
     /// cache.
+    #[allow(clippy::too_many_arguments)]
     pub fn solve_batch_with_offsets(
         &mut self,
         table: &[f64],
+        known: &[f64],
         problems: &[Problem<'_>],
         ridge: f64,
         offset_ridge: f64,
         out: &mut [f64],
         offsets: &mut [f64],
     ) -> [bool; BATCH] {
-        let ok = self.solve_lanes(table, problems, ridge, Some(offset_ridge), out);
+        let ok = self.solve_lanes(table, problems, ridge, Some((offset_ridge, known)), out);
         let d = self.rank;
         for (lane, (w, b)) in out
             .chunks_exact(d)
@@ -212,7 +220,7 @@ impl RidgeWorkspace {
         table: &[f64],
         problems: &[Problem<'_>],
         ridge: f64,
-        offset: Option<f64>,
+        offset: Option<(f64, &[f64])>,
         out: &mut [f64],
     ) -> [bool; BATCH] {
         assert!(
@@ -269,10 +277,24 @@ impl RidgeWorkspace {
         rows: &[u32],
         targets: &[f64],
         ridge: f64,
-        offset: Option<f64>,
+        offset: Option<(f64, &[f64])>,
     ) {
         let (d, s) = (self.rank, self.stride);
         debug_assert!(rows.len() >= targets.len());
+        // The rows' known offsets come off the targets here, while both are in cache.
+        let targets = match offset {
+            Some((_, known)) => {
+                self.adjusted.clear();
+                self.adjusted.extend(
+                    targets
+                        .iter()
+                        .zip(rows)
+                        .map(|(&y, &r)| y - known[r as usize]),
+                );
+                &self.adjusted[..]
+            }
+            None => targets,
+        };
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
         // With an offset, the rows' sum comes from the Gram kernel's own pass where one
         // exists (a second pass over the rows costs as much again at low ranks).
@@ -281,7 +303,7 @@ impl RidgeWorkspace {
         if !summed {
             normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
         }
-        if let Some(offset_ridge) = offset {
+        if let Some((offset_ridge, _)) = offset {
             let n = targets.len();
             let sum = &mut self.sums[lane];
             if !summed {
@@ -295,8 +317,10 @@ impl RidgeWorkspace {
                 // The Schur complement of the offset's row and column.
                 for i in 0..d {
                     let scaled = sum[i] / den;
-                    for j in i..d {
-                        gram[i * s + j] -= scaled * sum[j];
+                    // Slices, not indices, so the row update is one vector loop.
+                    let row = &mut gram[i * s + i..i * s + d];
+                    for (g, &sj) in row.iter_mut().zip(&sum[i..d]) {
+                        *g -= scaled * sj;
                     }
                     rhs[i] -= scaled * total;
                 }
@@ -381,6 +405,7 @@ mod tests {
         let (mut w, mut b) = ([0.0; 1], [0.0; 1]);
         let ok = ws.solve_batch_with_offsets(
             &table,
+            &[0.0; 3],
             &[(&[0, 1, 2], &[2.0, 3.0, 5.0])],
             0.5,
             0.25,
@@ -391,13 +416,20 @@ mod tests {
         assert!((w[0] - 14.75 / 11.125).abs() < 1e-14, "{w:?}");
         assert!((b[0] - 7.0 / 11.125).abs() < 1e-14, "{b:?}");
         // No rows: both are 0.
-        let ok = ws.solve_batch_with_offsets(&table, &[(&[], &[])], 0.5, 0.25, &mut w, &mut b);
+        let ok = ws.solve_batch_with_offsets(&table, &[], &[(&[], &[])], 0.5, 0.25, &mut w, &mut b);
         assert!(ok[0]);
         assert_eq!((w[0], b[0]), (0.0, 0.0));
         // A constant feature and a free offset without any ridge cannot be told apart.
         let flat = [1.0, 1.0];
-        let ok =
-            ws.solve_batch_with_offsets(&flat, &[(&[0, 1], &[1.0, 2.0])], 0.0, 0.0, &mut w, &mut b);
+        let ok = ws.solve_batch_with_offsets(
+            &flat,
+            &[0.0; 2],
+            &[(&[0, 1], &[1.0, 2.0])],
+            0.0,
+            0.0,
+            &mut w,
+            &mut b,
+        );
         assert!(!ok[0], "{w:?} {b:?}");
     }
 
