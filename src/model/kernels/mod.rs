@@ -180,6 +180,11 @@ pub fn scaled_normal_equations(
 }
 
 /// The largest rank the portable direct kernels handle.
+#[cfg(not(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+)))]
 const PORTABLE_DIRECT_MAX: usize = 12;
 
 /// Upper triangle of `XᵀX` and `Xᵀy`, where row `k` of `X` is row `rows[k]` of the
