@@ -459,3 +459,65 @@ fn tune_fits_its_grid_with_offsets_and_keeps_them_in_the_best_model() {
     let alone = sextant(&["tune", "x.csv", "--lambda-bias", "3"]);
     assert_eq!(alone.status.code(), Some(2));
 }
+
+#[test]
+fn bad_offsets_in_imported_tables_are_refused_with_file_line_and_reason() {
+    let tmp = tempfile::tempdir().unwrap();
+    let ratings = tmp.path().join("ratings.csv");
+    std::fs::write(&ratings, "user,item,rating\na,x,5\na,y,1\nb,x,4\n").unwrap();
+    let items = tmp.path().join("items.csv");
+    std::fs::write(&items, "id,f1,offset\nx,0.5,0.1\ny,-0.5,0.2\n").unwrap();
+    let import = |users: &str| {
+        let path = tmp.path().join("users.csv");
+        std::fs::write(&path, users).unwrap();
+        let out = sextant(&[
+            "import",
+            "--ratings",
+            &ratings.display().to_string(),
+            "--user-vectors",
+            &path.display().to_string(),
+            "--item-vectors",
+            &items.display().to_string(),
+            "--user-bias-col",
+            "offset",
+            "--item-bias-col",
+            "offset",
+            "--mu",
+            "3",
+            "--out",
+            &tmp.path().join("model").display().to_string(),
+        ]);
+        (out.status.code(), text(&out.stderr))
+    };
+    let (code, err) = import("id,offset,f1\na,abc,1\nb,0,1\n");
+    assert_eq!(code, Some(2));
+    assert!(
+        err.contains("users.csv, line 2: the offset of 'a' is 'abc', not a finite number"),
+        "{err}"
+    );
+    let (code, err) = import("id,offset,f1\na,1e300,1\nb,0,1\n");
+    assert_eq!(code, Some(2));
+    assert!(err.contains("offsets must lie within ±1e12"), "{err}");
+    let (code, err) = import("id,f1\na,1\nb,1\n");
+    assert_eq!(code, Some(2));
+    assert!(
+        err.contains("users.csv, line 1: missing column 'offset'")
+            && err.contains("--user-bias-col"),
+        "{err}"
+    );
+    // Named as the id column: the offsets need a column of their own.
+    let (code, err) = import("offset,f1\na,1\nb,1\n");
+    assert_eq!(code, Some(2));
+    assert!(err.contains("is the id column"), "{err}");
+    // A table with only an id and offsets has no factors.
+    let (code, err) = import("id,offset\na,1\nb,1\n");
+    assert_eq!(code, Some(2));
+    assert!(err.contains("at least one factor column"), "{err}");
+    // And a good one is accepted, its offsets in every prediction.
+    let (code, err) = import("id,offset,f1\na,0.25,1\nb,-0.5,2\n");
+    assert_eq!(code, Some(0), "{err}");
+    let model = load_model(&tmp.path().join("model")).unwrap();
+    let a = model.ratings.users.get("a").unwrap();
+    let y = model.ratings.items.get("y").unwrap();
+    assert_eq!(model.factors.predict(a, y), 3.0 + 0.25 + 0.2 + 1.0 * -0.5);
+}
