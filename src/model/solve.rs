@@ -344,37 +344,21 @@ impl RidgeWorkspace {
     }
 }
 
-/// `sum = Σ_k table[rows[k]]` (rows of width `d`). The accumulators stay in registers:
-/// four columns at a time over all the rows (two interleaved sums per column, so the adds
-/// do not wait on each other), then the leftover columns one at a time. The rows were just
-/// read by the Gram kernel and are in cache; the order of the additions is fixed.
+/// `sum = Σ_k table[rows[k]]` (rows of width `d`), each column one chain of additions in
+/// row order — the order the direct kernels use, so a fit with biases has the same bits
+/// whichever kernel built its sums. Every column of a row is added at once, so the chains
+/// of different columns overlap. The rows were just read by the Gram kernel and are in
+/// cache.
 fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
-    const W: usize = 4;
-    let row = |r: u32, c: usize| -> &[f64] { &table[r as usize * d + c..r as usize * d + d] };
-    let mut c = 0;
-    while c + W <= d {
-        let (mut even, mut odd) = ([0.0; W], [0.0; W]);
-        let mut pairs = rows.chunks_exact(2);
-        for pair in &mut pairs {
-            let (x, y) = (&row(pair[0], c)[..W], &row(pair[1], c)[..W]);
-            for k in 0..W {
-                even[k] += x[k];
-                odd[k] += y[k];
-            }
+    let sum = &mut sum[..d];
+    sum.fill(0.0);
+    for &r in rows {
+        for (s, &x) in sum
+            .iter_mut()
+            .zip(&table[r as usize * d..r as usize * d + d])
+        {
+            *s += x;
         }
-        if let [last] = pairs.remainder() {
-            let x = &row(*last, c)[..W];
-            for k in 0..W {
-                even[k] += x[k];
-            }
-        }
-        for k in 0..W {
-            sum[c + k] = even[k] + odd[k];
-        }
-        c += W;
-    }
-    for (k, s) in sum.iter_mut().enumerate().take(d).skip(c) {
-        *s = rows.iter().map(|&r| table[r as usize * d + k]).sum();
     }
 }
 
@@ -431,6 +415,26 @@ mod tests {
             &mut b,
         );
         assert!(!ok[0], "{w:?} {b:?}");
+    }
+
+    #[test]
+    fn row_sums_have_the_same_bits_from_every_kernel() {
+        // The direct kernels' sums (from the padding column, or accumulators of their own)
+        // and the fallback pass add in the same order.
+        let mut rng = crate::rng::Rng::new(5);
+        for d in 1..=16 {
+            let table: Vec<f64> = (0..40 * d).map(|_| rng.normal() * 1e3).collect();
+            let rows: Vec<u32> = (0..23).map(|_| rng.below(40) as u32).collect();
+            let y: Vec<f64> = rows.iter().map(|_| rng.normal()).collect();
+            let s = round_up(d, TILE);
+            let (mut gram, mut rhs, mut direct) = (vec![0.0; s * s], vec![0.0; s], vec![0.0; d]);
+            if gram_rhs_and_sums_direct(&table, d, &rows, &y, &mut gram, &mut rhs, &mut direct) {
+                let mut pass = vec![0.0; d];
+                row_sums(&table, d, &rows, &mut pass);
+                let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+                assert_eq!(bits(&direct), bits(&pass), "rank {d}");
+            }
+        }
     }
 
     #[test]
