@@ -79,24 +79,30 @@ pub fn default_threshold(model: &Model) -> f64 {
     s.min() + 0.75 * (s.max() - s.min())
 }
 
-/// Ranking quality at cut-off `k`; `None` when no member has a relevant held-out rating.
-pub fn ranking_quality(model: &Model, k: usize, threshold: f64) -> Option<RankingQuality> {
-    let entries = &model.ratings.entries;
-    let items = model.factors.item_count();
-    // Per member: the range of their ratings in `entries`.
+/// Per member with at least one entry that `wanted` accepts: the member and the range of
+/// their entries in `entries` (sorted by member).
+fn member_spans(
+    entries: &[crate::data::Rating],
+    wanted: impl Fn(&crate::data::Rating) -> bool,
+) -> Vec<(u32, usize, usize)> {
     let mut spans = Vec::new();
     let mut start = 0;
     while start < entries.len() {
         let user = entries[start].user;
         let end = start + entries[start..].partition_point(|r| r.user == user);
-        if entries[start..end]
-            .iter()
-            .any(|r| r.holdout && r.value >= threshold)
-        {
+        if entries[start..end].iter().any(&wanted) {
             spans.push((user, start, end));
         }
         start = end;
     }
+    spans
+}
+
+/// Ranking quality at cut-off `k`; `None` when no member has a relevant held-out rating.
+pub fn ranking_quality(model: &Model, k: usize, threshold: f64) -> Option<RankingQuality> {
+    let entries = &model.ratings.entries;
+    let items = model.factors.item_count();
+    let spans = member_spans(entries, |r| r.holdout && r.value >= threshold);
     if spans.is_empty() || k == 0 {
         return None;
     }
@@ -163,19 +169,7 @@ pub fn expected_percentile_rank(
 ) -> Option<f64> {
     let entries = &counts.entries;
     let items = factors.item_count();
-    let mut spans = Vec::new();
-    let mut start = 0;
-    while start < entries.len() {
-        let user = entries[start].user;
-        let end = start + entries[start..].partition_point(|r| r.user == user);
-        if entries[start..end]
-            .iter()
-            .any(|r| r.holdout && r.value > 0.0)
-        {
-            spans.push((user, start, end));
-        }
-        start = end;
-    }
+    let spans = member_spans(entries, |r| r.holdout && r.value > 0.0);
     let per_user: Vec<(f64, f64)> = spans
         .par_iter()
         .map(|&(user, start, end)| {

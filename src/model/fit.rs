@@ -483,26 +483,42 @@ impl<'a> Fitter<'a> {
         mut self,
         mut progress: impl FnMut(&IterationRecord),
     ) -> Result<FitResult, FitError> {
-        let mut trace: Vec<IterationRecord> = Vec::new();
-        let mut converged = false;
-        for iter in 1..=self.options.max_iters {
-            let record = self.iterate(iter)?;
-            progress(&record);
-            let previous = trace.last().map(|r| r.log_joint);
-            trace.push(record);
-            if previous.is_some_and(|p| {
-                (record.log_joint - p).abs() <= self.options.tol * record.log_joint.abs()
-            }) {
-                converged = true;
-                break;
-            }
-        }
+        let (max_iters, tol) = (self.options.max_iters, self.options.tol);
+        let (trace, converged) = iterate_until(
+            (max_iters, tol),
+            |iter| self.iterate(iter),
+            |r| r.log_joint,
+            &mut progress,
+        )?;
         Ok(FitResult {
             factors: self.model,
             trace,
             converged,
         })
     }
+}
+
+/// Runs `iterate` for iterations 1, 2, … until the objective `value` of a record changes
+/// by at most `tol` times its size from the iteration before, or `max_iters` iterations;
+/// reports each record to `progress`. Returns the trace and whether the tolerance was met.
+pub(super) fn iterate_until<R>(
+    (max_iters, tol): (usize, f64),
+    mut iterate: impl FnMut(usize) -> Result<R, FitError>,
+    value: impl Fn(&R) -> f64,
+    progress: &mut impl FnMut(&R),
+) -> Result<(Vec<R>, bool), FitError> {
+    let mut trace: Vec<R> = Vec::new();
+    for iter in 1..=max_iters {
+        let record = iterate(iter)?;
+        progress(&record);
+        let now = value(&record);
+        let previous = trace.last().map(&value);
+        trace.push(record);
+        if previous.is_some_and(|p| (now - p).abs() <= tol * now.abs()) {
+            return Ok((trace, true));
+        }
+    }
+    Ok((trace, false))
 }
 
 /// Fits the model to the training ratings (see the module docs of [`crate::model`]).

@@ -20,7 +20,7 @@
 use rayon::prelude::*;
 
 use super::FactorModel;
-use super::fit::{Compressed, random_items, solve_rows};
+use super::fit::{Compressed, iterate_until, random_items, solve_rows};
 use super::kernels::BATCH;
 use super::solve::RidgeWorkspace;
 use crate::data::Ratings;
@@ -303,18 +303,13 @@ impl ImplicitFitter {
         mut self,
         mut progress: impl FnMut(&ImplicitRecord),
     ) -> Result<ImplicitResult, FitError> {
-        let mut trace: Vec<ImplicitRecord> = Vec::new();
-        let mut converged = false;
-        for iter in 1..=self.options.max_iters {
-            let record = self.iterate(iter)?;
-            progress(&record);
-            let previous = trace.last().map(|r| r.loss);
-            trace.push(record);
-            if previous.is_some_and(|p| (record.loss - p).abs() <= self.options.tol * record.loss) {
-                converged = true;
-                break;
-            }
-        }
+        let (max_iters, tol) = (self.options.max_iters, self.options.tol);
+        let (trace, converged) = iterate_until(
+            (max_iters, tol),
+            |iter| self.iterate(iter),
+            |r| r.loss,
+            &mut progress,
+        )?;
         Ok(ImplicitResult {
             factors: self.model,
             trace,
