@@ -521,3 +521,23 @@ fn bad_offsets_in_imported_tables_are_refused_with_file_line_and_reason() {
     let y = model.ratings.items.get("y").unwrap();
     assert_eq!(model.factors.predict(a, y), 3.0 + 0.25 + 0.2 + 1.0 * -0.5);
 }
+
+#[test]
+fn absurd_offset_priors_are_refused_before_any_work() {
+    let ratings = repo("tests/bad-inputs/good-small.csv")
+        .display()
+        .to_string();
+    let tmp = tempfile::tempdir().unwrap();
+    let out = tmp.path().join("m").display().to_string();
+    for bad in ["-1", "nan", "inf"] {
+        let flag = format!("--lambda-bias={bad}");
+        let run = sextant(&["fit", &ratings, "--biases", &flag, "--out", &out, "--quiet"]);
+        assert_eq!(run.status.code(), Some(2), "{bad}");
+        let err = text(&run.stderr);
+        assert!(
+            err.contains("--lambda-bias must be a finite number ≥ 0"),
+            "{bad}: {err}"
+        );
+        assert!(!tmp.path().join("m").exists(), "nothing written for {bad}");
+    }
+}

@@ -197,39 +197,54 @@ pub fn smoother_shares(
     rated: &[(u32, f64)],
     k: u32,
 ) -> Option<(Vec<RatingShare>, Vec<f64>)> {
-    let biased = offsets.is_some();
-    let a = normal_matrix(
+    let posterior = Posterior::new(
         items,
         d,
         rated.iter().map(|&(j, _)| j),
         (lambda, offsets.map(|(_, l)| l)),
         sigma2,
     );
-    let factor = Cholesky::new(a)?;
-    let mut query = features(items, d, k, biased);
-    if biased {
-        query[d] = 0.0;
+    posterior.shares((items, offsets.map(|(c, _)| c)), d, mu, rated, k)
+}
+
+impl Posterior {
+    /// [`smoother_shares`] from this posterior's factorization of `A` (the member's
+    /// regression matrix: the same one), so an explanation factors it once.
+    fn shares(
+        &self,
+        (items, offsets): (&[f64], Option<&[f64]>),
+        d: usize,
+        mu: f64,
+        rated: &[(u32, f64)],
+        k: u32,
+    ) -> Option<(Vec<RatingShare>, Vec<f64>)> {
+        let factor = self.factor.as_ref()?;
+        let biased = self.biased;
+        let mut query = features(items, d, k, biased);
+        if biased {
+            query[d] = 0.0;
+        }
+        let z = factor.solve(&query);
+        let offset = |j: u32| offsets.map_or(0.0, |c| c[j as usize]);
+        let mut gradient = DVector::<f64>::zeros(d + usize::from(biased));
+        let shares = rated
+            .iter()
+            .map(|&(j, rating)| {
+                let x = features(items, d, j, biased);
+                let target = rating - mu - offset(j);
+                gradient += &x * target;
+                let weight = z.dot(&x);
+                RatingShare {
+                    item: j,
+                    rating,
+                    weight,
+                    share: weight * target,
+                }
+            })
+            .collect();
+        let w = factor.solve(&gradient);
+        Some((shares, w.as_slice().to_vec()))
     }
-    let z = factor.solve(&query);
-    let offset = |j: u32| offsets.map_or(0.0, |(c, _)| c[j as usize]);
-    let mut gradient = DVector::<f64>::zeros(d + usize::from(biased));
-    let shares = rated
-        .iter()
-        .map(|&(j, rating)| {
-            let x = features(items, d, j, biased);
-            let target = rating - mu - offset(j);
-            gradient += &x * target;
-            let weight = z.dot(&x);
-            RatingShare {
-                item: j,
-                rating,
-                weight,
-                share: weight * target,
-            }
-        })
-        .collect();
-    let w = factor.solve(&gradient);
-    Some((shares, w.as_slice().to_vec()))
 }
 
 /// One factor's share of a prediction.
@@ -381,33 +396,34 @@ pub fn explain_profile(
     nearest.truncate(evidence);
     let rank = f.rank;
     let item_ratings = item_counts[item as usize] as usize;
-    let m = &model.manifest;
-    let by_rating = smoother_shares(
-        (&f.items, f.biases.as_ref().map(|b| (&b.item[..], b.lambda))),
-        rank,
-        (f.mu, m.lambda, m.sigma2),
-        rated,
-        item,
-    )
-    .map(|(mut shares, w)| {
-        shares.sort_by(|a, b| {
-            b.share
-                .abs()
-                .total_cmp(&a.share.abs())
-                .then(a.item.cmp(&b.item))
+    let posterior = Posterior::for_items(model, rated.iter().map(|&(j, _)| j));
+    let by_rating = posterior
+        .shares(
+            (&f.items, f.biases.as_ref().map(|b| &b.item[..])),
+            rank,
+            f.mu,
+            rated,
+            item,
+        )
+        .map(|(mut shares, w)| {
+            shares.sort_by(|a, b| {
+                b.share
+                    .abs()
+                    .total_cmp(&a.share.abs())
+                    .then(a.item.cmp(&b.item))
+            });
+            let user_bias = f.biases.as_ref().map(|_| w[rank]);
+            let refreshed = f.mu
+                + user_bias.unwrap_or(0.0)
+                + f.item_bias(item)
+                + shares.iter().map(|s| s.share).sum::<f64>();
+            ByRating {
+                shares,
+                predicted: refreshed,
+                user_bias,
+                difference: refreshed - predicted,
+            }
         });
-        let user_bias = f.biases.as_ref().map(|_| w[rank]);
-        let refreshed = f.mu
-            + user_bias.unwrap_or(0.0)
-            + f.item_bias(item)
-            + shares.iter().map(|s| s.share).sum::<f64>();
-        ByRating {
-            shares,
-            predicted: refreshed,
-            user_bias,
-            difference: refreshed - predicted,
-        }
-    });
     Explanation {
         user: None,
         item,
@@ -416,7 +432,7 @@ pub fn explain_profile(
         item_bias: f.biases.as_ref().map(|b| b.item[item as usize]),
         predicted,
         rounded: model.manifest.scale.round(predicted),
-        predictive_sd: Posterior::for_items(model, rated.iter().map(|&(j, _)| j)).predictive_sd(v),
+        predictive_sd: posterior.predictive_sd(v),
         actual: rated.iter().find(|&&(j, _)| j == item).map(|&(_, r)| r),
         contributions,
         evidence: nearest,

@@ -92,32 +92,15 @@ impl FitOptions {
     /// Checks that the options can work at all.
     pub fn validate(&self) -> Result<(), FitError> {
         let bad = |m: String| Err(FitError::Option(m));
-        if let Err(why) = crate::limits::check_rank(self.rank) {
-            return bad(format!("--rank {why}"));
-        }
+        check_run(self.rank, self.lambda, self.tol, self.max_iters)?;
         if self.center == Center::Given {
             return bad("a fit computes μ itself: --center is global or none".into());
-        }
-        if !(self.lambda.is_finite() && self.lambda >= 0.0) {
-            return bad(format!(
-                "--lambda must be a finite number ≥ 0, not {}",
-                self.lambda
-            ));
         }
         if !(self.sigma2.is_finite() && self.sigma2 > 0.0) {
             return bad(format!(
                 "--sigma2 must be a finite number > 0, not {}",
                 self.sigma2
             ));
-        }
-        if !(self.tol.is_finite() && self.tol >= 0.0) {
-            return bad(format!(
-                "--tol must be a finite number ≥ 0, not {}",
-                self.tol
-            ));
-        }
-        if self.max_iters == 0 {
-            return bad("--max-iters must be at least 1".into());
         }
         if let Some(lambda_bias) = self.lambda_bias
             && !(lambda_bias.is_finite() && lambda_bias >= 0.0)
@@ -128,6 +111,31 @@ impl FitOptions {
         }
         Ok(())
     }
+}
+
+/// The checks every fit's options share: rank, λ, tolerance and iteration limit.
+pub(super) fn check_run(
+    rank: usize,
+    lambda: f64,
+    tol: f64,
+    max_iters: usize,
+) -> Result<(), FitError> {
+    let bad = |m: String| Err(FitError::Option(m));
+    if let Err(why) = crate::limits::check_rank(rank) {
+        return bad(format!("--rank {why}"));
+    }
+    if !(lambda.is_finite() && lambda >= 0.0) {
+        return bad(format!(
+            "--lambda must be a finite number ≥ 0, not {lambda}"
+        ));
+    }
+    if !(tol.is_finite() && tol >= 0.0) {
+        return bad(format!("--tol must be a finite number ≥ 0, not {tol}"));
+    }
+    if max_iters == 0 {
+        return bad("--max-iters must be at least 1".into());
+    }
+    Ok(())
 }
 
 /// The state after one iteration.

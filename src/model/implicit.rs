@@ -20,7 +20,7 @@
 use rayon::prelude::*;
 
 use super::FactorModel;
-use super::fit::{Compressed, iterate_until, random_items, solve_rows};
+use super::fit::{Compressed, check_run, iterate_until, random_items, solve_rows};
 use super::kernels::BATCH;
 use super::solve::RidgeWorkspace;
 use crate::data::Ratings;
@@ -93,15 +93,7 @@ impl ImplicitOptions {
     /// Checks that the options can work at all.
     pub fn validate(&self) -> Result<(), FitError> {
         let bad = |m: String| Err(FitError::Option(m));
-        if let Err(why) = crate::limits::check_rank(self.rank) {
-            return bad(format!("--rank {why}"));
-        }
-        if !(self.lambda.is_finite() && self.lambda >= 0.0) {
-            return bad(format!(
-                "--lambda must be a finite number ≥ 0, not {}",
-                self.lambda
-            ));
-        }
+        check_run(self.rank, self.lambda, self.tol, self.max_iters)?;
         let (alpha, epsilon) = match self.confidence {
             Confidence::Linear { alpha } => (alpha, 1.0),
             Confidence::Log { alpha, epsilon } => (alpha, epsilon),
@@ -113,15 +105,6 @@ impl ImplicitOptions {
             return bad(format!(
                 "--epsilon must be a finite number > 0, not {epsilon}"
             ));
-        }
-        if !(self.tol.is_finite() && self.tol >= 0.0) {
-            return bad(format!(
-                "--tol must be a finite number ≥ 0, not {}",
-                self.tol
-            ));
-        }
-        if self.max_iters == 0 {
-            return bad("--max-iters must be at least 1".into());
         }
         Ok(())
     }

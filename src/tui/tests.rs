@@ -830,4 +830,11 @@ fn a_model_with_biases_shows_its_offsets_in_the_why_pane_what_if_and_fit() {
     assert!(text.contains(&format!("off {:>+7.3}", w.bias)), "{text}");
     press(&mut app, KeyCode::Char('4'));
     assert!(screen(&mut app, 120, 40).contains("offsets λ_b 1"));
+    // The smallest supported window draws every screen of a model with biases.
+    press(&mut app, KeyCode::Char('w'));
+    for key in ['1', '2', '3', '4', '5'] {
+        press(&mut app, KeyCode::Char(key));
+        let text = screen(&mut app, 80, 24);
+        assert!(text.contains("rank 10"), "{text}");
+    }
 }
