@@ -3,7 +3,10 @@
 //!
 //! Usage: `cargo run --release --example make_demo -- [OUT_DIR] [--members N] [--recipes N] [--seed S]`
 //! (defaults: demo-data, 1500 members, 400 recipes, seed 2026). Writes `ratings.csv`
-//! (`user,item,rating`) and `items.csv` (`item,title,category,minutes`).
+//! (`user,item,rating`), `items.csv` (`item,title,category,minutes`) and `cooked.csv`
+//! (`user,item,count`: how many times each member cooked a recipe — the implicit-feedback
+//! demo, from the same members' tastes and a second random stream, so `ratings.csv` is
+//! the same as before it existed).
 //!
 //! The data has planted structure so a fit has something to find: every category has a
 //! direction in a 6-dimensional taste space, each recipe sits near its category's direction,
@@ -224,6 +227,44 @@ fn make_recipes(rng: &mut Rng, count: usize) -> Vec<Recipe> {
         .collect()
 }
 
+/// How often each member cooked recipes: members cook the recipes they are drawn to (and
+/// popular ones) more often, and a few favourites many times over. Counts come from their
+/// own random stream, so the ratings stay as they were.
+fn cooking_counts(recipes: &[Recipe], tastes: &[[f64; TASTE_DIMS]], seed: u64) -> (String, usize) {
+    let mut rng = Rng::new(seed ^ 0x636f_6f6b);
+    let mut out = String::from("user,item,count\n");
+    let mut total = 0;
+    for (m, taste) in tastes.iter().enumerate() {
+        let tried = (12f64.ln() + 0.7 * rng.normal())
+            .exp()
+            .round()
+            .clamp(2.0, 120.0) as usize;
+        let mut keys: Vec<(f64, usize)> = recipes
+            .iter()
+            .enumerate()
+            .map(|(j, r)| {
+                let weight = r.popularity * (0.8 * dot(taste, &r.taste)).exp();
+                (rng.uniform().max(1e-300).ln() / weight, j)
+            })
+            .collect();
+        keys.sort_by(|a, b| b.0.total_cmp(&a.0));
+        let mut cooked: Vec<(usize, u32)> = keys
+            .iter()
+            .take(tried.min(recipes.len()))
+            .map(|&(_, j)| {
+                let liking = 0.25 * dot(taste, &recipes[j].taste) + 0.5 * rng.normal();
+                (j, liking.exp().round().clamp(1.0, 40.0) as u32)
+            })
+            .collect();
+        cooked.sort_by(|a, b| recipes[a.0].id.cmp(&recipes[b.0].id));
+        for (j, count) in cooked {
+            let _ = writeln!(out, "m{:04},{},{count}", m + 1, recipes[j].id);
+            total += 1;
+        }
+    }
+    (out, total)
+}
+
 fn main() {
     let options = match parse_args() {
         Ok(o) => o,
@@ -241,8 +282,10 @@ fn main() {
     }
     let mut ratings = String::from("user,item,rating\n");
     let mut total = 0usize;
+    let mut tastes = Vec::with_capacity(options.members);
     for m in 0..options.members {
         let taste = gaussian(&mut rng, 0.9);
+        tastes.push(taste);
         let leniency = 0.4 * rng.normal();
         let activity = (18f64.ln() + 0.85 * rng.normal())
             .exp()
@@ -288,8 +331,11 @@ fn main() {
             std::process::exit(1);
         }
     };
+    let (cooked, cooked_total) = cooking_counts(&recipes, &tastes, options.seed);
     write("ratings.csv", &ratings);
     write("items.csv", &items);
+    write("cooked.csv", &cooked);
+    eprintln!("wrote {cooked_total} cooking counts to cooked.csv");
     eprintln!(
         "wrote {total} ratings from {} members on {} recipes to {}",
         options.members,
