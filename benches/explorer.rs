@@ -59,8 +59,15 @@ fn main() {
         inputs: Vec::new(),
         meta: None,
     };
-    let model = Model::from_import(ratings, factors, 1.0, 1.0, Center::Global, provenance)
-        .expect("training ratings");
+    let model = Model::from_import(
+        ratings,
+        factors,
+        (1.0, 1.0),
+        Center::Global,
+        None,
+        provenance,
+    )
+    .expect("training ratings");
     let dir = std::env::var_os("SEXTANT_BENCH_KEEP").map_or_else(
         || std::env::temp_dir().join(format!("sextant-bench-explorer-{}", std::process::id())),
         std::path::PathBuf::from,

@@ -244,7 +244,7 @@ fn measure_implicit(
         ..ImplicitOptions::default()
     };
     let init = read_f64(&dir.join("init_items.f64"));
-    let mut fitter = ImplicitFitter::new(ratings, &options)
+    let mut fitter = ImplicitFitter::new(ratings, &options, None)
         .expect("implicit fitter")
         .with_items(init);
     let mut times = Vec::new();

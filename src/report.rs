@@ -148,10 +148,12 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
             "MAE rounded",
             "exact",
         ],
-        &[
-            health_row("training", Some(&m.metrics.train)),
-            health_row("held out", m.metrics.holdout.as_ref()),
-        ],
+        &m.metrics.as_ref().map_or_else(Vec::new, |metrics| {
+            vec![
+                health_row("training", Some(&metrics.train)),
+                health_row("held out", metrics.holdout.as_ref()),
+            ]
+        }),
     );
     if let Some(last) = m.trace.last() {
         let _ = writeln!(
@@ -539,10 +541,12 @@ pub fn csv_files(model: &Model, audit: &Audit, notes: &Annotations) -> Vec<CsvFi
     let item = |j: u32| model.ratings.items.name(j).to_owned();
     let num = format_float;
     let mut files = Vec::new();
-    let health = [
-        ("training", Some(&m.metrics.train)),
-        ("held_out", m.metrics.holdout.as_ref()),
-    ];
+    let health = m.metrics.as_ref().map_or_else(Vec::new, |metrics| {
+        vec![
+            ("training", Some(&metrics.train)),
+            ("held_out", metrics.holdout.as_ref()),
+        ]
+    });
     files.push((
         "health.csv",
         csv(

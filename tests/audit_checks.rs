@@ -70,7 +70,7 @@ fn demo_neighbours_are_far_more_coherent_than_random() {
     assert!(r.precision > 3.0 * r.random.0 && r.ndcg > 3.0 * r.random.2);
     assert!((0.0..=1.0).contains(&r.recall));
     // Prior-dominated members and items: the same counts the fit recorded.
-    let m = &model.manifest.metrics;
+    let m = model.manifest.metrics.as_ref().unwrap();
     assert_eq!(
         found.low_support.len(),
         m.low_support_users + m.low_support_items

@@ -434,7 +434,7 @@ fn tampered_models_are_refused_with_file_line_and_reason() {
             "manifest.ron",
             "version: 1,",
             "version: 99,",
-            "manifest.ron: format version 99 is not supported by this sextant, which reads versions 1 to 2",
+            "manifest.ron: format version 99 is not supported by this sextant, which reads versions 1 to 3",
         ),
         (
             "manifest.ron",
@@ -593,9 +593,9 @@ fn large_model(dir: &Path) -> sextant::model::Model {
     let model = sextant::model::Model::from_import(
         ratings,
         factors,
-        1.0,
-        1.0,
+        (1.0, 1.0),
         sextant::model::Center::Global,
+        None,
         provenance,
     )
     .unwrap();

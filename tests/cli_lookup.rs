@@ -162,7 +162,8 @@ fn explain_formats_agree_and_add_up() {
             "predictive_sd",
             "actual",
             "user_bias",
-            "item_bias"
+            "item_bias",
+            "score"
         ]
     );
     // Unlabelled factors: null in JSON, empty in CSV.

@@ -161,7 +161,9 @@ fn explain_csv_carries_mu_and_the_prediction_on_every_row() {
     let mut lines = csv.lines();
     assert_eq!(
         lines.next(),
-        Some("factor,value,label,mu,predicted,rounded,predictive_sd,actual,user_bias,item_bias")
+        Some(
+            "factor,value,label,mu,predicted,rounded,predictive_sd,actual,user_bias,item_bias,score"
+        )
     );
     let rows: Vec<Vec<&str>> = lines.map(|l| l.split(',').collect()).collect();
     assert_eq!(rows.len(), json["contributions"].as_array().unwrap().len());
@@ -215,7 +217,8 @@ fn suggest_and_neighbours_carry_titles_in_csv_and_json() {
             "rounded",
             "predictive_sd",
             "title",
-            "category"
+            "category",
+            "score"
         ]
     );
     for row in reader.records() {

@@ -92,7 +92,7 @@ fn suggestions_equal_a_brute_force_ranking_and_skip_rated_items() {
             for (s, e) in found.iter().zip(&expected) {
                 assert_eq!(s.item, e.0, "user {user}");
                 assert!((s.predicted - e.1).abs() < 1e-12);
-                assert_eq!(s.rounded, model.manifest.scale.round(s.predicted));
+                assert_eq!(s.rounded, Some(model.manifest.scale.round(s.predicted)));
             }
             let with_rated = suggest(&model, &index, user, 3, true);
             let best = (0..model.ratings.items.len() as u32)

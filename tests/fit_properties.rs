@@ -182,7 +182,7 @@ fn results_are_bit_identical_whatever_the_thread_count() {
             ..Default::default()
         };
         pool.install(|| {
-            sextant::model::implicit::ImplicitFitter::new(&ratings, &options)
+            sextant::model::implicit::ImplicitFitter::new(&ratings, &options, None)
                 .and_then(|f| f.run(|_| {}))
                 .unwrap()
         })

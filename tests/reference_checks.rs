@@ -386,7 +386,7 @@ fn implicit_half_steps_equal_the_dense_numpy_solves() {
             let j = counts.items.get(&format!("i{k}")).unwrap() as usize;
             start[j * rank..(j + 1) * rank].copy_from_slice(&init[k * rank..(k + 1) * rank]);
         }
-        let mut fitter = ImplicitFitter::new(&counts, &options)
+        let mut fitter = ImplicitFitter::new(&counts, &options, None)
             .unwrap()
             .with_items(start);
         let losses = floats(&case["losses"]);

@@ -7,16 +7,20 @@
 use nalgebra::{Cholesky, DMatrix, DVector};
 
 use crate::index::squared_distance;
+use crate::model::implicit::Confidence;
 use crate::model::{Model, dot};
 
-/// The training ratings of one member: (item, rating) pairs.
+/// The training ratings of one member: (item, rating) pairs; in an implicit-feedback
+/// model, (item, count) for the items they interacted with (a count of 0 is no
+/// interaction).
 pub fn training_ratings(model: &Model, user: u32) -> Vec<(u32, f64)> {
     let entries = &model.ratings.entries;
     let start = entries.partition_point(|r| r.user < user);
+    let implicit = model.implicit().is_some();
     entries[start..]
         .iter()
         .take_while(|r| r.user == user)
-        .filter(|r| !r.holdout)
+        .filter(|r| !r.holdout && (!implicit || r.value > 0.0))
         .map(|r| (r.item, r.value))
         .collect()
 }
@@ -49,11 +53,17 @@ pub fn actual_rating(model: &Model, user: u32, item: u32) -> Option<f64> {
 /// biases the regression is on features `x_j = [v_j, 1]` for `(u_i, b_i)` jointly, with
 /// `λ_bσ²` in the last place of the ridge diagonal. It ignores the uncertainty of the item
 /// vectors and offsets themselves.
+///
+/// In an implicit-feedback model the member's solve is the weighted regression
+/// `A = YᵀY + λI + Σ_j (c_j − 1) y_j y_jᵀ` over their interactions (Hu, Koren & Volinsky
+/// 2008): [`Self::implicit`]. Its scores are not ratings, so it has no predictive SD.
 #[derive(Debug, Clone)]
 pub struct Posterior {
     sigma2: f64,
     factor: Option<Cholesky<f64, nalgebra::Dyn>>,
     biased: bool,
+    /// The confidence rule of an implicit-feedback member's regression.
+    confidence: Option<Confidence>,
 }
 
 impl Posterior {
@@ -68,6 +78,48 @@ impl Posterior {
             (m.lambda, f.biases.as_ref().map(|b| b.lambda)),
             m.sigma2,
         )
+    }
+
+    /// The regression of a member of `model` from their training ratings or interactions
+    /// `rated` ((item, rating) or (item, count) pairs).
+    pub fn for_profile(model: &Model, rated: &[(u32, f64)]) -> Self {
+        match model.implicit() {
+            Some(confidence) => {
+                let f = &model.factors;
+                Self::implicit(
+                    (&f.items, &crate::model::implicit::gram(&f.items, f.rank)),
+                    f.rank,
+                    (model.manifest.lambda, confidence),
+                    rated,
+                )
+            }
+            None => Self::for_items(model, rated.iter().map(|&(j, _)| j)),
+        }
+    }
+
+    /// The regression of an implicit-feedback member who interacted with `rated` ((item,
+    /// count) pairs), given the item vectors `items` (width `d`) and their Gram matrix
+    /// `YᵀY` (row-major `d × d`), λ and the confidence rule.
+    pub fn implicit(
+        (items, gram): (&[f64], &[f64]),
+        d: usize,
+        (lambda, confidence): (f64, Confidence),
+        rated: &[(u32, f64)],
+    ) -> Self {
+        let mut a = DMatrix::from_row_slice(d, d, gram);
+        for k in 0..d {
+            a[(k, k)] += lambda;
+        }
+        for &(j, count) in rated {
+            let y = features(items, d, j, false);
+            a += (&y * y.transpose()) * (confidence.of(count) - 1.0);
+        }
+        Self {
+            sigma2: 1.0,
+            factor: Cholesky::new(a),
+            biased: false,
+            confidence: Some(confidence),
+        }
     }
 
     /// The posterior given item vectors `items` (row-major, width `d`), the rows rated, the
@@ -89,6 +141,7 @@ impl Posterior {
                 sigma2,
             )),
             biased: lambda_bias.is_some(),
+            confidence: None,
         }
     }
 
@@ -103,8 +156,11 @@ impl Posterior {
     /// Predictive standard deviation of a new rating of an item with vector `v`:
     /// `√(σ² + vᵀ S v)` (Bishop 2006, eq. 3.59). `None` when the posterior is improper
     /// (λ = 0 and too few ratings).
-    /// With biases the features are `[v, 1]`.
+    /// With biases the features are `[v, 1]`. `None` in an implicit-feedback model.
     pub fn predictive_sd(&self, v: &[f64]) -> Option<f64> {
+        if self.confidence.is_some() {
+            return None;
+        }
         let factor = self.factor.as_ref()?;
         let mut features = v.to_vec();
         if self.biased {
@@ -147,17 +203,18 @@ fn normal_matrix(
     a
 }
 
-/// One of the member's own ratings and its part in a prediction.
+/// One of the member's own ratings (or interactions) and its part in a prediction.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct RatingShare {
     /// The rated item.
     pub item: u32,
-    /// The member's rating of it.
+    /// The member's rating of it (in an implicit-feedback model, the count).
     pub rating: f64,
     /// Its smoother weight `s_jk = [v_k, 0]ᵀ A⁻¹ x_j`: how much one more point on this
-    /// rating (above μ and the item's offset) moves the prediction.
+    /// rating (above μ and the item's offset) moves the prediction. In an
+    /// implicit-feedback model, the paper's similarity `y_kᵀ W_u y_j`.
     pub weight: f64,
-    /// `weight × (rating − μ − c_j)`.
+    /// `weight × (rating − μ − c_j)`; implicit: `weight × confidence`.
     pub share: f64,
 }
 
@@ -207,6 +264,29 @@ pub fn smoother_shares(
     posterior.shares((items, offsets.map(|(c, _)| c)), d, mu, rated, k)
 }
 
+/// The implicit-feedback analogue of [`smoother_shares`] (Hu, Koren & Volinsky 2008, §5):
+/// the member's solve is `x = W Σ_j c_j y_j` with `W = (YᵀY + λI + Σ_j (c_j − 1) y_j
+/// y_jᵀ)⁻¹` over their interactions `rated` ((item, count) pairs), so the score of item `k`
+/// is `Σ_j (y_kᵀ W y_j) c_j`: each interaction's weight and share (`weight × c_j`) in the
+/// order given, and the re-solved vector. `None` when the system is not positive definite
+/// (λ = 0 and too few items).
+pub fn implicit_shares(
+    items: &[f64],
+    d: usize,
+    (lambda, confidence): (f64, Confidence),
+    rated: &[(u32, f64)],
+    k: u32,
+) -> Option<(Vec<RatingShare>, Vec<f64>)> {
+    let gram = crate::model::implicit::gram(items, d);
+    Posterior::implicit((items, &gram), d, (lambda, confidence), rated).shares(
+        (items, None),
+        d,
+        0.0,
+        rated,
+        k,
+    )
+}
+
 impl Posterior {
     /// [`smoother_shares`] from this posterior's factorization of `A` (the member's
     /// regression matrix: the same one), so an explanation factors it once.
@@ -231,7 +311,11 @@ impl Posterior {
             .iter()
             .map(|&(j, rating)| {
                 let x = features(items, d, j, biased);
-                let target = rating - mu - offset(j);
+                // An interaction enters an implicit member's solve as c_j · p_j · y_j.
+                let target = match self.confidence {
+                    Some(confidence) => confidence.of(rating),
+                    None => rating - mu - offset(j),
+                };
                 gradient += &x * target;
                 let weight = z.dot(&x);
                 RatingShare {
@@ -297,10 +381,10 @@ pub struct Explanation {
     pub user_bias: Option<f64>,
     /// The item's offset `c_j` (`None` in a model without biases).
     pub item_bias: Option<f64>,
-    /// `μ + b_i + c_j + Σ contributions`.
+    /// `μ + b_i + c_j + Σ contributions` (implicit feedback: the score `Σ contributions`).
     pub predicted: f64,
-    /// The prediction rounded onto the rating scale.
-    pub rounded: f64,
+    /// The prediction rounded onto the rating scale (`None` for implicit feedback).
+    pub rounded: Option<f64>,
     /// Predictive standard deviation of a new rating (see [`Posterior`]).
     pub predictive_sd: Option<f64>,
     /// The member's actual rating, if they rated the item.
@@ -396,7 +480,7 @@ pub fn explain_profile(
     nearest.truncate(evidence);
     let rank = f.rank;
     let item_ratings = item_counts[item as usize] as usize;
-    let posterior = Posterior::for_items(model, rated.iter().map(|&(j, _)| j));
+    let posterior = Posterior::for_profile(model, rated);
     let by_rating = posterior
         .shares(
             (&f.items, f.biases.as_ref().map(|b| &b.item[..])),
@@ -431,7 +515,7 @@ pub fn explain_profile(
         user_bias: f.biases.as_ref().map(|_| profile.bias),
         item_bias: f.biases.as_ref().map(|b| b.item[item as usize]),
         predicted,
-        rounded: model.manifest.scale.round(predicted),
+        rounded: model.round(predicted),
         predictive_sd: posterior.predictive_sd(v),
         actual: rated.iter().find(|&&(j, _)| j == item).map(|&(_, r)| r),
         contributions,

@@ -71,9 +71,10 @@ fn count_words(n: usize, in_words: bool) -> String {
 
 /// The opening sentence: the estimate, and the member's own rating when there is one.
 fn estimate_sentence(item: &str, e: &Explanation, scale: &RatingScale) -> String {
-    let estimate = rating_words(e.rounded, scale);
+    let rounded = scale.round(e.predicted);
+    let estimate = rating_words(rounded, scale);
     match e.actual {
-        Some(actual) if scale.round(actual) == e.rounded => format!(
+        Some(actual) if scale.round(actual) == rounded => format!(
             "You rated {item} {}, just as the model expected.",
             rating_words(actual, scale)
         ),
@@ -128,7 +129,11 @@ const NOTABLE_SHARE: f64 = 0.05;
 
 /// Which of the member's own ratings raised the estimate most, and which lowered it most
 /// (their shares in the decomposition by rating; the explained item itself is not named).
-fn influence_sentence(model: &Model, e: &Explanation, scale: &RatingScale) -> Option<String> {
+fn influence_sentence(
+    model: &Model,
+    e: &Explanation,
+    yours: &dyn Fn(&Model, &super::explain::RatingShare) -> String,
+) -> Option<String> {
     let shares = &e.by_rating.as_ref()?.shares;
     let others = || shares.iter().filter(|s| s.item != e.item);
     let raised = others()
@@ -137,25 +142,24 @@ fn influence_sentence(model: &Model, e: &Explanation, scale: &RatingScale) -> Op
     let lowered = others()
         .filter(|s| s.share <= -NOTABLE_SHARE)
         .min_by(|a, b| a.share.total_cmp(&b.share));
-    let yours = |s: &super::explain::RatingShare| {
-        format!(
-            "your {} for {}",
-            rating_words(s.rating, scale),
-            name(model, s.item)
-        )
+    let yours = |s: &super::explain::RatingShare| yours(model, s);
+    let (own, what) = if model.implicit().is_some() {
+        ("Of your own choices", "score")
+    } else {
+        ("Of your own ratings", "estimate")
     };
     match (raised, lowered) {
         (Some(up), Some(down)) => Some(format!(
-            "Of your own ratings, {} did most to raise this estimate, and {} did most to lower it.",
+            "{own}, {} did most to raise this {what}, and {} did most to lower it.",
             yours(up),
             yours(down)
         )),
         (Some(up), None) => Some(format!(
-            "Of your own ratings, {} did most to raise this estimate.",
+            "{own}, {} did most to raise this {what}.",
             yours(up)
         )),
         (None, Some(down)) => Some(format!(
-            "Of your own ratings, {} did most to lower this estimate.",
+            "{own}, {} did most to lower this {what}.",
             yours(down)
         )),
         (None, None) => None,
@@ -214,7 +218,7 @@ fn spread_sentence(e: &Explanation, sd: f64, scale: &RatingScale) -> String {
     if high <= low {
         format!(
             "It is an estimate, not a certainty, but a rating far from {} would be a surprise.",
-            rating_words(e.rounded, scale)
+            rating_words(scale.round(e.predicted), scale)
         )
     } else if low <= scale.min() && high >= scale.max() {
         format!(
@@ -236,24 +240,105 @@ fn spread_sentence(e: &Explanation, sd: f64, scale: &RatingScale) -> String {
 pub fn plain_explanation(model: &Model, e: &Explanation, notes: &Annotations) -> String {
     let scale = &model.manifest.scale;
     let item = name(model, e.item);
+    if model.implicit().is_some() {
+        return implicit_explanation(model, &item, e, notes);
+    }
     let mut sentences = vec![estimate_sentence(&item, e, scale)];
     sentences.extend(evidence_sentence(model, e, scale));
-    sentences.extend(influence_sentence(model, e, scale));
-    if let Some(top) = e.contributions.first()
-        && let Some(label) = notes.factor_label(top.factor)
-        && top.value.abs() >= 0.05
-    {
-        sentences.push(format!(
-            "The biggest single influence on this estimate is \"{label}\", which {} it by {:.1}.",
-            if top.value > 0.0 { "raises" } else { "lowers" },
-            top.value.abs()
-        ));
-    }
+    sentences.extend(influence_sentence(model, e, &rating_phrase));
+    sentences.extend(label_sentence(e, notes));
     sentences.push(support_sentence(e));
     if let Some(sd) = e.predictive_sd {
         sentences.push(spread_sentence(e, sd, scale));
     }
     sentences.join(" ")
+}
+
+/// "your 5 out of 5 for X".
+fn rating_phrase(model: &Model, s: &super::explain::RatingShare) -> String {
+    format!(
+        "your {} for {}",
+        rating_words(s.rating, &model.manifest.scale),
+        name(model, s.item)
+    )
+}
+
+/// "once", "twice", "3 times", "2.5 times" (a weight need not be whole).
+fn times(count: f64) -> String {
+    if count == 1.0 {
+        "once".into()
+    } else if count == 2.0 {
+        "twice".into()
+    } else {
+        format!("{} times", format_float(count))
+    }
+}
+
+/// "the 3 times you chose X".
+fn use_phrase(model: &Model, s: &super::explain::RatingShare) -> String {
+    format!(
+        "the {} you chose {}",
+        times(s.rating)
+            .replace("once", "one time")
+            .replace("twice", "two times"),
+        name(model, s.item)
+    )
+}
+
+/// The plain explanation of a score of an implicit-feedback model: what the member chose
+/// and how often, never a rating.
+fn implicit_explanation(model: &Model, item: &str, e: &Explanation, notes: &Annotations) -> String {
+    let score = format!(
+        "the model's score for {item} is {:.2} (near 1: a likely interest; near 0: unlikely)",
+        e.predicted
+    );
+    let mut sentences = vec![match e.actual {
+        Some(count) if count > 0.0 => format!("You have chosen {item} {}; {score}.", times(count)),
+        _ => format!("You have not chosen {item} yet; {score}."),
+    }];
+    let named: Vec<String> = e
+        .evidence
+        .iter()
+        .take(NAMED)
+        .map(|n| format!("{} (chosen {})", name(model, n.item), times(n.actual)))
+        .collect();
+    if !named.is_empty() {
+        sentences.push(format!(
+            "Of the items you have chosen, it is most like {}.",
+            list(&named)
+        ));
+    }
+    sentences.extend(influence_sentence(model, e, &use_phrase));
+    sentences.extend(label_sentence(e, notes));
+    let used = e.support.user_ratings;
+    sentences.push(if e.support.user_low_support {
+        format!(
+            "You have chosen only {} item{}, so this score leans more on what is popular than on your own taste.",
+            count_words(used, used <= 10),
+            if used == 1 { "" } else { "s" }
+        )
+    } else {
+        format!(
+            "The score is based on the {} items you have chosen.",
+            count_words(used, used <= 10)
+        )
+    });
+    sentences.join(" ")
+}
+
+/// The curator's label of the factor that moves the estimate most, when it has one.
+fn label_sentence(e: &Explanation, notes: &Annotations) -> Option<String> {
+    if let Some(top) = e.contributions.first()
+        && let Some(label) = notes.factor_label(top.factor)
+        && top.value.abs() >= 0.05
+    {
+        return Some(format!(
+            "The biggest single influence on this estimate is \"{label}\", which {} it by {:.1}.",
+            if top.value > 0.0 { "raises" } else { "lowers" },
+            top.value.abs()
+        ));
+    }
+    None
 }
 
 #[cfg(test)]
@@ -293,7 +378,7 @@ mod tests {
         let counts = crate::analysis::explain::item_support(model);
         let mut e = crate::analysis::explain(model, 0, 0, 2, &counts);
         e.predicted = predicted;
-        e.rounded = model.manifest.scale.round(predicted);
+        e.rounded = model.round(predicted);
         e.predictive_sd = Some(sd);
         e
     }

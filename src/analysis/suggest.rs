@@ -14,8 +14,9 @@ pub struct Suggestion {
     pub item: u32,
     /// Raw predicted rating `μ + b_i + c_j + u·v` (no offsets without biases).
     pub predicted: f64,
-    /// Prediction rounded onto the rating scale.
-    pub rounded: f64,
+    /// Prediction rounded onto the rating scale (`None` for implicit feedback, whose
+    /// predictions are scores).
+    pub rounded: Option<f64>,
     /// Predictive standard deviation of the rating (see [`Posterior`]).
     pub predictive_sd: Option<f64>,
 }
@@ -64,7 +65,7 @@ pub fn top_unrated(
     n: usize,
 ) -> Vec<Suggestion> {
     let keep = |j: u32| excluded.binary_search(&j).is_err();
-    let posterior = Posterior::for_items(model, profile.rated.iter().map(|&(j, _)| j));
+    let posterior = Posterior::for_profile(model, profile.rated);
     let f = &model.factors;
     index
         .top(&f.ranking_query(profile.vector), n, keep, excluded.len())
@@ -80,7 +81,7 @@ pub fn top_unrated(
                 rank: k + 1,
                 item: scored.row,
                 predicted,
-                rounded: model.manifest.scale.round(predicted),
+                rounded: model.round(predicted),
                 predictive_sd: posterior.predictive_sd(model.factors.item(scored.row)),
             }
         })

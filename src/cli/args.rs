@@ -11,6 +11,7 @@ use clap::{Args, ValueEnum};
 use sextant::analysis::audit::AuditOptions;
 use sextant::data::split::DEFAULT_HOLDOUT;
 use sextant::index::Metric;
+use sextant::model::implicit::{Confidence, DEFAULT_ALPHA, DEFAULT_EPSILON};
 use sextant::model::manifest::RunOptions;
 use sextant::model::{Center, FitOptions};
 
@@ -153,6 +154,80 @@ impl BiasArgs {
     /// `Some(λ_b)` for a fit with biases.
     pub fn lambda_bias(&self, lambda: f64) -> Option<f64> {
         self.biases.then(|| self.prior.or(lambda))
+    }
+}
+
+/// What the value column of the input holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FeedbackArg {
+    /// Ratings (stars, marks): the model predicts them.
+    Ratings,
+    /// Counts of plays, purchases, clicks (or any weight ≥ 0): the model scores a
+    /// preference for every member–item pair, weighted by a confidence that grows with the
+    /// count (Hu, Koren & Volinsky 2008).
+    Implicit,
+}
+
+/// How a count becomes a confidence.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ConfidenceArg {
+    /// 1 + α·count.
+    Linear,
+    /// 1 + α·log(1 + count/ε), for counts that vary over orders of magnitude.
+    Log,
+}
+
+/// Ratings or implicit feedback, and the confidence rule of implicit feedback.
+#[derive(Debug, Clone, Copy, Args)]
+#[command(next_help_heading = "Implicit feedback")]
+pub struct FeedbackArgs {
+    /// What the value column holds: ratings, or implicit (counts; the value column is then
+    /// `count` unless renamed with --rating-col).
+    #[arg(long, value_enum, default_value_t = FeedbackArg::Ratings)]
+    pub feedback: FeedbackArg,
+    /// α of the confidence (default: 40, the published method's).
+    #[arg(long)]
+    pub alpha: Option<f64>,
+    /// How a count becomes a confidence: linear (default) or log.
+    #[arg(long, value_enum)]
+    pub confidence: Option<ConfidenceArg>,
+    /// ε of the log confidence (default: 1).
+    #[arg(long)]
+    pub epsilon: Option<f64>,
+}
+
+impl FeedbackArgs {
+    /// The confidence rule of implicit feedback (`None` for ratings), or a usage error
+    /// when a confidence flag is given for ratings or --epsilon without the log form.
+    pub fn implicit(&self) -> Result<Option<Confidence>, UsageError> {
+        let given = [
+            ("--alpha", self.alpha.is_some()),
+            ("--confidence", self.confidence.is_some()),
+            ("--epsilon", self.epsilon.is_some()),
+        ];
+        if self.feedback == FeedbackArg::Ratings {
+            return match given.iter().find(|(_, g)| *g) {
+                Some((flag, _)) => Err(UsageError(format!(
+                    "{flag} is a setting of implicit feedback: add --feedback implicit, or leave it out"
+                ))),
+                None => Ok(None),
+            };
+        }
+        let alpha = self.alpha.unwrap_or(DEFAULT_ALPHA);
+        let confidence = match (self.confidence, self.epsilon) {
+            (Some(ConfidenceArg::Log), epsilon) => Confidence::Log {
+                alpha,
+                epsilon: epsilon.unwrap_or(DEFAULT_EPSILON),
+            },
+            (_, Some(_)) => {
+                return Err(UsageError(
+                    "--epsilon is a setting of the log confidence: add --confidence log".into(),
+                ));
+            }
+            (_, None) => Confidence::Linear { alpha },
+        };
+        confidence.validate().map_err(UsageError)?;
+        Ok(Some(confidence))
     }
 }
 

@@ -75,6 +75,7 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
         return Err(super::UsageError("--relevant must be a finite number".into()).into());
     }
     let (model, notes) = load_with_notes(&args.model.model)?;
+    super::ratings_only(&model, &args.model.model, "audit")?;
     let notes = notes.current;
     let options = AuditOptions {
         neighbours: args.neighbours,

@@ -55,9 +55,13 @@ struct ShareRow<'a> {
     item: &'a str,
     /// The item's title, null when the model has none.
     title: Option<&'a str>,
-    rating: f64,
+    /// The member's rating (null in an implicit-feedback model).
+    rating: Option<f64>,
     weight: f64,
     share: f64,
+    /// Implicit feedback: the member's count and its confidence (null for ratings).
+    count: Option<f64>,
+    confidence: Option<f64>,
 }
 
 /// The member the `by_rating` shares are of: re-solved against the current item vectors.
@@ -92,10 +96,14 @@ struct Report<'a> {
     user_bias: Option<f64>,
     /// The item's offset, null in a model without biases.
     item_bias: Option<f64>,
-    predicted: f64,
-    rounded: f64,
+    /// The predicted rating (null in an implicit-feedback model: see `score`).
+    predicted: Option<f64>,
+    rounded: Option<f64>,
     predictive_sd: Option<f64>,
+    /// The member's rating (implicit feedback: their count), null when there is none.
     actual: Option<f64>,
+    /// Implicit feedback: the score `u·v` (null for ratings).
+    score: Option<f64>,
     contributions: Vec<ContributionRow>,
     evidence: Vec<EvidenceRow<'a>>,
     support: SupportRow,
@@ -117,6 +125,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         return output::print(&(text + "\n"), Format::Table);
     }
     let items = &model.ratings.items;
+    let confidence = model.implicit();
     let report = Report {
         user: &args.user,
         item: items.name(item),
@@ -124,10 +133,11 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         mu: e.mu,
         user_bias: e.user_bias,
         item_bias: e.item_bias,
-        predicted: e.predicted,
+        predicted: confidence.is_none().then_some(e.predicted),
         rounded: e.rounded,
         predictive_sd: e.predictive_sd,
         actual: e.actual,
+        score: confidence.is_some().then_some(e.predicted),
         contributions: e
             .contributions
             .iter()
@@ -161,9 +171,11 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
                 .map(|s| ShareRow {
                     item: items.name(s.item),
                     title: item_title(&model, s.item).0,
-                    rating: s.rating,
+                    rating: confidence.is_none().then_some(s.rating),
                     weight: s.weight,
                     share: s.share,
+                    count: confidence.is_some().then_some(s.rating),
+                    confidence: confidence.map(|c| c.of(s.rating)),
                 })
                 .collect()
         }),
@@ -177,12 +189,13 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
         Format::Json => serde_json::to_string_pretty(&report)? + "\n",
         Format::Csv => {
             let mut out = String::from(
-                "factor,value,label,mu,predicted,rounded,predictive_sd,actual,user_bias,item_bias\n",
+                "factor,value,label,mu,predicted,rounded,predictive_sd,actual,user_bias,item_bias,score\n",
             );
-            let (mu, predicted, rounded) = (
+            let (mu, predicted, rounded, score) = (
                 csv_number(Some(report.mu)),
-                csv_number(Some(report.predicted)),
-                csv_number(Some(report.rounded)),
+                csv_number(report.predicted),
+                csv_number(report.rounded),
+                csv_number(report.score),
             );
             let (user_bias, item_bias) =
                 (csv_number(report.user_bias), csv_number(report.item_bias));
@@ -201,6 +214,7 @@ pub fn run(args: &ExplainArgs) -> anyhow::Result<()> {
                         &actual,
                         &user_bias,
                         &item_bias,
+                        &score,
                     ],
                 );
             }
@@ -223,23 +237,42 @@ fn table(
         r.user,
         item_label(model, e.item)
     );
-    let sd = r
-        .predictive_sd
-        .map_or_else(|| "undetermined".to_owned(), |v| format!("± {v:.2}"));
-    let actual = r
-        .actual
-        .map_or_else(|| "not rated".to_owned(), |a| format!("rated {a}"));
-    let _ = writeln!(
-        out,
-        "predicted {:.3} → {} on the scale ({sd}); {actual}",
-        r.predicted, r.rounded
-    );
-    let _ = writeln!(
-        out,
-        "\n  {:>10}  {}",
-        format!("{:+.3}", r.mu),
-        model.manifest.center.mu_label()
-    );
+    let implicit = model.implicit().is_some();
+    let (rating, rated) = if implicit {
+        ("interactions", "chosen")
+    } else {
+        ("ratings", "rated")
+    };
+    if implicit {
+        let actual = r.actual.filter(|&a| a > 0.0).map_or_else(
+            || "not chosen".to_owned(),
+            |a| format!("chosen {a} time(s)"),
+        );
+        let _ = writeln!(
+            out,
+            "score {:.3} (a preference: near 1 a likely interest, near 0 none); {actual}\n",
+            e.predicted
+        );
+    } else {
+        let sd = r
+            .predictive_sd
+            .map_or_else(|| "undetermined".to_owned(), |v| format!("± {v:.2}"));
+        let actual = r
+            .actual
+            .map_or_else(|| "not rated".to_owned(), |a| format!("rated {a}"));
+        let _ = writeln!(
+            out,
+            "predicted {:.3} → {} on the scale ({sd}); {actual}",
+            e.predicted,
+            r.rounded.map_or_else(String::new, |v| v.to_string())
+        );
+        let _ = writeln!(
+            out,
+            "\n  {:>10}  {}",
+            format!("{:+.3}", r.mu),
+            model.manifest.center.mu_label()
+        );
+    }
     if let (Some(b), Some(c)) = (r.user_bias, r.item_bias) {
         let _ = writeln!(out, "  {:>10}  the member's offset", format!("{b:+.3}"));
         let _ = writeln!(out, "  {:>10}  the item's offset", format!("{c:+.3}"));
@@ -256,13 +289,20 @@ fn table(
             c.factor
         );
     }
-    let _ = writeln!(out, "  {:>10}  = prediction", format!("{:.3}", r.predicted));
+    let _ = writeln!(
+        out,
+        "  {:>10}  = {}",
+        format!("{:.3}", e.predicted),
+        if implicit { "score" } else { "prediction" }
+    );
     if !r.evidence.is_empty() {
-        let _ = writeln!(out, "\nthe member's own rated items nearest to this one:");
+        let _ = writeln!(out, "\nthe member's own {rated} items nearest to this one:");
         let _ = writeln!(
             out,
             "  {:>8}  {:>6}  {:>9}  item",
-            "distance", "rated", "predicted"
+            "distance",
+            if implicit { "count" } else { "rated" },
+            if implicit { "score" } else { "predicted" }
         );
         for (row, x) in r.evidence.iter().zip(&e.evidence) {
             let _ = writeln!(
@@ -293,25 +333,32 @@ fn table(
     };
     let _ = writeln!(
         out,
-        "\nsupport: the member has {} training ratings{held}{}",
+        "\nsupport: the member has {} training {rating}{held}{}",
         s.user_ratings,
         flag(s.user_low_support)
     );
     let _ = writeln!(
         out,
-        "         the item has {} training ratings{}",
+        "         the item has {} training {rating}{}",
         s.item_ratings,
         flag(s.item_low_support)
     );
-    let _ = writeln!(
-        out,
-        "\nThe ± figure is the predictive standard deviation given the item vectors; the item"
-    );
-    let _ = writeln!(
-        out,
-        "vectors' own uncertainty is not included. This describes the model's arithmetic, not the"
-    );
-    let _ = writeln!(out, "member's motives or traits.");
+    if implicit {
+        let _ = writeln!(
+            out,
+            "\nThis describes the model's arithmetic, not the member's motives or traits."
+        );
+    } else {
+        let _ = writeln!(
+            out,
+            "\nThe ± figure is the predictive standard deviation given the item vectors; the item"
+        );
+        let _ = writeln!(
+            out,
+            "vectors' own uncertainty is not included. This describes the model's arithmetic, not the"
+        );
+        let _ = writeln!(out, "member's motives or traits.");
+    }
     out
 }
 
@@ -325,19 +372,30 @@ fn by_rating_table(
     b: &sextant::analysis::explain::ByRating,
     mu: f64,
 ) {
-    let _ = writeln!(
-        out,
-        "\nthe member's own ratings that produced it (share = weight × (rating − μ{})):",
-        if b.user_bias.is_some() {
-            " − item offset"
-        } else {
-            ""
-        }
-    );
+    let implicit = model.implicit();
+    if let Some(confidence) = implicit {
+        let _ = writeln!(
+            out,
+            "\nthe member's own choices that produced it (share = weight × confidence, confidence = {}):",
+            confidence.describe()
+        );
+    } else {
+        let _ = writeln!(
+            out,
+            "\nthe member's own ratings that produced it (share = weight × (rating − μ{})):",
+            if b.user_bias.is_some() {
+                " − item offset"
+            } else {
+                ""
+            }
+        );
+    }
     let _ = writeln!(
         out,
         "  {:>8}  {:>7}  {:>6}  item",
-        "share", "weight", "rated"
+        "share",
+        "weight",
+        if implicit.is_some() { "count" } else { "rated" }
     );
     for s in b.shares.iter().take(SHARES_SHOWN) {
         let _ = writeln!(
@@ -355,22 +413,32 @@ fn by_rating_table(
     if rest > 0 {
         let _ = writeln!(
             out,
-            "  {:>+8.3}  the other {rest} rating(s) together",
-            total - shown
+            "  {:>+8.3}  the other {rest} {}(s) together",
+            total - shown,
+            if implicit.is_some() {
+                "choice"
+            } else {
+                "rating"
+            }
         );
     }
+    if implicit.is_some() {
+        let _ = writeln!(out, "  {total:>+8.3}  in all: the score");
+    }
     let offsets = b.predicted - mu - total;
-    let _ = writeln!(
-        out,
-        "  {:>+8.3}  in all; with μ{} that is {:.3}",
-        total,
-        if b.user_bias.is_some() {
-            format!(" and the offsets ({offsets:+.3})")
-        } else {
-            String::new()
-        },
-        b.predicted
-    );
+    if implicit.is_none() {
+        let _ = writeln!(
+            out,
+            "  {:>+8.3}  in all; with μ{} that is {:.3}",
+            total,
+            if b.user_bias.is_some() {
+                format!(" and the offsets ({offsets:+.3})")
+            } else {
+                String::new()
+            },
+            b.predicted
+        );
+    }
     if b.difference.abs() > 1e-9 * b.predicted.abs().max(1.0) {
         let _ = writeln!(
             out,

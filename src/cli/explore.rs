@@ -27,6 +27,7 @@ pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
     }
     ensure_terminal()?;
     let (model, notes) = sextant::model::notes::load_with_notes(&args.model.model)?;
+    super::ratings_only(&model, &args.model.model, "explore")?;
     open(model, args.model.model.display().to_string(), notes)
 }
 
@@ -89,6 +90,7 @@ fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
 
     let start = Instant::now();
     let model = load_model(&args.model.model)?;
+    super::ratings_only(&model, &args.model.model, "explore")?;
     let loaded = start.elapsed();
     let mut app = tui::app::App::new(model, args.model.model.display().to_string());
     let mut terminal = Terminal::new(TestBackend::new(120, 40))?;

@@ -8,10 +8,11 @@ use clap::Args;
 use sextant::data::split::DEFAULT_HOLDOUT;
 use sextant::data::{FactorTable, IdMap, RatingScale, assign_holdout};
 use sextant::model::fit::IterationRecord;
+use sextant::model::implicit::{Confidence, ImplicitFitter, ImplicitOptions};
 use sextant::model::{FitOptions, Fitter, Model, Provenance};
 
 use super::UsageError;
-use super::args::{BiasArgs, FitInputs, OutputArgs, PriorArgs, RunArgs, SolverArgs};
+use super::args::{BiasArgs, FeedbackArgs, FitInputs, OutputArgs, PriorArgs, RunArgs, SolverArgs};
 use super::inputs;
 use super::output;
 use super::summary;
@@ -35,6 +36,8 @@ pub struct FitArgs {
     #[command(flatten)]
     biases: BiasArgs,
     #[command(flatten)]
+    feedback: FeedbackArgs,
+    #[command(flatten)]
     solver: SolverArgs,
     #[command(flatten)]
     inputs: FitInputs,
@@ -53,11 +56,49 @@ impl FitArgs {
                 .options(self.rank, self.prior.lambda, self.prior.noise.sigma2)
         }
     }
+
+    /// The options of an implicit-feedback fit with this confidence rule.
+    fn implicit_options(&self, confidence: Confidence) -> ImplicitOptions {
+        ImplicitOptions {
+            rank: self.rank,
+            lambda: self.prior.lambda,
+            confidence,
+            max_iters: self.solver.max_iters,
+            tol: self.solver.tol,
+            seed: self.solver.seed,
+        }
+    }
+}
+
+/// The kind of fit asked for.
+enum Kind {
+    Ratings(FitOptions),
+    Implicit(ImplicitOptions),
 }
 
 pub fn run(args: &FitArgs) -> anyhow::Result<()> {
-    let options = args.fit_options();
-    options.validate()?;
+    let kind = match args.feedback.implicit()? {
+        None => Kind::Ratings(args.fit_options()),
+        Some(confidence) => {
+            // What a model of implicit feedback does not have.
+            let refused = [
+                ("--biases", args.biases.biases),
+                ("--center", args.solver.center.center.is_some()),
+            ];
+            if let Some((flag, _)) = refused.iter().find(|(_, given)| *given) {
+                return Err(UsageError(format!(
+                    "{flag} is a setting of a model of ratings; a model of implicit feedback \
+                     scores preferences with no offsets: leave it out, or drop --feedback implicit"
+                ))
+                .into());
+            }
+            Kind::Implicit(args.implicit_options(confidence))
+        }
+    };
+    match &kind {
+        Kind::Ratings(options) => options.validate()?,
+        Kind::Implicit(options) => options.validate()?,
+    }
     if !(0.0..1.0).contains(&args.solver.holdout) {
         return Err(UsageError(format!(
             "--holdout must be at least 0 and below 1, not {}",
@@ -69,7 +110,7 @@ pub fn run(args: &FitArgs) -> anyhow::Result<()> {
     // A target that will be refused is refused before the fit, not after it.
     sextant::model::dir::check_target(&args.out)?;
     let pool = args.run.pool()?;
-    pool.install(|| fit_and_save(args, &options, scale))
+    pool.install(|| fit_and_save(args, &kind, scale))
 }
 
 /// Ratings and metadata read for a fit, with their fingerprints.
@@ -80,13 +121,18 @@ pub struct Prepared {
     pub meta: Option<sextant::data::ItemsMeta>,
 }
 
-/// Reads the ratings and the optional catalogue.
-pub fn prepare(files: &FitInputs, scale: Option<RatingScale>) -> anyhow::Result<Prepared> {
+/// Reads the ratings (or, with `counts`, the counts of implicit feedback) and the optional
+/// catalogue.
+pub fn prepare(
+    files: &FitInputs,
+    scale: Option<RatingScale>,
+    counts: bool,
+) -> anyhow::Result<Prepared> {
     let (ratings_path, input) = (files.ratings.as_path(), &files.columns);
-    let read_options = input.options(scale.clone(), None, false)?;
+    let read_options = input.options(scale.clone(), None, (false, counts))?;
     let (ratings, ratings_input) =
         inputs::load_ratings(ratings_path, &read_options, IdMap::new(), IdMap::new())?;
-    let scale = inputs::scale_of(scale, &ratings, ratings_path);
+    let scale = inputs::scale_of(scale, &ratings, ratings_path, counts);
     let mut input_prints = vec![ratings_input];
     let meta = match files.catalogue() {
         Some(path) => {
@@ -104,17 +150,13 @@ pub fn prepare(files: &FitInputs, scale: Option<RatingScale>) -> anyhow::Result<
     })
 }
 
-fn fit_and_save(
-    args: &FitArgs,
-    options: &FitOptions,
-    scale: Option<RatingScale>,
-) -> anyhow::Result<()> {
+fn fit_and_save(args: &FitArgs, kind: &Kind, scale: Option<RatingScale>) -> anyhow::Result<()> {
     let Prepared {
         mut ratings,
         scale,
         inputs: mut input_prints,
         meta,
-    } = prepare(&args.inputs, scale)?;
+    } = prepare(&args.inputs, scale, matches!(kind, Kind::Implicit(_)))?;
     let init = match &args.init_items {
         Some(path) => {
             let mut reader = inputs::open(path)?;
@@ -132,15 +174,11 @@ fn fit_and_save(
     };
     assign_holdout(&mut ratings, args.solver.holdout, args.solver.seed);
     if !args.run.quiet {
-        announce(args, &ratings, &scale, meta.as_ref());
+        announce(args, kind, &ratings, &scale, meta.as_ref());
     }
     let init_ref = init
         .as_ref()
         .map(|(t, p): &(FactorTable, PathBuf)| (t, p.as_path()));
-    let fitter = Fitter::new(&ratings, options, init_ref)?;
-    let mut progress = Progress::new(args.run.quiet, args.solver.max_iters);
-    let result = fitter.run(|record| progress.update(record))?;
-    progress.finish(result.converged, result.trace.len());
     let run = args.solver.run_options(
         &args.inputs.columns,
         args.init_items.as_deref().map(file_name),
@@ -150,9 +188,38 @@ fn fit_and_save(
         inputs: input_prints,
         meta,
     };
-    let model = Model::from_fit(ratings, options, run, result, provenance)
-        .context("the fit produced no training ratings to evaluate")?;
+    let mut progress = Progress::new(args.run.quiet, args.solver.max_iters);
+    let model = match kind {
+        Kind::Ratings(options) => {
+            let fitter = Fitter::new(&ratings, options, init_ref)?;
+            let result =
+                fitter.run(|record| progress.update(record.iter, &rating_message(record)))?;
+            progress.finish(result.converged, result.trace.len());
+            Model::from_fit(ratings, options, run, result, provenance)
+        }
+        Kind::Implicit(options) => {
+            let fitter = ImplicitFitter::new(&ratings, options, init_ref)?;
+            let result = fitter.run(|record| {
+                progress.update(record.iter, &format!("loss {:.6e}", record.loss));
+            })?;
+            progress.finish(result.converged, result.trace.len());
+            Model::from_implicit_fit(ratings, options, run, result, provenance)
+        }
+    }
+    .context("the fit produced no training ratings to evaluate")?;
     summary::save_and_print(&model, &args.out, args.run.quiet, args.output.format)
+}
+
+/// The progress message of one iteration of a fit of ratings.
+fn rating_message(record: &IterationRecord) -> String {
+    let holdout = record
+        .holdout_rmse
+        .map(|v| format!(", held-out RMSE {v:.4}"))
+        .unwrap_or_default();
+    format!(
+        "L {:.4e}, train RMSE {:.4}{holdout}",
+        record.log_joint, record.train_rmse
+    )
 }
 
 fn file_name(path: &Path) -> String {
@@ -165,6 +232,7 @@ fn file_name(path: &Path) -> String {
 /// Prints the data size and every option, marking the ones left at their default.
 fn announce(
     args: &FitArgs,
+    kind: &Kind,
     ratings: &sextant::data::Ratings,
     scale: &RatingScale,
     meta: Option<&sextant::data::ItemsMeta>,
@@ -173,16 +241,48 @@ fn announce(
     let given = args.fit_options();
     let solver = &args.solver;
     let mark = |is_default: bool| if is_default { " (default)" } else { "" };
+    let what = match kind {
+        Kind::Ratings(_) => "ratings",
+        Kind::Implicit(_) => "interactions",
+    };
     eprintln!(
-        "fitting {} ratings from {} users and {} items ({} held out); scale {}",
+        "fitting {} {what} from {} users and {} items ({} held out); {} {}",
         output::group(ratings.entries.len()),
         output::group(ratings.users.len()),
         output::group(ratings.items.len()),
         output::group(ratings.holdout_count()),
+        if matches!(kind, Kind::Implicit(_)) {
+            "counts"
+        } else {
+            "scale"
+        },
         scale.describe()
     );
     if let Some(meta) = meta {
         inputs::note_unknown_items(meta, "that have no ratings");
+    }
+    if let Kind::Implicit(options) = kind {
+        eprintln!(
+            "implicit feedback: confidence {}{}",
+            options.confidence.describe(),
+            mark(args.feedback.alpha.is_none() && args.feedback.confidence.is_none())
+        );
+        eprintln!(
+            "options: rank {}{}, lambda {}{}, holdout {}{}, tol {:e}{}, max-iters {}{}, seed {}{}",
+            given.rank,
+            mark(given.rank == d.rank),
+            given.lambda,
+            mark(given.lambda == d.lambda),
+            solver.holdout,
+            mark(solver.holdout == DEFAULT_HOLDOUT),
+            given.tol,
+            mark(given.tol == d.tol),
+            given.max_iters,
+            mark(given.max_iters == d.max_iters),
+            given.seed,
+            mark(given.seed == d.seed),
+        );
+        return;
     }
     if let Some(lambda_bias) = given.lambda_bias {
         eprintln!(
@@ -232,17 +332,10 @@ impl Progress {
         Self { bar, quiet }
     }
 
-    fn update(&mut self, record: &IterationRecord) {
+    fn update(&mut self, iter: usize, message: &str) {
         if let Some(bar) = &self.bar {
-            let holdout = record
-                .holdout_rmse
-                .map(|v| format!(", held-out RMSE {v:.4}"))
-                .unwrap_or_default();
-            bar.set_message(format!(
-                "L {:.4e}, train RMSE {:.4}{holdout}",
-                record.log_joint, record.train_rmse
-            ));
-            bar.set_position(record.iter as u64);
+            bar.set_message(message.to_owned());
+            bar.set_position(iter as u64);
         }
     }
 

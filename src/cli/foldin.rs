@@ -43,6 +43,7 @@ struct Report<'a> {
 
 pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model.model)?;
+    super::ratings_only(&model, &args.model.model, "fold-in")?;
     let profile = load_profile(&args.ratings, &model.ratings.items, &model.manifest.scale)?;
     if !profile.unknown.is_empty() {
         let named: Vec<String> = profile

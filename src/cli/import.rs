@@ -10,7 +10,7 @@ use sextant::model::{Biases, Center, FactorModel, Model, Provenance};
 
 use super::UsageError;
 use super::args::{
-    CatalogueArg, CenterArgs, LambdaBiasArg, OutputArgs, PriorArgs, warn_if_spelled,
+    CatalogueArg, CenterArgs, FeedbackArgs, LambdaBiasArg, OutputArgs, PriorArgs, warn_if_spelled,
 };
 use super::inputs::{self, RatingsArgs};
 use super::summary;
@@ -58,6 +58,8 @@ pub struct ImportArgs {
     #[command(flatten)]
     bias_prior: LambdaBiasArg,
     #[command(flatten)]
+    feedback: FeedbackArgs,
+    #[command(flatten)]
     catalogue: CatalogueArg,
     #[command(flatten)]
     input: RatingsArgs,
@@ -98,10 +100,26 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         ))
         .into());
     }
+    let implicit = args.feedback.implicit()?;
+    if implicit.is_some() {
+        // What vectors fitted to implicit feedback do not have.
+        let refused = [
+            ("--mu", args.mu.is_some()),
+            ("--center", args.center.center.is_some()),
+            ("--user-bias-col", args.user_bias_col.is_some()),
+        ];
+        if let Some((flag, _)) = refused.iter().find(|(_, given)| *given) {
+            return Err(UsageError(format!(
+                "{flag} is a setting of a model of ratings; vectors fitted to implicit feedback \
+                 score preferences as plain dot products: leave it out, or drop --feedback implicit"
+            ))
+            .into());
+        }
+    }
     if args.mu.is_some_and(|mu| !mu.is_finite()) {
         return Err(UsageError("--mu must be a finite number".into()).into());
     }
-    if args.mu.is_none() && args.center.center.is_none() {
+    if implicit.is_none() && args.mu.is_none() && args.center.center.is_none() {
         return Err(UsageError(
             "say which global offset μ the vectors were fitted around: --mu VALUE if you \
              know it, --center global if it was the mean of the training ratings, or \
@@ -145,14 +163,16 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
     }
     let split = inputs::has_column(&args.ratings, "split", args.input.delimiter()?)?
         .then(|| "split".to_owned());
-    let options = args.input.options(scale.clone(), split, true)?;
+    let options = args
+        .input
+        .options(scale.clone(), split, (true, implicit.is_some()))?;
     let (ratings, ratings_input) = inputs::load_ratings(
         &args.ratings,
         &options,
         users.ids.clone(),
         items.ids.clone(),
     )?;
-    let scale = inputs::scale_of(scale, &ratings, &args.ratings);
+    let scale = inputs::scale_of(scale, &ratings, &args.ratings, implicit.is_some());
     let mut prints = vec![ratings_input, users_input, items_input];
     let meta = match tables.catalogue {
         Some(path) => {
@@ -200,14 +220,21 @@ pub fn run(args: &ImportArgs) -> anyhow::Result<()> {
         inputs: prints,
         meta,
     };
-    let model = Model::from_import(ratings, factors, lambda, sigma2, center, provenance)
-        .with_context(|| {
-            format!(
-                "{}: no training ratings (every row is marked holdout)",
-                args.ratings.display()
-            )
-        })
-        .map_err(|e| UsageError(format!("{e:#}")))?;
+    let model = Model::from_import(
+        ratings,
+        factors,
+        (lambda, sigma2),
+        center,
+        implicit,
+        provenance,
+    )
+    .with_context(|| {
+        format!(
+            "{}: no training ratings (every row is marked holdout)",
+            args.ratings.display()
+        )
+    })
+    .map_err(|e| UsageError(format!("{e:#}")))?;
     summary::save_and_print(&model, &args.out, false, args.output.format)
 }
 

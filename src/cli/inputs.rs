@@ -51,9 +51,10 @@ pub struct RatingsArgs {
     /// Name of the column holding item ids (also tried in the catalogue).
     #[arg(long, value_name = "NAME", default_value = "item")]
     pub item_col: String,
-    /// Name of the column holding ratings.
-    #[arg(long, value_name = "NAME", default_value = "rating")]
-    pub rating_col: String,
+    /// Name of the column holding ratings (default: rating; count with --feedback
+    /// implicit).
+    #[arg(long, value_name = "NAME")]
+    pub rating_col: Option<String>,
     /// The rating scale, MIN:MAX:STEP (STEP 0 for continuous); ratings off it are refused.
     /// Inferred from the data when absent.
     #[arg(long, value_name = "MIN:MAX:STEP")]
@@ -103,20 +104,32 @@ impl RatingsArgs {
         })
     }
 
-    /// Reader options for these arguments.
+    /// Reader options for these arguments; `counts` for implicit feedback (the value
+    /// column is then `count` unless renamed, and its values must be ≥ 0).
     pub fn options(
         &self,
         scale: Option<RatingScale>,
         split: Option<String>,
-        known_ids_only: bool,
+        (known_ids_only, counts): (bool, bool),
     ) -> Result<RatingsOptions, UsageError> {
+        if counts && scale.is_some() {
+            return Err(UsageError(
+                "--scale is a setting of ratings; implicit feedback reads counts, which have no scale"
+                    .into(),
+            ));
+        }
+        let value = self
+            .rating_col
+            .clone()
+            .unwrap_or_else(|| sextant::model::manifest::value_column(counts).to_owned());
         Ok(RatingsOptions {
             columns: RatingColumns {
                 user: self.user_col.clone(),
                 item: self.item_col.clone(),
-                rating: self.rating_col.clone(),
+                rating: value,
                 split,
             },
+            counts,
             delimiter: self.delimiter()?,
             scale,
             duplicates: self.duplicates.into(),
@@ -150,13 +163,22 @@ pub fn read_meta(
 /// The rating scale: the one given with --scale, else inferred from the ratings at `path`,
 /// with a warning when they use fewer than three values (a small or filtered file can hide
 /// the real scale, and every rounded prediction is clamped to the inferred one).
-pub fn scale_of(given: Option<RatingScale>, ratings: &Ratings, path: &Path) -> RatingScale {
+///
+/// The counts of implicit feedback have no scale: theirs records the values seen, with no
+/// warning (counts of 1 alone are common).
+pub fn scale_of(
+    given: Option<RatingScale>,
+    ratings: &Ratings,
+    path: &Path,
+    counts: bool,
+) -> RatingScale {
     if let Some(scale) = given {
         return scale;
     }
     let scale = RatingScale::infer(ratings.entries.iter().map(|r| r.value));
     if let RatingScale::Levels(levels) = &scale
         && levels.len() < 3
+        && !counts
     {
         eprintln!(
             "warning: {}: the ratings use only {} value(s) ({}), so the rating scale is taken to \

@@ -1,4 +1,5 @@
-//! `sextant suggest`: a member's top items by predicted rating.
+//! `sextant suggest`: a member's top items by predicted rating (by score in an
+//! implicit-feedback model).
 
 use std::fmt::Write as _;
 
@@ -30,16 +31,18 @@ pub struct SuggestArgs {
 }
 
 /// One suggestion as printed (JSON fields fixed by DESIGN.md, plus the predictive
-/// standard deviation, title and category: null when the model has none).
+/// standard deviation, title and category: null when the model has none). An
+/// implicit-feedback model has a `score` and no predicted rating, rounding or SD (null).
 #[derive(Serialize)]
 pub struct Row<'a> {
     rank: usize,
     item: &'a str,
-    predicted: f64,
-    rounded: f64,
+    predicted: Option<f64>,
+    rounded: Option<f64>,
     predictive_sd: Option<f64>,
     title: Option<&'a str>,
     category: Option<&'a str>,
+    score: Option<f64>,
 }
 
 #[derive(Serialize)]
@@ -65,17 +68,26 @@ pub fn run(args: &SuggestArgs) -> anyhow::Result<()> {
         Format::Csv => csv(&report.suggestions),
         Format::Table => {
             let mut out = String::new();
+            let implicit = model.implicit().is_some();
             let _ = writeln!(
                 out,
-                "top {} suggestions for member {} (items they have not rated)",
+                "top {} suggestions for member {} (items they have not {})",
                 report.suggestions.len(),
-                args.user
+                args.user,
+                if implicit { "chosen" } else { "rated" }
             );
             out.push_str(&table(&model, &found));
-            let _ = writeln!(
-                out,
-                "± sd: predictive standard deviation of the rating given the item vectors (their own uncertainty is not included)"
-            );
+            if implicit {
+                let _ = writeln!(
+                    out,
+                    "score: the model's preference, near 1 for a likely interest and near 0 for none (not a rating)"
+                );
+            } else {
+                let _ = writeln!(
+                    out,
+                    "± sd: predictive standard deviation of the rating given the item vectors (their own uncertainty is not included)"
+                );
+            }
             out
         }
     };
@@ -88,10 +100,12 @@ pub fn rows<'a>(model: &'a Model, found: &[Suggestion]) -> Vec<Row<'a>> {
         .iter()
         .map(|s| {
             let (title, category) = item_title(model, s.item);
+            let implicit = model.implicit().is_some();
             Row {
                 rank: s.rank,
                 item: model.ratings.items.name(s.item),
-                predicted: s.predicted,
+                predicted: (!implicit).then_some(s.predicted),
+                score: implicit.then_some(s.predicted),
                 rounded: s.rounded,
                 predictive_sd: s.predictive_sd,
                 title,
@@ -101,19 +115,21 @@ pub fn rows<'a>(model: &'a Model, found: &[Suggestion]) -> Vec<Row<'a>> {
         .collect()
 }
 
-/// Suggestions as CSV (`rank,item,predicted,rounded,predictive_sd,title,category`; the
-/// last two empty when the model has no catalogue).
+/// Suggestions as CSV (`rank,item,predicted,rounded,predictive_sd,title,category,score`;
+/// title and category empty when the model has no catalogue, the figures that do not
+/// apply empty).
 pub fn csv(rows: &[Row<'_>]) -> String {
-    let mut out = String::from("rank,item,predicted,rounded,predictive_sd,title,category\n");
+    let mut out = String::from("rank,item,predicted,rounded,predictive_sd,title,category,score\n");
     for r in rows {
         let fields = [
             r.rank.to_string(),
             r.item.to_owned(),
-            csv_number(Some(r.predicted)),
-            csv_number(Some(r.rounded)),
+            csv_number(r.predicted),
+            csv_number(r.rounded),
             csv_number(r.predictive_sd),
             r.title.unwrap_or_default().to_owned(),
             r.category.unwrap_or_default().to_owned(),
+            csv_number(r.score),
         ];
         output::csv_row(&mut out, &fields.each_ref().map(String::as_str));
     }
@@ -123,6 +139,19 @@ pub fn csv(rows: &[Row<'_>]) -> String {
 /// Suggestions as a readable table with a header line.
 pub fn table(model: &Model, found: &[Suggestion]) -> String {
     let mut out = String::new();
+    if model.implicit().is_some() {
+        let _ = writeln!(out, "{:>4}  {:>7}  item", "rank", "score");
+        for s in found {
+            let _ = writeln!(
+                out,
+                "{:>4}  {:>7.3}  {}",
+                s.rank,
+                s.predicted,
+                item_label(model, s.item)
+            );
+        }
+        return out;
+    }
     let _ = writeln!(
         out,
         "{:>4}  {:>9}  {:>7}  {:>6}  item",
@@ -134,7 +163,7 @@ pub fn table(model: &Model, found: &[Suggestion]) -> String {
             "{:>4}  {:>9.3}  {:>7}  {:>6}  {}",
             s.rank,
             s.predicted,
-            s.rounded,
+            s.rounded.map_or_else(|| "–".to_owned(), |r| r.to_string()),
             output::fixed(s.predictive_sd, 2),
             item_label(model, s.item)
         );

@@ -9,7 +9,8 @@ use sextant::analysis::ErrorMetrics;
 use sextant::data::RatingScale;
 use sextant::model::Model;
 use sextant::model::fit::IterationRecord;
-use sextant::model::manifest::Origin;
+use sextant::model::implicit::{Confidence, ImplicitRecord};
+use sextant::model::manifest::{ImplicitFit, Origin};
 
 use super::output::{Format, fixed, group};
 
@@ -61,10 +62,11 @@ struct InfoJson<'a> {
     seed: u64,
     converged: bool,
     iterations: &'a [IterationRecord],
-    train: MetricsJson,
+    /// Null in an implicit-feedback model (its scores are not ratings).
+    train: Option<MetricsJson>,
     holdout: Option<MetricsJson>,
-    low_support_users: usize,
-    low_support_items: usize,
+    low_support_users: Option<usize>,
+    low_support_items: Option<usize>,
     origin: &'static str,
     final_log_joint: Option<f64>,
     described_items: usize,
@@ -72,6 +74,42 @@ struct InfoJson<'a> {
     biases: bool,
     /// Their prior precision λ_b, null without biases.
     lambda_bias: Option<f64>,
+    /// `ratings` or `implicit`.
+    feedback: &'static str,
+    /// How counts became confidences, null for a model of ratings.
+    confidence: Option<ConfidenceJson>,
+    /// The loss after each iteration of an implicit fit (empty otherwise).
+    loss_trace: &'a [ImplicitRecord],
+    /// The last of them.
+    final_loss: Option<f64>,
+    /// Expected percentile rank of the held-out interactions (0 best, 0.5 random).
+    holdout_percentile_rank: Option<f64>,
+}
+
+#[derive(Serialize)]
+struct ConfidenceJson {
+    /// `linear` (1 + α·count) or `log` (1 + α·log(1 + count/ε)).
+    form: &'static str,
+    alpha: f64,
+    /// Null for the linear form.
+    epsilon: Option<f64>,
+}
+
+impl From<Confidence> for ConfidenceJson {
+    fn from(c: Confidence) -> Self {
+        match c {
+            Confidence::Linear { alpha } => Self {
+                form: "linear",
+                alpha,
+                epsilon: None,
+            },
+            Confidence::Log { alpha, epsilon } => Self {
+                form: "log",
+                alpha,
+                epsilon: Some(epsilon),
+            },
+        }
+    }
 }
 
 /// Renders the summary of `model` (called `label` in the table form).
@@ -83,7 +121,10 @@ pub fn render(model: &Model, label: &str, format: Format) -> anyhow::Result<Stri
             text.push('\n');
             text
         }
-        Format::Csv => trace_csv(&model.manifest.trace),
+        Format::Csv => match &model.manifest.implicit {
+            Some(implicit) => loss_csv(&implicit.trace),
+            None => trace_csv(&model.manifest.trace),
+        },
     })
 }
 
@@ -118,10 +159,14 @@ fn json(model: &Model) -> InfoJson<'_> {
         seed: m.seed,
         converged: m.converged,
         iterations: &m.trace,
-        train: (&m.metrics.train).into(),
-        holdout: m.metrics.holdout.as_ref().map(Into::into),
-        low_support_users: m.metrics.low_support_users,
-        low_support_items: m.metrics.low_support_items,
+        train: m.metrics.as_ref().map(|f| (&f.train).into()),
+        holdout: m
+            .metrics
+            .as_ref()
+            .and_then(|f| f.holdout.as_ref())
+            .map(Into::into),
+        low_support_users: m.metrics.as_ref().map(|f| f.low_support_users),
+        low_support_items: m.metrics.as_ref().map(|f| f.low_support_items),
         origin: origin_name(m.origin),
         final_log_joint: m.trace.last().map(|r| r.log_joint),
         described_items: model
@@ -130,7 +175,28 @@ fn json(model: &Model) -> InfoJson<'_> {
             .map_or(0, sextant::data::ItemsMeta::described),
         biases: m.lambda_bias.is_some(),
         lambda_bias: m.lambda_bias,
+        feedback: if m.implicit.is_some() {
+            "implicit"
+        } else {
+            "ratings"
+        },
+        confidence: m.implicit.as_ref().map(|i| i.confidence.into()),
+        loss_trace: m.implicit.as_ref().map_or(&[], |i| &i.trace),
+        final_loss: m
+            .implicit
+            .as_ref()
+            .and_then(|i| i.trace.last())
+            .map(|r| r.loss),
+        holdout_percentile_rank: m.implicit.as_ref().and_then(|i| i.holdout_percentile_rank),
     }
+}
+
+fn loss_csv(trace: &[ImplicitRecord]) -> String {
+    let mut out = String::from("iter,loss\n");
+    for r in trace {
+        let _ = writeln!(out, "{},{}", r.iter, r.loss);
+    }
+    out
 }
 
 fn origin_name(origin: Origin) -> &'static str {
@@ -165,6 +231,21 @@ fn table(model: &Model, label: &str) -> String {
         sextant::model::Center::Global => "global mean of the training ratings",
         sextant::model::Center::None => "no centring",
         sextant::model::Center::Given => "given with --mu when imported",
+    };
+    if let Some(implicit) = &m.implicit {
+        line("rank", format!("{}    lambda {}", m.rank, m.lambda));
+        line(
+            "feedback",
+            format!(
+                "implicit: counts, confidence {}; scores are preferences, not ratings",
+                implicit.confidence.describe()
+            ),
+        );
+        return implicit_table(model, implicit, out);
+    }
+    // A model of ratings always has its metrics (the loader checks).
+    let Some(metrics) = &m.metrics else {
+        return out;
     };
     line(
         "rank",
@@ -215,7 +296,7 @@ fn table(model: &Model, label: &str) -> String {
         format!(
             "{}; {}",
             group(c.users),
-            support(m.metrics.low_support_users, "vectors")
+            support(metrics.low_support_users, "vectors")
         ),
     );
     line(
@@ -223,7 +304,7 @@ fn table(model: &Model, label: &str) -> String {
         format!(
             "{}; {}",
             group(c.items),
-            support(m.metrics.low_support_items, "vectors")
+            support(metrics.low_support_items, "vectors")
         ),
     );
     if let Some(meta) = &model.meta {
@@ -273,8 +354,69 @@ fn table(model: &Model, label: &str) -> String {
             v(|m| m.mae_rounded)
         );
     };
-    row("train", Some(&m.metrics.train));
-    row("held out", m.metrics.holdout.as_ref());
+    row("train", Some(&metrics.train));
+    row("held out", metrics.holdout.as_ref());
+    out
+}
+
+/// The rest of the table of an implicit-feedback model: interactions, the loss and the
+/// held-out ranking in place of rating accuracy.
+fn implicit_table(model: &Model, implicit: &ImplicitFit, mut out: String) -> String {
+    let m = &model.manifest;
+    let c = &m.counts;
+    let mut line = |key: &str, value: String| {
+        let _ = writeln!(out, "{key:<12} {value}");
+    };
+    line(
+        "interactions",
+        format!(
+            "{} ({} train, {} held out); counts {}",
+            group(c.ratings),
+            group(c.train_ratings),
+            group(c.holdout_ratings),
+            m.scale.describe()
+        ),
+    );
+    line("users", group(c.users));
+    line("items", group(c.items));
+    if let Some(meta) = &model.meta {
+        line(
+            "metadata",
+            format!("{} items described", group(meta.described())),
+        );
+    }
+    if let (Origin::Fit, Some(options)) = (m.origin, &m.options) {
+        let state = if m.converged {
+            "converged"
+        } else {
+            "stopped without converging"
+        };
+        line(
+            "fit",
+            format!(
+                "{state} after {} of at most {} iterations (tol {:e}), seed {}",
+                implicit.trace.len(),
+                options.max_iters,
+                options.tol,
+                m.seed
+            ),
+        );
+        if let Some(last) = implicit.trace.last() {
+            line("loss", format!("{:.6e} (final)", last.loss));
+        }
+    }
+    line(
+        "held out",
+        implicit.holdout_percentile_rank.map_or_else(
+            || "no held-out interactions to rank".to_owned(),
+            |p| {
+                format!(
+                    "expected percentile rank {:.2}% (0% is every held-out item first, 50% a random order)",
+                    100.0 * p
+                )
+            },
+        ),
+    );
     out
 }
 

@@ -128,7 +128,7 @@ fn tune(args: &TuneArgs, scale: Option<sextant::data::RatingScale>) -> anyhow::R
         scale,
         inputs,
         meta,
-    } = prepare(&args.inputs, scale)?;
+    } = prepare(&args.inputs, scale, false)?;
     assign_holdout(&mut ratings, args.solver.holdout, args.solver.seed);
     let held = ratings.holdout_count();
     if held == 0 {

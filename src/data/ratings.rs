@@ -184,6 +184,8 @@ pub struct RatingsOptions {
     /// The ratings file of a model directory: no flag renames its columns, so a missing
     /// one means the file is damaged (not that a flag is needed).
     pub model_file: bool,
+    /// The values are counts of implicit feedback (or any weights): each must be ≥ 0.
+    pub counts: bool,
 }
 
 /// Loads a ratings CSV file.
@@ -282,6 +284,15 @@ pub fn read_ratings_with_ids(
             )?;
             if let Some(scale) = &options.scale {
                 check_on_scale(scale, value, path, line)?;
+            }
+            if options.counts && value < 0.0 {
+                return Err(DataError::at_line(
+                    path,
+                    line,
+                    format!(
+                        "count '{value}' is negative; implicit feedback needs counts (or weights) of at least 0"
+                    ),
+                ));
             }
             let holdout = match split_col {
                 Some(col) => parse_split(field(&record, col, "split", path, line)?, path, line)?,

@@ -683,7 +683,10 @@ fn write_files(dir: &Path, model: &Model) -> io::Result<()> {
         }
     }
     let ratings_path = dir.join(&files.ratings);
-    write_synced(&ratings_path, |w| write_model_ratings(w, &model.ratings))?;
+    let column = super::manifest::value_column(model.manifest.implicit.is_some());
+    write_synced(&ratings_path, |w| {
+        write_model_ratings(w, &model.ratings, column)
+    })?;
     if let Some(bin_name) = &files.ratings_bin {
         let twin = stream_twin(File::open(&ratings_path)?)?;
         let encoded = crate::data::binary::encode_ratings(&model.ratings, twin);
@@ -731,9 +734,10 @@ fn write_synced(
     file.sync_all()
 }
 
-fn write_model_ratings(out: impl Write, ratings: &Ratings) -> io::Result<()> {
+/// Writes `user,item,VALUE,split` rows, `VALUE` being the value column's name.
+fn write_model_ratings(out: impl Write, ratings: &Ratings, value: &str) -> io::Result<()> {
     let mut out = BufWriter::new(out);
-    out.write_all(b"user,item,rating,split\n")?;
+    writeln!(out, "user,item,{value},split")?;
     let mut field = Vec::new();
     for r in &ratings.entries {
         field.clear();

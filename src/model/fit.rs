@@ -648,7 +648,7 @@ pub(super) fn random_items(count: usize, d: usize, lambda: f64, seed: u64) -> Ve
     (0..count * d).map(|_| scale * rng.normal()).collect()
 }
 
-fn items_from_table(
+pub(super) fn items_from_table(
     ratings: &Ratings,
     table: &FactorTable,
     path: &std::path::Path,

@@ -20,14 +20,16 @@
 use rayon::prelude::*;
 
 use super::FactorModel;
-use super::fit::{Compressed, check_run, iterate_until, random_items, solve_rows};
+use super::fit::{
+    Compressed, check_run, items_from_table, iterate_until, random_items, solve_rows,
+};
 use super::kernels::BATCH;
 use super::solve::RidgeWorkspace;
-use crate::data::Ratings;
+use crate::data::{FactorTable, Ratings};
 use crate::error::FitError;
 
 /// How a count becomes a confidence.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub enum Confidence {
     /// `1 + α·count` (the paper's default form; α = 40 there).
     Linear {
@@ -53,9 +55,44 @@ impl Confidence {
     }
 }
 
+impl Confidence {
+    /// Checks α (finite, ≥ 0) and ε (finite, > 0), naming the flags.
+    pub fn validate(self) -> Result<(), String> {
+        let (alpha, epsilon) = match self {
+            Self::Linear { alpha } => (alpha, 1.0),
+            Self::Log { alpha, epsilon } => (alpha, epsilon),
+        };
+        if !(alpha.is_finite() && alpha >= 0.0) {
+            return Err(format!("--alpha must be a finite number ≥ 0, not {alpha}"));
+        }
+        if !(epsilon.is_finite() && epsilon > 0.0) {
+            return Err(format!(
+                "--epsilon must be a finite number > 0, not {epsilon}"
+            ));
+        }
+        Ok(())
+    }
+
+    /// The confidence rule in words, e.g. `1 + 40·count`.
+    pub fn describe(self) -> String {
+        match self {
+            Self::Linear { alpha } => format!("1 + {alpha}·count"),
+            Self::Log { alpha, epsilon } => format!("1 + {alpha}·log(1 + count/{epsilon})"),
+        }
+    }
+}
+
+/// The published method's α (its experiments found 40 worked well).
+pub const DEFAULT_ALPHA: f64 = 40.0;
+
+/// ε of the log form when none is given (our choice: counts then start to flatten at 1).
+pub const DEFAULT_EPSILON: f64 = 1.0;
+
 impl Default for Confidence {
     fn default() -> Self {
-        Self::Linear { alpha: 40.0 }
+        Self::Linear {
+            alpha: DEFAULT_ALPHA,
+        }
     }
 }
 
@@ -92,26 +129,13 @@ impl Default for ImplicitOptions {
 impl ImplicitOptions {
     /// Checks that the options can work at all.
     pub fn validate(&self) -> Result<(), FitError> {
-        let bad = |m: String| Err(FitError::Option(m));
         check_run(self.rank, self.lambda, self.tol, self.max_iters)?;
-        let (alpha, epsilon) = match self.confidence {
-            Confidence::Linear { alpha } => (alpha, 1.0),
-            Confidence::Log { alpha, epsilon } => (alpha, epsilon),
-        };
-        if !(alpha.is_finite() && alpha >= 0.0) {
-            return bad(format!("--alpha must be a finite number ≥ 0, not {alpha}"));
-        }
-        if !(epsilon.is_finite() && epsilon > 0.0) {
-            return bad(format!(
-                "--epsilon must be a finite number > 0, not {epsilon}"
-            ));
-        }
-        Ok(())
+        self.confidence.validate().map_err(FitError::Option)
     }
 }
 
 /// The state after one implicit iteration.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ImplicitRecord {
     /// Iteration number, from 1.
     pub iter: usize,
@@ -143,9 +167,14 @@ pub struct ImplicitFitter {
 
 impl ImplicitFitter {
     /// Prepares a fit on the training entries of `counts` (their values are counts or any
-    /// non-negative weights; a zero is no interaction). Refuses negative or non-finite
-    /// counts, naming the member and item.
-    pub fn new(counts: &Ratings, options: &ImplicitOptions) -> Result<Self, FitError> {
+    /// non-negative weights; a zero is no interaction), starting from random item vectors
+    /// or from `init_items` (a factor table and its path, for messages). Refuses negative
+    /// or non-finite counts, naming the member and item.
+    pub fn new(
+        counts: &Ratings,
+        options: &ImplicitOptions,
+        init_items: Option<(&FactorTable, &std::path::Path)>,
+    ) -> Result<Self, FitError> {
         options.validate()?;
         if let Some(r) = counts
             .entries
@@ -175,12 +204,11 @@ impl ImplicitFitter {
             train().map(|r| (r.item, r.user, confidence.of(r.value))),
         );
         let d = options.rank;
-        Ok(Self::starting_from(
-            options,
-            by_user,
-            by_item,
-            random_items(counts.items.len(), d, options.lambda, options.seed),
-        ))
+        let items = match init_items {
+            Some((table, path)) => items_from_table(counts, table, path, d)?,
+            None => random_items(counts.items.len(), d, options.lambda, options.seed),
+        };
+        Ok(Self::starting_from(options, by_user, by_item, items))
     }
 
     fn starting_from(
@@ -311,8 +339,9 @@ fn not_solvable(kind: &'static str, index: u32) -> FitError {
 /// number of threads.
 const GRAM_CHUNK: usize = 1024;
 
-/// `VᵀV` of row-major vectors `v` (width `d`), as a full `d × d` row-major matrix.
-fn gram(v: &[f64], d: usize) -> Vec<f64> {
+/// `VᵀV` of row-major vectors `v` (width `d`), as a full `d × d` row-major matrix, summed
+/// in an order that does not depend on the number of threads.
+pub fn gram(v: &[f64], d: usize) -> Vec<f64> {
     let partials: Vec<Vec<f64>> = v
         .par_chunks(d * GRAM_CHUNK)
         .map(|chunk| {

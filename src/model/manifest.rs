@@ -4,19 +4,45 @@
 use serde::{Deserialize, Serialize};
 
 use super::fit::{Center, IterationRecord};
+use super::implicit::{Confidence, ImplicitRecord};
 use crate::analysis::FitMetrics;
 use crate::data::{Duplicates, RatingScale};
 
 /// The `format` tag every manifest carries.
 pub const FORMAT_TAG: &str = "sextant-model";
-/// The newest manifest version this build writes and reads: 2 for a model with biases
-/// (its factor tables carry a `bias` column), 1 for one without (written so, byte for byte
-/// as before, so that older builds keep reading the models they can).
-pub const FORMAT_VERSION: u32 = 2;
+/// The newest manifest version this build writes and reads: 3 for an implicit-feedback
+/// model (counts, not ratings; an `implicit` record instead of rating metrics), 2 for a
+/// model with biases (its factor tables carry a `bias` column), 1 for a plain model of
+/// ratings (written so, byte for byte as before, so that older builds keep reading the
+/// models they can and refuse the rest by version).
+pub const FORMAT_VERSION: u32 = 3;
 
 /// The version a model is written with.
-pub fn version_for(biased: bool) -> u32 {
-    if biased { 2 } else { 1 }
+pub fn version_for(biased: bool, implicit: bool) -> u32 {
+    match (implicit, biased) {
+        (true, _) => 3,
+        (false, true) => 2,
+        (false, false) => 1,
+    }
+}
+
+/// The name of the value column of a model's `ratings.csv`: `rating`, or `count` in an
+/// implicit-feedback model.
+pub fn value_column(implicit: bool) -> &'static str {
+    if implicit { "count" } else { "rating" }
+}
+
+/// What an implicit-feedback model records in place of rating metrics and the likelihood
+/// trace.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ImplicitFit {
+    /// How counts became confidences.
+    pub confidence: Confidence,
+    /// The loss after each iteration (empty for imported vectors).
+    pub trace: Vec<ImplicitRecord>,
+    /// Expected percentile rank of the held-out interactions (0 is perfect, 0.5 is a
+    /// random ranking), when there are any.
+    pub holdout_percentile_rank: Option<f64>,
 }
 
 /// How the vectors came to be.
@@ -140,12 +166,42 @@ pub struct Manifest {
     pub options: Option<RunOptions>,
     /// Whether the fit reached its tolerance.
     pub converged: bool,
-    /// Per-iteration trace.
+    /// Per-iteration trace (empty for an implicit-feedback model, whose loss is in
+    /// `implicit`).
     pub trace: Vec<IterationRecord>,
-    /// Accuracy and support.
-    pub metrics: FitMetrics,
+    /// Accuracy and support of a model of ratings; absent in an implicit-feedback model,
+    /// whose scores are not ratings.
+    #[serde(default, skip_serializing_if = "Option::is_none", with = "present")]
+    pub metrics: Option<FitMetrics>,
+    /// The record of an implicit-feedback model (format version 3); absent for a model of
+    /// ratings.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub implicit: Option<ImplicitFit>,
     /// Fingerprints of the inputs.
     pub inputs: Vec<Input>,
     /// The table files.
     pub files: Files,
+}
+
+/// An optional field written as its value when present and left out when absent (instead
+/// of RON's `Some(…)`), so that the manifests of models of ratings keep their bytes.
+mod present {
+    use serde::{Deserialize, Deserializer, Serialize, Serializer};
+
+    #[expect(clippy::ref_option, reason = "the signature serde's `with` expects")]
+    pub fn serialize<T: Serialize, S: Serializer>(
+        value: &Option<T>,
+        serializer: S,
+    ) -> Result<S::Ok, S::Error> {
+        match value {
+            Some(v) => v.serialize(serializer),
+            None => serializer.serialize_none(),
+        }
+    }
+
+    pub fn deserialize<'de, T: Deserialize<'de>, D: Deserializer<'de>>(
+        deserializer: D,
+    ) -> Result<Option<T>, D::Error> {
+        T::deserialize(deserializer).map(Some)
+    }
 }

@@ -10,7 +10,7 @@
 use std::path::{Component, Path, PathBuf};
 
 use super::FactorModel;
-use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Files, Manifest};
+use super::manifest::{Counts, FORMAT_TAG, FORMAT_VERSION, Files, Manifest, value_column};
 use crate::data::factors::BIAS;
 use crate::data::ratings::{RatingColumns, RatingsOptions, read_ratings_with_ids};
 use crate::data::{BiasColumn, ItemsMeta, Ratings, read_factor_table_with, read_items_meta};
@@ -31,6 +31,23 @@ pub struct Model {
     pub factors: FactorModel,
     /// Items metadata, indexed like the items.
     pub meta: Option<ItemsMeta>,
+}
+
+impl Model {
+    /// The confidence rule of an implicit-feedback model (whose values are counts and whose
+    /// predictions are preference scores); `None` for a model of ratings.
+    pub fn implicit(&self) -> Option<super::implicit::Confidence> {
+        self.manifest.implicit.as_ref().map(|i| i.confidence)
+    }
+
+    /// A prediction rounded onto the rating scale; `None` in an implicit-feedback model,
+    /// whose scores are not ratings.
+    pub fn round(&self, predicted: f64) -> Option<f64> {
+        self.manifest
+            .implicit
+            .is_none()
+            .then(|| self.manifest.scale.round(predicted))
+    }
 }
 
 /// The manifest as RON text.
@@ -148,11 +165,13 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
     let ratings_path = source.path(&files.ratings);
     let options = RatingsOptions {
         columns: RatingColumns {
+            rating: value_column(manifest.implicit.is_some()).into(),
             split: Some("split".into()),
             ..RatingColumns::default()
         },
         known_ids_only: true,
         model_file: true,
+        counts: manifest.implicit.is_some(),
         ..RatingsOptions::default()
     };
     let fast = files.ratings_bin.as_deref().and_then(|bin| {
@@ -391,7 +410,59 @@ pub fn parse_manifest(bytes: &[u8], path: &Path) -> Result<Manifest, DataError> 
     if !numbers_ok {
         return bad("the trace holds values that are not finite numbers".into());
     }
+    match &manifest.implicit {
+        Some(implicit) => {
+            if let Err(why) = check_implicit(&manifest, implicit) {
+                return bad(why);
+            }
+        }
+        None if manifest.metrics.is_none() => {
+            return bad("a model of ratings needs its metrics, and this manifest has none".into());
+        }
+        None => {}
+    }
     Ok(manifest)
+}
+
+/// The promises of an implicit-feedback manifest: version 3, no rating metrics, trace or
+/// offsets, μ = 0, a valid confidence rule and finite figures.
+fn check_implicit(
+    manifest: &Manifest,
+    implicit: &super::manifest::ImplicitFit,
+) -> Result<(), String> {
+    if manifest.version < 3 {
+        return Err(format!(
+            "an implicit-feedback model is format version 3, not {}",
+            manifest.version
+        ));
+    }
+    if manifest.metrics.is_some() || !manifest.trace.is_empty() {
+        return Err("an implicit-feedback model has no rating metrics or likelihood trace".into());
+    }
+    if manifest.lambda_bias.is_some() {
+        return Err("an implicit-feedback model has no offsets (lambda_bias)".into());
+    }
+    if manifest.mu != 0.0 {
+        return Err(format!(
+            "an implicit-feedback model has mu 0, not {}",
+            manifest.mu
+        ));
+    }
+    implicit
+        .confidence
+        .validate()
+        .map_err(|e| format!("the confidence rule is not valid: {}", e.replace("--", "")))?;
+    if !implicit.trace.iter().all(|r| r.loss.is_finite()) {
+        return Err("the implicit trace holds values that are not finite numbers".into());
+    }
+    if let Some(p) = implicit.holdout_percentile_rank
+        && !(0.0..=1.0).contains(&p)
+    {
+        return Err(format!(
+            "holdout_percentile_rank is {p}, not a share between 0 and 1"
+        ));
+    }
+    Ok(())
 }
 
 /// The default file set, with items metadata when `has_meta`.

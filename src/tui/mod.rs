@@ -175,7 +175,7 @@ fn render_header(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             Span::raw(text)
         });
     }
-    let holdout = m.metrics.holdout.map_or_else(
+    let holdout = m.metrics.as_ref().and_then(|f| f.holdout).map_or_else(
         || "no held-out ratings".to_owned(),
         |h| format!("held-out RMSE {:.3}", h.rmse),
     );

@@ -79,7 +79,8 @@ fn every_pane_shows_what_a_person_reads_at_80_by_24() {
         .model
         .manifest
         .metrics
-        .holdout
+        .as_ref()
+        .and_then(|m| m.holdout)
         .expect("held out")
         .rmse;
     assert_eq!(
@@ -255,7 +256,14 @@ fn member_map_and_fit_screens_show_their_numbers() {
     assert!(
         text.contains(&format!(
             "{:.4}",
-            app.shared.model.manifest.metrics.train.rmse
+            app.shared
+                .model
+                .manifest
+                .metrics
+                .as_ref()
+                .unwrap()
+                .train
+                .rmse
         )),
         "{text}"
     );

@@ -417,6 +417,35 @@ def by_rating():
     return {"source": "numpy.linalg.solve (ridge regression as a linear smoother)", "cases": cases}
 
 
+def implicit_by_rating():
+    """An implicit-feedback member's solve is x = (Y' C Y + lambda I)^-1 Y' C p, formed here
+    densely over every item (C = diag of all confidences, 1 where there is no interaction;
+    p = 1 on interactions, 0 elsewhere). As a linear smoother the score of item k is
+    sum_j (y_k' W y_j) c_j over the interactions (Hu, Koren & Volinsky 2008, section 5),
+    W = (Y' C Y + lambda I)^-1 (numpy.linalg.solve)."""
+    rng = np.random.default_rng(89)
+    cases = []
+    for n_items, d, n_rated, lam, alpha, eps in [(30, 4, 8, 1.0, 40.0, None), (50, 8, 20, 0.5, 10.0, None), (25, 3, 3, 2.0, 5.0, 0.5)]:
+        items = rng.normal(scale=0.4, size=(n_items, d))
+        rated = np.sort(rng.choice(n_items, size=n_rated, replace=False))
+        counts = rng.integers(1, 9, size=n_rated).astype(float)
+        conf_rated = 1 + alpha * (counts if eps is None else np.log1p(counts / eps))
+        c = np.ones(n_items)
+        c[rated] = conf_rated
+        p = np.zeros(n_items)
+        p[rated] = 1.0
+        a = items.T @ np.diag(c) @ items + lam * np.eye(d)
+        x = np.linalg.solve(a, items.T @ (c * p))
+        k = int(rng.integers(n_items))
+        weights = items[rated] @ np.linalg.solve(a, items[k])
+        cases.append({"d": d, "lambda": lam, "alpha": alpha, "epsilon": eps,
+                      "items": items.tolist(), "rated": rated.astype(float).tolist(),
+                      "counts": counts.tolist(), "item": k, "weights": weights.tolist(),
+                      "shares": (weights * conf_rated).tolist(), "vector": x.tolist(),
+                      "score": float(items[k] @ x)})
+    return {"source": "numpy.linalg.solve of the dense weighted system Y'C_uY + lambda I", "cases": cases}
+
+
 def build():
     return {
         "ridge_steps.json": {
@@ -452,6 +481,7 @@ def build():
         "fold_in.json": fold_in(),
         "biased_profile.json": biased_profile(),
         "by_rating.json": by_rating(),
+        "implicit_by_rating.json": implicit_by_rating(),
     }
 
 

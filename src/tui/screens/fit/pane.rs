@@ -140,6 +140,10 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         ),
         None => format!("{name:<9}{:>7}", "–"),
     };
+    let (thin_users, thin_items) = m
+        .metrics
+        .as_ref()
+        .map_or((0, 0), |f| (f.low_support_users, f.low_support_items));
     let lines = vec![
         Line::styled(
             format!(
@@ -148,8 +152,11 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             ),
             theme.muted(),
         ),
-        Line::raw(row("train", Some(&m.metrics.train))),
-        Line::raw(row("held out", m.metrics.holdout.as_ref())),
+        Line::raw(row("train", m.metrics.as_ref().map(|f| &f.train))),
+        Line::raw(row(
+            "held out",
+            m.metrics.as_ref().and_then(|f| f.holdout.as_ref()),
+        )),
         Line::styled(
             if m.trace.is_empty() {
                 "imported: no fitting trace".to_owned()
@@ -182,10 +189,10 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         )),
         Line::styled(
             format!(
-                "thin (< {} ratings): {} members, {} items",
-                m.rank, m.metrics.low_support_users, m.metrics.low_support_items
+                "thin (< {} ratings): {thin_users} members, {thin_items} items",
+                m.rank
             ),
-            if m.metrics.low_support_users + m.metrics.low_support_items > 0 {
+            if thin_users + thin_items > 0 {
                 theme.warning()
             } else {
                 Style::new()

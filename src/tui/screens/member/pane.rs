@@ -248,7 +248,8 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
         Line::raw(fit(
             &format!(
                 "predicted {:.3} → {} ({sd}); {actual}",
-                e.predicted, e.rounded
+                e.predicted,
+                e.rounded.map_or_else(String::new, |r| r.to_string())
             ),
             width,
         )),
