@@ -98,6 +98,34 @@ fn miss_rows(model: &Model, misses: &[Miss]) -> Vec<Vec<String>> {
         .collect()
 }
 
+/// The ranking measures beside a random order's, as a Markdown table.
+fn ranking_table(out: &mut String, r: &crate::analysis::ranking::RankingQuality) {
+    let k = r.k;
+    table(
+        out,
+        &["metric", "model", "random", "ratio"],
+        &[
+            ("precision", r.precision, r.random.0),
+            ("recall", r.recall, r.random.1),
+            ("NDCG", r.ndcg, r.random.2),
+        ]
+        .iter()
+        .map(|(n, v, b)| {
+            vec![
+                format!("{n}@{k}"),
+                format!("{v:.4}"),
+                format!("{b:.4}"),
+                if *b > 0.0 {
+                    format!("{:.1}×", v / b)
+                } else {
+                    "–".into()
+                },
+            ]
+        })
+        .collect::<Vec<_>>(),
+    );
+}
+
 /// The Markdown report of `audit` on `model` (named `name` in the title), including the
 /// curator `notes`.
 #[allow(clippy::too_many_lines)]
@@ -105,68 +133,130 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
     let m = &model.manifest;
     let mut out = String::new();
     let _ = writeln!(out, "# Audit of model {name}\n");
-    let _ = writeln!(
-        out,
-        "Written by sextant {}. Rank {}, λ = {}, σ² = {}, μ = {:.4}; {} members, {} items, \
-         {} ratings ({} for training, {} held out); rating scale {}. {}\n",
-        env!("CARGO_PKG_VERSION"),
-        m.rank,
-        m.lambda,
-        m.sigma2,
-        m.mu,
-        m.counts.users,
-        m.counts.items,
-        m.counts.ratings,
-        m.counts.train_ratings,
-        m.counts.holdout_ratings,
-        m.scale.describe(),
-        match (m.origin, m.converged) {
-            (crate::model::manifest::Origin::Import, _) =>
-                "Vectors imported from elsewhere.".to_owned(),
-            (_, true) => format!("The fit converged after {} iterations.", m.trace.len()),
-            (_, false) => format!(
-                "The fit stopped after {} iterations without converging.",
-                m.trace.len()
-            ),
+    let implicit = m.implicit.as_ref();
+    let noun = if implicit.is_some() {
+        "interactions"
+    } else {
+        "ratings"
+    };
+    let iterations = implicit.map_or(m.trace.len(), |i| i.trace.len());
+    let fitted = match (m.origin, m.converged) {
+        (crate::model::manifest::Origin::Import, _) => {
+            "Vectors imported from elsewhere.".to_owned()
         }
-    );
+        (_, true) => format!("The fit converged after {iterations} iterations."),
+        (_, false) => format!("The fit stopped after {iterations} iterations without converging."),
+    };
+    if let Some(implicit) = implicit {
+        let _ = writeln!(
+            out,
+            "Written by sextant {}. Implicit feedback (Hu, Koren & Volinsky 2008): rank {}, \
+             λ = {}, confidence {}; {} members, {} items, {} interactions ({} for training, {} \
+             held out); counts {}. Scores are preferences, not ratings. {fitted}\n",
+            env!("CARGO_PKG_VERSION"),
+            m.rank,
+            m.lambda,
+            implicit.confidence.describe(),
+            m.counts.users,
+            m.counts.items,
+            m.counts.ratings,
+            m.counts.train_ratings,
+            m.counts.holdout_ratings,
+            m.scale.describe(),
+        );
+    } else {
+        let _ = writeln!(
+            out,
+            "Written by sextant {}. Rank {}, λ = {}, σ² = {}, μ = {:.4}; {} members, {} items, \
+             {} ratings ({} for training, {} held out); rating scale {}. {fitted}\n",
+            env!("CARGO_PKG_VERSION"),
+            m.rank,
+            m.lambda,
+            m.sigma2,
+            m.mu,
+            m.counts.users,
+            m.counts.items,
+            m.counts.ratings,
+            m.counts.train_ratings,
+            m.counts.holdout_ratings,
+            m.scale.describe(),
+        );
+    }
     let _ = writeln!(
         out,
-        "Ratings are personal data: keep this report as your data-protection rules require.\n"
+        "{} are personal data: keep this report as your data-protection rules require.\n",
+        if implicit.is_some() {
+            "Interactions"
+        } else {
+            "Ratings"
+        }
     );
 
     // Health.
     let _ = writeln!(out, "## Fit health\n");
-    table(
-        &mut out,
-        &[
-            "ratings",
-            "count",
-            "RMSE",
-            "MAE",
-            "RMSE rounded",
-            "MAE rounded",
-            "exact",
-        ],
-        &m.metrics.as_ref().map_or_else(Vec::new, |metrics| {
-            vec![
-                health_row("training", Some(&metrics.train)),
-                health_row("held out", metrics.holdout.as_ref()),
-            ]
-        }),
-    );
-    if let Some(last) = m.trace.last() {
+    if let Some(implicit) = implicit {
+        if let Some(last) = implicit.trace.last() {
+            let _ = writeln!(out, "Final loss {:.6e} (it never increases).\n", last.loss);
+        }
         let _ = writeln!(
             out,
-            "Final log joint likelihood L = {:.4}. \"Rounded\" predictions are rounded onto the \
-             rating scale; \"exact\" is the share of rounded predictions equal to the rating.\n",
-            last.log_joint
+            "{}\n",
+            audit.percentile_rank.map_or_else(
+                || "Expected percentile rank: not measured, no interactions are held out."
+                    .to_owned(),
+                |p| format!(
+                    "Expected percentile rank of the held-out interactions: **{:.2}%** \
+                     (each held-out item's position among everything the member had not \
+                     chosen in training, weighted by its count; 0% is every one first, 50% a \
+                     random order).",
+                    100.0 * p
+                )
+            )
         );
+    } else {
+        table(
+            &mut out,
+            &[
+                "ratings",
+                "count",
+                "RMSE",
+                "MAE",
+                "RMSE rounded",
+                "MAE rounded",
+                "exact",
+            ],
+            &m.metrics.as_ref().map_or_else(Vec::new, |metrics| {
+                vec![
+                    health_row("training", Some(&metrics.train)),
+                    health_row("held out", metrics.holdout.as_ref()),
+                ]
+            }),
+        );
+        if let Some(last) = m.trace.last() {
+            let _ = writeln!(
+                out,
+                "Final log joint likelihood L = {:.4}. \"Rounded\" predictions are rounded onto the \
+                 rating scale; \"exact\" is the share of rounded predictions equal to the rating.\n",
+                last.log_joint
+            );
+        }
     }
 
     // Ranking.
-    let _ = writeln!(out, "## Ranking quality on held-out ratings\n");
+    let _ = writeln!(out, "## Ranking quality on held-out {noun}\n");
     match &audit.ranking {
+        Some(r) if implicit.is_some() => {
+            let _ = writeln!(
+                out,
+                "For each of {} members with a held-out interaction (relevant), every item they \
+                 did not choose in training is ranked by score and the top {} are compared with \
+                 their held-out items. NDCG uses binary relevance with linear gain \
+                 rel/log₂(i+1) (Järvelin & Kekäläinen 2002), normalised by the ideal order. \
+                 \"Random\" is the expected value for a random order of the same candidates.\n",
+                r.users, r.k
+            );
+            ranking_table(&mut out, r);
+        }
         Some(r) => {
             let _ = writeln!(
                 out,
@@ -179,29 +269,13 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
                 format_float(r.threshold),
                 r.k
             );
-            let k = r.k;
-            table(
-                &mut out,
-                &["metric", "model", "random", "ratio"],
-                &[
-                    ("precision", r.precision, r.random.0),
-                    ("recall", r.recall, r.random.1),
-                    ("NDCG", r.ndcg, r.random.2),
-                ]
-                .iter()
-                .map(|(n, v, b)| {
-                    vec![
-                        format!("{n}@{k}"),
-                        format!("{v:.4}"),
-                        format!("{b:.4}"),
-                        if *b > 0.0 {
-                            format!("{:.1}×", v / b)
-                        } else {
-                            "–".into()
-                        },
-                    ]
-                })
-                .collect::<Vec<_>>(),
+            ranking_table(&mut out, r);
+        }
+        None if implicit.is_some() => {
+            let _ = writeln!(
+                out,
+                "Not measured: no member has a held-out interaction (fit with --holdout to keep \
+                 some aside).\n"
             );
         }
         None => {
@@ -307,14 +381,22 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
 
     // Worst fits.
     let _ = writeln!(out, "## Worst fits\n");
-    let header = ["member", "item", "actual", "predicted", "residual"];
-    let _ = writeln!(out, "### Training ratings\n");
-    table(&mut out, &header, &miss_rows(model, &audit.worst_train));
-    let _ = writeln!(out, "### Held-out ratings\n");
-    if audit.worst_holdout.is_empty() {
-        let _ = writeln!(out, "No ratings are held out.\n");
+    if implicit.is_some() {
+        let _ = writeln!(
+            out,
+            "Not applicable: the scores of implicit feedback are preferences, not ratings, so \
+             there are no rating misses (the percentile rank above measures the fit).\n"
+        );
     } else {
-        table(&mut out, &header, &miss_rows(model, &audit.worst_holdout));
+        let header = ["member", "item", "actual", "predicted", "residual"];
+        let _ = writeln!(out, "### Training ratings\n");
+        table(&mut out, &header, &miss_rows(model, &audit.worst_train));
+        let _ = writeln!(out, "### Held-out ratings\n");
+        if audit.worst_holdout.is_empty() {
+            let _ = writeln!(out, "No ratings are held out.\n");
+        } else {
+            table(&mut out, &header, &miss_rows(model, &audit.worst_holdout));
+        }
     }
 
     // Support.
@@ -327,7 +409,7 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
     let items = audit.low_support.len() - users;
     let _ = writeln!(
         out,
-        "{users} members and {items} items have fewer training ratings than the rank ({}): \
+        "{users} members and {items} items have fewer training {noun} than the rank ({}): \
          the data alone cannot place their vectors, which stay near the prior's centre. The \
          {} with the fewest:\n",
         m.rank,
@@ -335,7 +417,7 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
     );
     table(
         &mut out,
-        &["kind", "id", "training ratings"],
+        &["kind", "id", &format!("training {noun}")],
         &audit
             .low_support
             .iter()
@@ -399,7 +481,7 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
     if !outliers.is_empty() {
         table(
             &mut out,
-            &["kind", "id", "norm", "score", "training ratings"],
+            &["kind", "id", "norm", "score", &format!("training {noun}")],
             &outliers,
         );
     }
@@ -578,23 +660,40 @@ pub fn csv_files(model: &Model, audit: &Audit, notes: &Annotations) -> Vec<CsvFi
         "ranking.csv",
         csv(
             &["metric", "k", "threshold", "users", "model", "random"],
-            audit.ranking.iter().flat_map(|r| {
-                [
-                    ("precision", r.precision, r.random.0),
-                    ("recall", r.recall, r.random.1),
-                    ("ndcg", r.ndcg, r.random.2),
-                ]
-                .map(|(n, v, b)| {
-                    vec![
-                        n.to_owned(),
-                        r.k.to_string(),
-                        num(r.threshold),
-                        r.users.to_string(),
-                        num(v),
-                        num(b),
+            audit
+                .ranking
+                .iter()
+                .flat_map(|r| {
+                    [
+                        ("precision", r.precision, r.random.0),
+                        ("recall", r.recall, r.random.1),
+                        ("ndcg", r.ndcg, r.random.2),
                     ]
+                    .map(|(n, v, b)| {
+                        vec![
+                            n.to_owned(),
+                            r.k.to_string(),
+                            num(r.threshold),
+                            r.users.to_string(),
+                            num(v),
+                            num(b),
+                        ]
+                    })
                 })
-            }),
+                // Implicit feedback: over every candidate, so no cut-off; 0.5 is random.
+                .chain(audit.percentile_rank.map(|p| {
+                    vec![
+                        "expected_percentile_rank".to_owned(),
+                        String::new(),
+                        String::new(),
+                        audit
+                            .ranking
+                            .as_ref()
+                            .map_or(String::new(), |r| r.users.to_string()),
+                        num(p),
+                        num(0.5),
+                    ]
+                })),
         ),
     ));
     let names = &audit.categories.names;

@@ -373,24 +373,120 @@ fn flags_that_do_not_apply_to_a_kind_of_feedback_are_refused() {
 }
 
 #[test]
-fn commands_that_read_ratings_only_refuse_an_implicit_model() {
+fn the_explorer_refuses_an_implicit_model_until_it_reads_one() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path().join("cooked");
     fit_implicit(&dir, &[]);
     let d = dir.display().to_string();
-    let profile = tmp.path().join("profile.csv");
-    std::fs::write(&profile, "item,rating\nr001,3\n").unwrap();
-    for args in [
-        vec!["audit", &*d],
-        vec!["fold-in", &*d, profile.to_str().unwrap()],
-        vec!["explore", &*d, "--measure-frames", "1"],
-    ] {
-        let stderr = refused(&args);
-        assert!(
-            stderr.contains("is a model of implicit feedback") && stderr.contains(&d),
-            "{args:?}: {stderr}"
-        );
+    let stderr = refused(&["explore", &d, "--measure-frames", "1"]);
+    assert!(
+        stderr.contains("is a model of implicit feedback") && stderr.contains(&d),
+        "{stderr}"
+    );
+}
+
+#[test]
+fn an_implicit_audit_ranks_held_out_interactions_and_lists_no_misses() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("cooked");
+    fit_implicit(&dir, &[]);
+    let d = dir.display().to_string();
+    let csv_dir = tmp.path().join("audit-csv");
+    let out = sextant(&["audit", &d, "--csv", csv_dir.to_str().unwrap()]);
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let report = text(&sextant(&["audit", &d]).stdout);
+    assert!(
+        report.contains("Implicit feedback (Hu, Koren & Volinsky 2008)"),
+        "{report}"
+    );
+    assert!(report.contains("Expected percentile rank of the held-out interactions"));
+    assert!(report.contains("## Ranking quality on held-out interactions"));
+    assert!(report.contains("Not applicable: the scores of implicit feedback"));
+    assert!(!report.contains("RMSE"), "{report}");
+    let model = load_model(&dir).unwrap();
+    let found =
+        sextant::analysis::audit::audit(&model, sextant::analysis::audit::AuditOptions::default());
+    assert!(found.worst_train.is_empty() && found.worst_holdout.is_empty());
+    // Every held-out interaction is relevant.
+    let r = found.ranking.as_ref().unwrap();
+    let members_with_held_out = {
+        let mut users: Vec<u32> = model
+            .ratings
+            .entries
+            .iter()
+            .filter(|e| e.holdout && e.value > 0.0)
+            .map(|e| e.user)
+            .collect();
+        users.dedup();
+        users.len()
+    };
+    assert_eq!(r.users, members_with_held_out);
+    assert!(r.precision > 3.0 * r.random.0, "{r:?}");
+    let epr = found.percentile_rank.unwrap();
+    let ranking = std::fs::read_to_string(csv_dir.join("ranking.csv")).unwrap();
+    let last = ranking.lines().last().unwrap();
+    assert!(
+        last.starts_with("expected_percentile_rank,,,") && last.ends_with(&format!(",{epr},0.5")),
+        "{ranking}"
+    );
+}
+
+#[test]
+fn an_implicit_profile_folds_in_as_the_fitters_member_step() {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("cooked");
+    fit_implicit(&dir, &[]);
+    let model = load_model(&dir).unwrap();
+    let confidence = model.implicit().unwrap();
+    let options = ImplicitOptions {
+        rank: 5,
+        lambda: model.manifest.lambda,
+        confidence,
+        ..ImplicitOptions::default()
+    };
+    let mut fitter = ImplicitFitter::new(&model.ratings, &options, None)
+        .unwrap()
+        .with_items(model.factors.items.clone());
+    fitter.update_users().unwrap();
+    for user in [0u32, 6, 700, 1499] {
+        let counts = training_ratings(&model, user);
+        let folded = sextant::analysis::foldin::fold_in(&model, &counts).unwrap();
+        assert_eq!(folded.bias, 0.0);
+        let step = fitter.model().user(user);
+        let gap = folded
+            .vector
+            .iter()
+            .zip(step)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0, f64::max);
+        assert!(gap < 1e-12, "member {user}: {gap}");
     }
+    // The command reads item,count and refuses what is not a count.
+    let d = dir.display().to_string();
+    let profile = tmp.path().join("cooked-profile.csv");
+    std::fs::write(&profile, "item,count\nr001,3\nr157,10\nr999,2\n").unwrap();
+    let p = profile.display().to_string();
+    let j = json(&["fold-in", &d, &p, "-n", "4", "--format", "json"]);
+    assert_eq!(j["ratings_used"], 2);
+    assert_eq!(j["skipped"][0], "r999");
+    let rows = j["suggestions"].as_array().unwrap();
+    assert!(
+        rows.iter()
+            .all(|r| r["score"].is_f64() && r["predicted"].is_null())
+    );
+    assert!(
+        rows.iter()
+            .all(|r| r["item"] != "r001" && r["item"] != "r157")
+    );
+    std::fs::write(&profile, "item,count\nr001,-1\n").unwrap();
+    let stderr = refused(&["fold-in", &d, &p]);
+    assert!(stderr.contains("line 2: count -1 is negative"), "{stderr}");
+    std::fs::write(&profile, "item,rating\nr001,4\n").unwrap();
+    let stderr = refused(&["fold-in", &d, &p]);
+    assert!(
+        stderr.contains("a profile's header row is item,count"),
+        "{stderr}"
+    );
 }
 
 #[test]

@@ -64,14 +64,27 @@ pub struct Audit {
     pub ranking: Option<RankingQuality>,
     /// The relevance threshold used.
     pub threshold: f64,
+    /// An implicit-feedback model's expected percentile rank of the held-out interactions
+    /// (None for a model of ratings, or without held-out interactions).
+    pub percentile_rank: Option<f64>,
 }
 
-/// Runs every check of an audit on `model`.
+/// Runs every check of an audit on `model`. In an implicit-feedback model there are no
+/// misses to list (scores are preferences, not ratings), every held-out interaction is
+/// relevant, and the expected percentile rank is reported beside the ranking measures.
 pub fn audit(model: &Model, options: AuditOptions) -> Audit {
     let categories = Categories::from_meta(model.meta.as_ref(), model.factors.item_count());
     let threshold = options
         .threshold
         .unwrap_or_else(|| default_threshold(model));
+    let implicit = model.manifest.implicit.as_ref();
+    let misses = |holdout: bool| {
+        if implicit.is_some() {
+            Vec::new()
+        } else {
+            worst_fits(model, holdout, options.top)
+        }
+    };
     Audit {
         coherence: coherence_sample(
             &model.factors,
@@ -80,8 +93,8 @@ pub fn audit(model: &Model, options: AuditOptions) -> Audit {
             options.metric,
             options.sample,
         ),
-        worst_train: worst_fits(model, false, options.top),
-        worst_holdout: worst_fits(model, true, options.top),
+        worst_train: misses(false),
+        worst_holdout: misses(true),
         low_support: low_support(model),
         norms: [Side::User, Side::Item]
             .into_iter()
@@ -95,6 +108,7 @@ pub fn audit(model: &Model, options: AuditOptions) -> Audit {
         ),
         ranking: ranking_quality(model, options.k, threshold),
         threshold,
+        percentile_rank: implicit.and_then(|i| i.holdout_percentile_rank),
         categories,
         options,
     }

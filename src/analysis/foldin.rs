@@ -5,7 +5,9 @@
 //! μ) v_j` over the profile's rated items (Hoerl & Kennard 1970), solved by the same
 //! Cholesky code, so folding in a fitted member's training ratings reproduces the vector
 //! the fit's last user step gave them. In a model with biases the step solves the
-//! profile's vector and offset `(u, b)` jointly, against targets `r_j − μ − c_j`.
+//! profile's vector and offset `(u, b)` jointly, against targets `r_j − μ − c_j`. In a
+//! model of implicit feedback it is the fitter's weighted member step over the profile's
+//! counts ([`fold_in_implicit`]).
 
 use super::explain::Profile;
 use super::suggest::{Suggestion, top_unrated};
@@ -53,6 +55,10 @@ impl Folded {
 pub fn fold_in(model: &Model, rated: &[(u32, f64)]) -> Result<Folded, FoldInError> {
     let m = &model.manifest;
     let f = &model.factors;
+    if let Some(confidence) = model.implicit() {
+        let vector = fold_in_implicit(&f.items, f.rank, (m.lambda, confidence), rated)?;
+        return Ok(Folded { vector, bias: 0.0 });
+    }
     let ridge = m.lambda * m.sigma2;
     match &f.biases {
         None => {
@@ -127,6 +133,41 @@ pub fn fold_in_vectors(
             ratings: rated.len(),
             rank: d,
         })?;
+    Ok(vector)
+}
+
+/// [`fold_in`] for a model of implicit feedback, on bare item vectors (row-major, width
+/// `d`), λ and the confidence rule: `x = (YᵀY + λI + Σ_j (c_j − 1) y_j y_jᵀ)⁻¹ Σ_j c_j y_j`
+/// over the profile's (item, count) pairs, by the fitter's own solver (a count of 0 is no
+/// interaction).
+pub fn fold_in_implicit(
+    items: &[f64],
+    d: usize,
+    (lambda, confidence): (f64, crate::model::implicit::Confidence),
+    rated: &[(u32, f64)],
+) -> Result<Vec<f64>, FoldInError> {
+    let mut sorted: Vec<(u32, f64)> = rated.iter().copied().filter(|&(_, c)| c > 0.0).collect();
+    sorted.sort_by_key(|&(j, _)| j);
+    let rows: Vec<u32> = sorted.iter().map(|&(j, _)| j).collect();
+    let confidences: Vec<f64> = sorted.iter().map(|&(_, c)| confidence.of(c)).collect();
+    let mut base = crate::model::implicit::gram(items, d);
+    for k in 0..d {
+        base[k * d + k] += lambda;
+    }
+    let mut vector = vec![0.0; d];
+    let ok = RidgeWorkspace::new(d).solve_batch_weighted(
+        items,
+        &[(&rows, &confidences)],
+        &base,
+        lambda == 0.0,
+        &mut vector,
+    );
+    if !ok[0] {
+        return Err(FoldInError::Underdetermined {
+            ratings: rated.len(),
+            rank: d,
+        });
+    }
     Ok(vector)
 }
 

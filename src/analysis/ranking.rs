@@ -73,8 +73,12 @@ pub struct RankingQuality {
 }
 
 /// The default relevance threshold: three quarters of the way up the rating scale (4 on a
-/// 1–5 scale) (common practice).
+/// 1–5 scale) (common practice); in an implicit-feedback model every held-out interaction
+/// (any positive count) is relevant.
 pub fn default_threshold(model: &Model) -> f64 {
+    if model.implicit().is_some() {
+        return f64::MIN_POSITIVE;
+    }
     let s = &model.manifest.scale;
     s.min() + 0.75 * (s.max() - s.min())
 }

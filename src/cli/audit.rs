@@ -58,7 +58,7 @@ pub struct AuditArgs {
     #[arg(long, value_name = "N")]
     sample: Option<usize>,
     /// Held-out ratings at or above this count as relevant (default: three quarters of the
-    /// way up the rating scale, 4 on 1–5).
+    /// way up the rating scale, 4 on 1–5; with implicit feedback, any held-out interaction).
     #[arg(long, value_name = "RATING")]
     relevant: Option<f64>,
 }
@@ -75,7 +75,6 @@ pub fn run(args: &AuditArgs) -> anyhow::Result<()> {
         return Err(super::UsageError("--relevant must be a finite number".into()).into());
     }
     let (model, notes) = load_with_notes(&args.model.model)?;
-    super::ratings_only(&model, &args.model.model, "audit")?;
     let notes = notes.current;
     let options = AuditOptions {
         neighbours: args.neighbours,

@@ -8,21 +8,22 @@ use clap::Args;
 use serde::Serialize;
 use sextant::analysis::foldin::{fold_in, suggest_profile};
 use sextant::analysis::suggest::ranking_index;
-use sextant::data::profile::load_profile;
+use sextant::data::profile::{Values, load_profile};
 use sextant::model::load_model;
 
 use super::args::{ModelArg, OutputArgs, SuggestionCount};
 use super::output::{self, Format};
 
-/// Fold a profile (an `item,rating` CSV) into a model: one member step against the fixed
-/// item vectors gives its vector; suggestions and their uncertainty follow.
+/// Fold a profile (an `item,rating` CSV; `item,count` for a model of implicit feedback) into
+/// a model: one member step against the fixed item vectors gives its vector; suggestions
+/// and their uncertainty follow.
 ///
 /// Items the model does not know are skipped and named on stderr.
 #[derive(Debug, Args)]
 pub struct FoldInArgs {
     #[command(flatten)]
     model: ModelArg,
-    /// The profile: CSV with columns item,rating.
+    /// The profile: CSV with columns item,rating (item,count for implicit feedback).
     #[arg(value_name = "RATINGS.csv")]
     ratings: PathBuf,
     #[command(flatten)]
@@ -43,8 +44,12 @@ struct Report<'a> {
 
 pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
     let model = load_model(&args.model.model)?;
-    super::ratings_only(&model, &args.model.model, "fold-in")?;
-    let profile = load_profile(&args.ratings, &model.ratings.items, &model.manifest.scale)?;
+    let values = if model.implicit().is_some() {
+        Values::Counts
+    } else {
+        Values::Ratings(&model.manifest.scale)
+    };
+    let profile = load_profile(&args.ratings, &model.ratings.items, values)?;
     if !profile.unknown.is_empty() {
         let named: Vec<String> = profile
             .unknown
@@ -85,14 +90,28 @@ pub fn run(args: &FoldInArgs) -> anyhow::Result<()> {
         Format::Csv => super::suggest::csv(&report.suggestions),
         Format::Table => {
             let mut out = String::new();
-            let _ = writeln!(
-                out,
-                "profile of {} rating(s) folded in (rank {}, λ = {}, σ² = {})",
-                report.ratings_used,
-                model.factors.rank,
-                model.manifest.lambda,
-                model.manifest.sigma2
-            );
+            match model.implicit() {
+                Some(confidence) => {
+                    let _ = writeln!(
+                        out,
+                        "profile of {} count(s) folded in (rank {}, λ = {}, confidence {})",
+                        report.ratings_used,
+                        model.factors.rank,
+                        model.manifest.lambda,
+                        confidence.describe()
+                    );
+                }
+                None => {
+                    let _ = writeln!(
+                        out,
+                        "profile of {} rating(s) folded in (rank {}, λ = {}, σ² = {})",
+                        report.ratings_used,
+                        model.factors.rank,
+                        model.manifest.lambda,
+                        model.manifest.sigma2
+                    );
+                }
+            }
             if let Some(b) = report.bias {
                 let _ = writeln!(out, "  offset {b:>+8.3}");
             }

@@ -141,7 +141,7 @@ pub fn ratings_only(
     }
     Err(UsageError(format!(
         "{} is a model of implicit feedback (counts, not ratings), which `sextant {command}` \
-         does not read yet; info, suggest, explain, neighbours and export do",
+         does not read yet; info, suggest, explain, neighbours, audit, fold-in and export do",
         path.display()
     )))
 }

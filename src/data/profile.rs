@@ -1,4 +1,5 @@
-//! A what-if profile: one member's ratings as `item,rating` CSV, for folding into a model.
+//! A what-if profile: one member's ratings as `item,rating` CSV (or, for a model of
+//! implicit feedback, their counts as `item,count`), for folding into a model.
 
 use std::fs::File;
 use std::io::Read;
@@ -21,30 +22,64 @@ pub struct ProfileRatings {
     pub unknown: Vec<(String, u64)>,
 }
 
+/// What a profile's values are.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Values<'a> {
+    /// Ratings on the model's scale (column `rating`).
+    Ratings(&'a RatingScale),
+    /// Counts of implicit feedback, at least 0 (column `count`).
+    Counts,
+}
+
+impl Values<'_> {
+    fn column(self) -> &'static str {
+        match self {
+            Self::Ratings(_) => "rating",
+            Self::Counts => "count",
+        }
+    }
+
+    /// Why `value` is refused, if it is.
+    fn refuse(self, value: f64) -> Option<String> {
+        match self {
+            Self::Ratings(scale) if !scale.contains(value) => Some(format!(
+                "rating {value} is not on the model's rating scale ({})",
+                scale.describe()
+            )),
+            Self::Counts if value < 0.0 => Some(format!(
+                "count {value} is negative; a count (or weight) is at least 0"
+            )),
+            _ => None,
+        }
+    }
+}
+
 /// Reads a profile CSV from a file.
 pub fn load_profile(
     path: &Path,
     items: &IdMap,
-    scale: &RatingScale,
+    values: Values<'_>,
 ) -> Result<ProfileRatings, DataError> {
     let file = File::open(path).map_err(|e| DataError::read(path, e))?;
-    read_profile(file, path, items, scale)
+    read_profile(file, path, items, values)
 }
 
-/// Reads a profile CSV (`item,rating` header, extra columns ignored). Ratings must be
-/// finite and on the model's scale; an item may appear once; items the model does not know
-/// are collected in [`ProfileRatings::unknown`].
+/// Reads a profile CSV (`item,rating` header, or `item,count` for counts; extra columns
+/// ignored). Ratings must be finite and on the model's scale, counts finite and at least
+/// 0; an item may appear once; items the model does not know are collected in
+/// [`ProfileRatings::unknown`].
 pub fn read_profile(
     reader: impl Read,
     path: &Path,
     items: &IdMap,
-    scale: &RatingScale,
+    values: Values<'_>,
 ) -> Result<ProfileRatings, DataError> {
     let (mut csv, _) = csv_reader(reader, path, super::ratings::Delimiter::Auto)?;
-    let header = read_header(&mut csv, path, "item, rating")?;
-    let expected = "a profile's header row is item,rating";
-    let item_col = find_column(&header, "item", expected, path)?;
-    let rating_col = find_column(&header, "rating", expected, path)?;
+    let column = values.column();
+    let header = read_header(&mut csv, path, &format!("item, {column}"))?;
+    let expected = format!("a profile's header row is item,{column}");
+    let item_col = find_column(&header, "item", &expected, path)?;
+    let rating_col = find_column(&header, column, &expected, path)?;
     let mut out = ProfileRatings::default();
     let mut lines: std::collections::HashMap<u32, u64> = std::collections::HashMap::new();
     let mut record = csv::ByteRecord::new();
@@ -58,20 +93,9 @@ pub fn read_profile(
         }
         check_width(&record, header.len(), path, line)?;
         let id = id_field(&record, item_col, "item id", path, line)?;
-        let value = parse_rating(
-            field(&record, rating_col, "rating", path, line)?,
-            path,
-            line,
-        )?;
-        if !scale.contains(value) {
-            return Err(DataError::at_line(
-                path,
-                line,
-                format!(
-                    "rating {value} is not on the model's rating scale ({})",
-                    scale.describe()
-                ),
-            ));
+        let value = parse_rating(field(&record, rating_col, column, path, line)?, path, line)?;
+        if let Some(why) = values.refuse(value) {
+            return Err(DataError::at_line(path, line, why));
         }
         match items.get(id) {
             Some(j) => {
@@ -91,7 +115,9 @@ pub fn read_profile(
     if out.ratings.is_empty() && out.unknown.is_empty() {
         return Err(DataError::in_file(
             path,
-            "has a header but no ratings; a profile needs at least one 'item,rating' row",
+            format!(
+                "has a header but no {column}s; a profile needs at least one 'item,{column}' row"
+            ),
         ));
     }
     if out.ratings.is_empty() {
