@@ -384,9 +384,30 @@ pub fn markdown(model: &Model, name: &str, audit: &Audit, notes: &Annotations) -
     if implicit.is_some() {
         let _ = writeln!(
             out,
-            "Not applicable: the scores of implicit feedback are preferences, not ratings, so \
-             there are no rating misses (the percentile rank above measures the fit).\n"
+            "The interactions the model scores lowest: the furthest from their preference 1 \
+             (a score is not a rating, so there is no residual to list).\n"
         );
+        let header = ["member", "item", "count", "score"];
+        let rows = |list: &[crate::analysis::diagnostics::Miss]| -> Vec<Vec<String>> {
+            list.iter()
+                .map(|x| {
+                    vec![
+                        model.ratings.users.name(x.user).to_owned(),
+                        item_label(model, x.item),
+                        format_float(x.actual),
+                        format!("{:.3}", x.predicted),
+                    ]
+                })
+                .collect()
+        };
+        let _ = writeln!(out, "### Training interactions\n");
+        table(&mut out, &header, &rows(&audit.worst_train));
+        let _ = writeln!(out, "### Held-out interactions\n");
+        if audit.worst_holdout.is_empty() {
+            let _ = writeln!(out, "No interactions are held out.\n");
+        } else {
+            table(&mut out, &header, &rows(&audit.worst_holdout));
+        }
     } else {
         let header = ["member", "item", "actual", "predicted", "residual"];
         let _ = writeln!(out, "### Training ratings\n");
@@ -620,6 +641,7 @@ fn csv(header: &[&str], rows: impl IntoIterator<Item = Vec<String>>) -> String {
 /// The report's figures as CSV files (full precision, ids rather than labels).
 pub fn csv_files(model: &Model, audit: &Audit, notes: &Annotations) -> Vec<CsvFile> {
     let m = &model.manifest;
+    let implicit = m.implicit.is_some();
     let item = |j: u32| model.ratings.items.name(j).to_owned();
     let num = format_float;
     let mut files = Vec::new();
@@ -766,7 +788,12 @@ pub fn csv_files(model: &Model, audit: &Audit, notes: &Annotations) -> Vec<CsvFi
                         item(x.item),
                         num(x.actual),
                         num(x.predicted),
-                        num(x.residual()),
+                        // A count minus a score is no residual: left empty.
+                        if implicit {
+                            String::new()
+                        } else {
+                            num(x.residual())
+                        },
                     ]
                 })
             }),

@@ -60,11 +60,12 @@ fn a_data_folder_given_as_a_model_gets_the_command_that_makes_one() {
         );
         assert!(err.contains(&expected), "{command:?}: {err}");
     }
-    // A folder that holds a model one level down names it.
+    // A folder that holds models one level down names them.
     let err = refused(&["info", &repo("demo-data").display().to_string()]);
     assert!(
         err.contains(&format!(
-            "it holds a model at {}",
+            "it holds models at {} and {}: name one of those instead",
+            repo("demo-data/implicit-model").display(),
             repo("demo-data/model").display()
         )),
         "{err}"

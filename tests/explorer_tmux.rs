@@ -254,8 +254,13 @@ fn an_idle_explorer_sleeps() {
 /// The shell command that runs the explorer, then reports its exit code and the
 /// terminal's modes, and stays open so the test can read them.
 fn reporting(binary: &str) -> String {
+    reporting_with(binary, "")
+}
+
+/// [`reporting`] with arguments after the binary.
+fn reporting_with(binary: &str, args: &str) -> String {
     let script = format!(
-        "'{binary}'; echo EXITED \\$?; stty -a | tr ' ' '\\n' | grep -x -e echo -e icanon | tr '\\n' ' '; echo; sleep 30"
+        "'{binary}'{args}; echo EXITED \\$?; stty -a | tr ' ' '\\n' | grep -x -e echo -e icanon | tr '\\n' ' '; echo; sleep 30"
     );
     format!("sh -c \"{}\"", script.replace('"', "\\\""))
 }
@@ -352,6 +357,38 @@ fn a_walk_through_every_screen_at_80_by_24() {
     let help = session.wait_for("Cautions");
     assert!(help.contains("sends nothing anywhere"), "{help}");
     session.keys(&["Escape", "q"]);
+    let after = session.wait_for("icanon");
+    assert!(after.contains("EXITED 0"), "{after}");
+}
+
+#[test]
+fn the_implicit_demo_speaks_of_scores_at_80_by_24() {
+    let binary = env!("CARGO_BIN_EXE_sextant");
+    let command = reporting_with(binary, " explore --demo implicit");
+    let session = Session::start_sized("sextant-implicit", &command, 80, 24);
+    let first = session.wait_for("Catalogue · 400 items");
+    assert!(
+        first
+            .lines()
+            .next()
+            .unwrap()
+            .contains("held-out rank 12.5%"),
+        "{first}"
+    );
+    session.keys(&["u", "m", "0", "0", "0", "1", "Enter"]);
+    let member = session.wait_for("most chosen first");
+    assert!(member.contains("count  score"), "{member}");
+    session.keys(&["Tab"]);
+    session.wait_for("not chosen, highest score first");
+    session.keys(&["Tab", "G"]);
+    session.wait_for("support: member");
+    session.keys(&["w", ">"]);
+    session.wait_for("What-if from member m0001");
+    session.keys(&["w", "4"]);
+    session.wait_for("620 iterations, converged");
+    session.keys(&["5", "Tab"]);
+    session.wait_for("Lowest scores");
+    session.keys(&["q"]);
     let after = session.wait_for("icanon");
     assert!(after.contains("EXITED 0"), "{after}");
 }

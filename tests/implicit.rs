@@ -373,20 +373,55 @@ fn flags_that_do_not_apply_to_a_kind_of_feedback_are_refused() {
 }
 
 #[test]
-fn the_explorer_refuses_an_implicit_model_until_it_reads_one() {
+fn the_explorer_opens_an_implicit_model_and_the_bundled_implicit_demo() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path().join("cooked");
     fit_implicit(&dir, &[]);
     let d = dir.display().to_string();
-    let stderr = refused(&["explore", &d, "--measure-frames", "1"]);
-    assert!(
-        stderr.contains("is a model of implicit feedback") && stderr.contains(&d),
-        "{stderr}"
-    );
+    for args in [
+        vec!["explore", &*d, "--measure-frames", "3"],
+        vec!["explore", "--demo", "implicit", "--measure-frames", "3"],
+        vec!["explore", "--demo", "--measure-frames", "1"],
+    ] {
+        let timing = json(&args);
+        assert!(timing["first_frame_s"].as_f64().unwrap() > 0.0, "{args:?}");
+    }
+    let stderr = refused(&["explore", &d, "--demo", "implicit"]);
+    assert!(stderr.contains("cannot be used with"), "{stderr}");
+    let stderr = refused(&["explore"]);
+    assert!(stderr.contains("<MODEL>"), "{stderr}");
 }
 
 #[test]
-fn an_implicit_audit_ranks_held_out_interactions_and_lists_no_misses() {
+fn the_committed_implicit_demo_model_is_reproduced_bit_for_bit() {
+    // The bundled implicit demo is exactly what `sextant fit` makes from the committed
+    // cooking counts with the options its manifest records.
+    let committed = load_model(&repo("demo-data/implicit-model")).unwrap();
+    let recorded = committed.manifest.options.clone().unwrap();
+    assert_eq!(committed.manifest.rank, 10);
+    assert_eq!(committed.implicit(), Some(Confidence::default()));
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("refit");
+    let max_iters = recorded.max_iters.to_string();
+    let out = sextant(&[
+        "fit",
+        &cooked(),
+        "--feedback",
+        "implicit",
+        "--catalogue",
+        &repo("demo-data/items.csv").display().to_string(),
+        "--max-iters",
+        &max_iters,
+        "--quiet",
+        "--out",
+        &dir.display().to_string(),
+    ]);
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    common::assert_same_model_files(&dir, &repo("demo-data/implicit-model"));
+}
+
+#[test]
+fn an_implicit_audit_ranks_held_out_interactions_and_lists_the_lowest_scores() {
     let tmp = tempfile::tempdir().unwrap();
     let dir = tmp.path().join("cooked");
     fit_implicit(&dir, &[]);
@@ -401,12 +436,26 @@ fn an_implicit_audit_ranks_held_out_interactions_and_lists_no_misses() {
     );
     assert!(report.contains("Expected percentile rank of the held-out interactions"));
     assert!(report.contains("## Ranking quality on held-out interactions"));
-    assert!(report.contains("Not applicable: the scores of implicit feedback"));
+    assert!(report.contains("The interactions the model scores lowest"));
     assert!(!report.contains("RMSE"), "{report}");
     let model = load_model(&dir).unwrap();
     let found =
         sextant::analysis::audit::audit(&model, sextant::analysis::audit::AuditOptions::default());
-    assert!(found.worst_train.is_empty() && found.worst_holdout.is_empty());
+    // The misses of implicit feedback: interactions with the lowest scores, lowest first.
+    for (list, holdout) in [(&found.worst_train, false), (&found.worst_holdout, true)] {
+        assert_eq!(list.len(), 20);
+        assert!(list.windows(2).all(|w| w[0].predicted <= w[1].predicted));
+        let floor = list.last().unwrap().predicted;
+        let below = model
+            .ratings
+            .entries
+            .iter()
+            .filter(|e| e.holdout == holdout && e.value > 0.0)
+            .filter(|e| model.factors.predict(e.user, e.item) < floor)
+            .count();
+        assert!(below < 20, "{below}");
+        assert!(list.iter().all(|m| m.actual > 0.0));
+    }
     // Every held-out interaction is relevant.
     let r = found.ranking.as_ref().unwrap();
     let members_with_held_out = {

@@ -50,9 +50,10 @@ pub struct Audit {
     pub categories: Categories,
     /// Neighbour coherence (None without at least two categories).
     pub coherence: Option<Coherence>,
-    /// Largest misses on training ratings.
+    /// Largest misses on training ratings (implicit feedback: the interactions scored
+    /// lowest).
     pub worst_train: Vec<Miss>,
-    /// Largest misses on held-out ratings.
+    /// Largest misses on held-out ratings (implicit feedback: interactions scored lowest).
     pub worst_holdout: Vec<Miss>,
     /// Members and items with fewer training ratings than the rank.
     pub low_support: Vec<Thin>,
@@ -69,22 +70,15 @@ pub struct Audit {
     pub percentile_rank: Option<f64>,
 }
 
-/// Runs every check of an audit on `model`. In an implicit-feedback model there are no
-/// misses to list (scores are preferences, not ratings), every held-out interaction is
-/// relevant, and the expected percentile rank is reported beside the ranking measures.
+/// Runs every check of an audit on `model`. In an implicit-feedback model the misses are
+/// the interactions scored lowest, every held-out interaction is relevant, and the
+/// expected percentile rank is reported beside the ranking measures.
 pub fn audit(model: &Model, options: AuditOptions) -> Audit {
     let categories = Categories::from_meta(model.meta.as_ref(), model.factors.item_count());
     let threshold = options
         .threshold
         .unwrap_or_else(|| default_threshold(model));
     let implicit = model.manifest.implicit.as_ref();
-    let misses = |holdout: bool| {
-        if implicit.is_some() {
-            Vec::new()
-        } else {
-            worst_fits(model, holdout, options.top)
-        }
-    };
     Audit {
         coherence: coherence_sample(
             &model.factors,
@@ -93,8 +87,8 @@ pub fn audit(model: &Model, options: AuditOptions) -> Audit {
             options.metric,
             options.sample,
         ),
-        worst_train: misses(false),
-        worst_holdout: misses(true),
+        worst_train: worst_fits(model, false, options.top),
+        worst_holdout: worst_fits(model, true, options.top),
         low_support: low_support(model),
         norms: [Side::User, Side::Item]
             .into_iter()

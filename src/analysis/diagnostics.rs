@@ -25,13 +25,16 @@ impl Miss {
 }
 
 /// The `n` ratings with the largest `|actual − predicted|`, held-out ones (`holdout`) or
-/// training ones; ties go to the earlier rating (by member, then item).
+/// training ones; ties go to the earlier rating (by member, then item). In a model of
+/// implicit feedback, the `n` interactions (positive counts) with the lowest scores: the
+/// furthest from their preference 1 (`actual` is then the count).
 pub fn worst_fits(model: &Model, holdout: bool, n: usize) -> Vec<Miss> {
+    let implicit = model.implicit().is_some();
     let mut all: Vec<Miss> = model
         .ratings
         .entries
         .iter()
-        .filter(|r| r.holdout == holdout)
+        .filter(|r| r.holdout == holdout && (!implicit || r.value > 0.0))
         .map(|r| Miss {
             user: r.user,
             item: r.item,
@@ -40,11 +43,12 @@ pub fn worst_fits(model: &Model, holdout: bool, n: usize) -> Vec<Miss> {
         })
         .collect();
     let order = |a: &Miss, b: &Miss| {
-        b.residual()
-            .abs()
-            .total_cmp(&a.residual().abs())
-            .then(a.user.cmp(&b.user))
-            .then(a.item.cmp(&b.item))
+        let by_size = if implicit {
+            a.predicted.total_cmp(&b.predicted)
+        } else {
+            b.residual().abs().total_cmp(&a.residual().abs())
+        };
+        by_size.then(a.user.cmp(&b.user)).then(a.item.cmp(&b.item))
     };
     if all.len() > n {
         all.select_nth_unstable_by(n, order);

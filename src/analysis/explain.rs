@@ -87,7 +87,7 @@ impl Posterior {
             Some(confidence) => {
                 let f = &model.factors;
                 Self::implicit(
-                    (&f.items, &crate::model::implicit::gram(&f.items, f.rank)),
+                    (&f.items, model.item_gram()),
                     f.rank,
                     (model.manifest.lambda, confidence),
                     rated,

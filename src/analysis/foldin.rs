@@ -56,7 +56,12 @@ pub fn fold_in(model: &Model, rated: &[(u32, f64)]) -> Result<Folded, FoldInErro
     let m = &model.manifest;
     let f = &model.factors;
     if let Some(confidence) = model.implicit() {
-        let vector = fold_in_implicit(&f.items, f.rank, (m.lambda, confidence), rated)?;
+        let vector = implicit_step(
+            (&f.items, model.item_gram()),
+            f.rank,
+            (m.lambda, confidence),
+            rated,
+        )?;
         return Ok(Folded { vector, bias: 0.0 });
     }
     let ridge = m.lambda * m.sigma2;
@@ -146,11 +151,22 @@ pub fn fold_in_implicit(
     (lambda, confidence): (f64, crate::model::implicit::Confidence),
     rated: &[(u32, f64)],
 ) -> Result<Vec<f64>, FoldInError> {
+    let gram = crate::model::implicit::gram(items, d);
+    implicit_step((items, &gram), d, (lambda, confidence), rated)
+}
+
+/// [`fold_in_implicit`] given `YᵀY` (row-major `d × d`).
+fn implicit_step(
+    (items, gram): (&[f64], &[f64]),
+    d: usize,
+    (lambda, confidence): (f64, crate::model::implicit::Confidence),
+    rated: &[(u32, f64)],
+) -> Result<Vec<f64>, FoldInError> {
     let mut sorted: Vec<(u32, f64)> = rated.iter().copied().filter(|&(_, c)| c > 0.0).collect();
     sorted.sort_by_key(|&(j, _)| j);
     let rows: Vec<u32> = sorted.iter().map(|&(j, _)| j).collect();
     let confidences: Vec<f64> = sorted.iter().map(|&(_, c)| confidence.of(c)).collect();
-    let mut base = crate::model::implicit::gram(items, d);
+    let mut base = gram.to_vec();
     for k in 0..d {
         base[k * d + k] += lambda;
     }

@@ -96,17 +96,24 @@ pub fn fit_metrics(
 
 /// Counts of training residuals `actual − predicted` in `bins` equal bins over
 /// `[-limit, limit]`; residuals outside go to the end bins. Returns (bin centre, count).
+/// With `preferences` (implicit feedback) the residuals are those of the training
+/// interactions' preference 1: `1 − score`.
 pub fn residual_histogram(
     model: &FactorModel,
     ratings: &Ratings,
-    bins: usize,
-    limit: f64,
+    preferences: bool,
+    (bins, limit): (usize, f64),
 ) -> Vec<(f64, u64)> {
     let bins = bins.max(1);
     let width = 2.0 * limit / bins as f64;
     let mut counts = vec![0u64; bins];
-    for r in ratings.entries.iter().filter(|r| !r.holdout) {
-        let residual = r.value - model.predict(r.user, r.item);
+    for r in ratings
+        .entries
+        .iter()
+        .filter(|r| !r.holdout && (!preferences || r.value > 0.0))
+    {
+        let actual = if preferences { 1.0 } else { r.value };
+        let residual = actual - model.predict(r.user, r.item);
         let at = ((residual + limit) / width)
             .floor()
             .clamp(0.0, (bins - 1) as f64) as usize;

@@ -1,19 +1,26 @@
 //! `sextant explore`: the terminal explorer on a model directory.
 
 use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
 
 use clap::Args;
 use sextant::model::{Model, load_model};
 
 use super::UsageError;
-use super::args::ModelArg;
+use super::demo::Demo;
 use crate::tui;
 
 /// Open the terminal explorer.
 #[derive(Debug, Args)]
 pub struct ExploreArgs {
-    #[command(flatten)]
-    model: ModelArg,
+    /// The model directory (made by `sextant fit` or `sextant import`).
+    #[arg(value_name = "MODEL", required_unless_present = "demo")]
+    model: Option<PathBuf>,
+    /// Open a bundled demo model instead: ratings (the default) or implicit (how often the
+    /// same invented members cooked each recipe).
+    #[arg(long, value_enum, value_name = "KIND", num_args = 0..=1,
+          default_missing_value = "ratings", conflicts_with = "model")]
+    demo: Option<Demo>,
     /// Benchmark hook: instead of opening the terminal, time loading, the first frame and
     /// this many further frames (each after a keystroke) on an off-screen 120×40 buffer, and
     /// print the times as JSON.
@@ -26,9 +33,20 @@ pub fn run(args: &ExploreArgs) -> anyhow::Result<()> {
         return measure(args, frames);
     }
     ensure_terminal()?;
-    let (model, notes) = sextant::model::notes::load_with_notes(&args.model.model)?;
-    super::ratings_only(&model, &args.model.model, "explore")?;
-    open(model, args.model.model.display().to_string(), notes)
+    if let Some(demo) = args.demo {
+        let (model, label) = demo.load()?;
+        return open(model, label, sextant::model::notes::Notes::in_memory());
+    }
+    let path = args.path();
+    let (model, notes) = sextant::model::notes::load_with_notes(path)?;
+    open(model, path.display().to_string(), notes)
+}
+
+impl ExploreArgs {
+    /// The model directory (clap requires one unless --demo is given).
+    fn path(&self) -> &Path {
+        self.model.as_deref().unwrap_or(Path::new("."))
+    }
 }
 
 /// True when both standard input and output are terminals.
@@ -89,10 +107,12 @@ fn measure(args: &ExploreArgs, frames: usize) -> anyhow::Result<()> {
     use std::time::Instant;
 
     let start = Instant::now();
-    let model = load_model(&args.model.model)?;
-    super::ratings_only(&model, &args.model.model, "explore")?;
+    let (model, label) = match args.demo {
+        Some(demo) => demo.load()?,
+        None => (load_model(args.path())?, args.path().display().to_string()),
+    };
     let loaded = start.elapsed();
-    let mut app = tui::app::App::new(model, args.model.model.display().to_string());
+    let mut app = tui::app::App::new(model, label);
     let mut terminal = Terminal::new(TestBackend::new(120, 40))?;
     app.update(tui::action::Action::Resize(120, 40));
     let theme = tui::theme::Theme::plain();

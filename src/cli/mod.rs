@@ -129,23 +129,6 @@ pub fn explains_its_source(err: &(dyn std::error::Error + 'static)) -> bool {
 #[error("{0}")]
 pub struct UsageError(pub String);
 
-/// Refuses an implicit-feedback model in a command that does not read one yet, naming the
-/// commands that do.
-pub fn ratings_only(
-    model: &sextant::model::Model,
-    path: &std::path::Path,
-    command: &str,
-) -> Result<(), UsageError> {
-    if model.implicit().is_none() {
-        return Ok(());
-    }
-    Err(UsageError(format!(
-        "{} is a model of implicit feedback (counts, not ratings), which `sextant {command}` \
-         does not read yet; info, suggest, explain, neighbours, audit, fold-in and export do",
-        path.display()
-    )))
-}
-
 /// Maps an error to the documented exit code: 2 for bad usage or bad input, 1 otherwise.
 pub fn exit_code(err: &anyhow::Error) -> u8 {
     for cause in err.chain() {

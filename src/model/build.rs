@@ -88,6 +88,7 @@ fn assemble(
         ratings,
         factors,
         meta: provenance.meta,
+        item_gram: super::store::GramCache::default(),
     })
 }
 

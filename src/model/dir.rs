@@ -294,12 +294,20 @@ fn model_hint(path: &Path) -> String {
         _ => generic,
     };
     models.sort();
-    match models.first() {
-        Some(model) => format!(
+    match models.as_slice() {
+        [] => make,
+        [model] => format!(
             "it holds a model at {}: name that instead, or {make}",
             shown(model)
         ),
-        None => make,
+        several => {
+            let named: Vec<String> = several.iter().take(5).map(|m| shown(m)).collect();
+            format!(
+                "it holds models at {}{}: name one of those instead, or {make}",
+                named.join(" and "),
+                if several.len() > 5 { " and more" } else { "" }
+            )
+        }
     }
 }
 

@@ -31,6 +31,18 @@ pub struct Model {
     pub factors: FactorModel,
     /// Items metadata, indexed like the items.
     pub meta: Option<ItemsMeta>,
+    /// `YᵀY` of the item vectors, computed on first use (implicit-feedback solves).
+    pub(super) item_gram: GramCache,
+}
+
+/// A computed-once `YᵀY`: a cache, so it never makes two models unequal.
+#[derive(Debug, Clone, Default)]
+pub struct GramCache(std::sync::OnceLock<Vec<f64>>);
+
+impl PartialEq for GramCache {
+    fn eq(&self, _: &Self) -> bool {
+        true
+    }
 }
 
 impl Model {
@@ -38,6 +50,15 @@ impl Model {
     /// predictions are preference scores); `None` for a model of ratings.
     pub fn implicit(&self) -> Option<super::implicit::Confidence> {
         self.manifest.implicit.as_ref().map(|i| i.confidence)
+    }
+
+    /// `YᵀY` of the item vectors (row-major `D × D`), computed once: what every
+    /// implicit-feedback member solve starts from. The vectors must not change after the
+    /// first call.
+    pub fn item_gram(&self) -> &[f64] {
+        self.item_gram
+            .0
+            .get_or_init(|| super::implicit::gram(&self.factors.items, self.factors.rank))
     }
 
     /// A prediction rounded onto the rating scale; `None` in an implicit-feedback model,
@@ -250,6 +271,7 @@ pub fn load_model_from(source: &dyn ModelSource) -> Result<Model, DataError> {
         ratings,
         factors,
         meta,
+        item_gram: GramCache::default(),
     })
 }
 

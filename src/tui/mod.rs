@@ -175,10 +175,16 @@ fn render_header(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             Span::raw(text)
         });
     }
-    let holdout = m.metrics.as_ref().and_then(|f| f.holdout).map_or_else(
-        || "no held-out ratings".to_owned(),
-        |h| format!("held-out RMSE {:.3}", h.rmse),
-    );
+    let holdout = match &m.implicit {
+        Some(implicit) => implicit.holdout_percentile_rank.map_or_else(
+            || "no held-out interactions".to_owned(),
+            |p| format!("held-out rank {:.1}%", 100.0 * p),
+        ),
+        None => m.metrics.as_ref().and_then(|f| f.holdout).map_or_else(
+            || "no held-out ratings".to_owned(),
+            |h| format!("held-out RMSE {:.3}", h.rmse),
+        ),
+    };
     // (text, importance): shown in display order, chosen by importance.
     let facts = [
         (sextant::text::escaped(&app.shared.label).into_owned(), 4),

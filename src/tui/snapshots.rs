@@ -13,12 +13,16 @@ use ratatui::backend::TestBackend;
 use ratatui::crossterm::event::KeyCode;
 
 use super::app::App;
-use super::tests::{demo_app, press, screen, type_text};
+use super::tests::{demo_app, implicit_app, press, screen, type_text};
 use super::theme::Theme;
 
-/// The demo with each screen in a state worth looking at.
+/// The demo with each screen in a state worth looking at; `implicit-VIEW` is the same
+/// view of the implicit-feedback demo.
 fn on(name: &str) -> App {
-    let mut app = demo_app();
+    let (mut app, name) = match name.strip_prefix("implicit-") {
+        Some(view) => (implicit_app(), view),
+        None => (demo_app(), name),
+    };
     match name {
         "items" => {
             press(&mut app, KeyCode::Char('/'));
@@ -57,7 +61,7 @@ fn on(name: &str) -> App {
     app
 }
 
-const VIEWS: [&str; 10] = [
+const VIEWS: [&str; 15] = [
     "items",
     "loadings",
     "member",
@@ -68,6 +72,11 @@ const VIEWS: [&str; 10] = [
     "audit",
     "audit-misses",
     "help",
+    "implicit-member",
+    "implicit-why",
+    "implicit-what-if",
+    "implicit-fit",
+    "implicit-audit-misses",
 ];
 
 fn drawn(app: &mut App, width: u16, height: u16) -> TestBackend {

@@ -21,6 +21,15 @@ pub(super) fn demo_app() -> App {
     )
 }
 
+/// The implicit-feedback demo: how often the same members cooked each recipe.
+pub(super) fn implicit_app() -> App {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/implicit-model");
+    App::new(
+        sextant::model::load_model(&dir).expect("implicit demo model loads"),
+        "cooked",
+    )
+}
+
 pub(super) fn press(app: &mut App, code: KeyCode) {
     handle_key(app, KeyEvent::new(code, KeyModifiers::NONE));
 }

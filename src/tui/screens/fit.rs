@@ -26,7 +26,11 @@ impl App {
             && self.screens.fit.histogram.is_empty()
         {
             let m = &self.shared.model;
-            self.screens.fit.histogram = residual_histogram(&m.factors, &m.ratings, 21, 3.0);
+            self.screens.fit.histogram = if m.implicit().is_some() {
+                residual_histogram(&m.factors, &m.ratings, true, (21, 1.5))
+            } else {
+                residual_histogram(&m.factors, &m.ratings, false, (21, 3.0))
+            };
         }
     }
 }

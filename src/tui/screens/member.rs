@@ -84,8 +84,9 @@ pub struct RatedRow {
     pub actual: f64,
     /// The raw prediction.
     pub predicted: f64,
-    /// The prediction on the scale.
-    pub rounded: f64,
+    /// The prediction on the scale (`None` for implicit feedback, whose predictions are
+    /// scores).
+    pub rounded: Option<f64>,
     /// `actual − predicted`.
     pub residual: f64,
     /// True for a held-out rating.
@@ -145,7 +146,7 @@ impl MemberView {
                     item: r.item,
                     actual: r.value,
                     predicted,
-                    rounded: model.manifest.scale.round(predicted),
+                    rounded: model.round(predicted),
                     residual: r.value - predicted,
                     holdout: r.holdout,
                 }
@@ -188,9 +189,13 @@ impl MemberView {
         }
     }
 
-    /// Orders the ratings (by |residual| or by title) and highlights the first.
+    /// Orders the ratings (by |residual| — for implicit feedback, most chosen first — or by
+    /// title) and highlights the first.
     pub fn sort(&mut self, shared: &Shared) {
-        if self.by_residual {
+        if self.by_residual && shared.model.implicit().is_some() {
+            self.rated
+                .sort_by(|a, b| b.actual.total_cmp(&a.actual).then(a.item.cmp(&b.item)));
+        } else if self.by_residual {
             self.rated.sort_by(|a, b| {
                 b.residual
                     .abs()

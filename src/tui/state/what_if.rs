@@ -48,6 +48,20 @@ pub fn step(scale: &RatingScale, value: f64, up: bool) -> f64 {
     }
 }
 
+/// One step up or down from `value` for `model`: along its rating scale, or for implicit
+/// feedback one count more or fewer (never below 1: removing an item is `d`).
+fn step_value(model: &sextant::model::Model, value: f64, up: bool) -> f64 {
+    if model.implicit().is_some() {
+        if up {
+            value + 1.0
+        } else {
+            (value - 1.0).max(1.0)
+        }
+    } else {
+        step(&model.manifest.scale, value, up)
+    }
+}
+
 /// Folds the profile of `view` in again and rebuilds its rows, suggestions and
 /// explanation, keeping `keep` highlighted when given.
 fn refresh(view: &mut MemberView, shared: &Shared, keep: Option<u32>) {
@@ -64,7 +78,6 @@ fn refresh(view: &mut MemberView, shared: &Shared, keep: Option<u32>) {
             Some(e.to_string()),
         ),
     };
-    let scale = &model.manifest.scale;
     view.rated = w
         .ratings
         .iter()
@@ -74,7 +87,7 @@ fn refresh(view: &mut MemberView, shared: &Shared, keep: Option<u32>) {
                 item,
                 actual,
                 predicted,
-                rounded: scale.round(predicted),
+                rounded: model.round(predicted),
                 residual: actual - predicted,
                 holdout: false,
             }
@@ -130,9 +143,14 @@ impl App {
             .unwrap_or_default();
         self.start_what_if(origin, ratings);
         self.shown = ScreenId::Member;
-        self.status =
-            "what-if: a adds a suggestion, < > change the highlighted rating, d removes it, w leaves"
-                .into();
+        let value = if self.shared.model.implicit().is_some() {
+            "count"
+        } else {
+            "rating"
+        };
+        self.status = format!(
+            "what-if: a adds a suggestion, < > change the highlighted {value}, d removes it, w leaves"
+        );
     }
 
     fn start_what_if(&mut self, origin: Option<u32>, ratings: Vec<(u32, f64)>) {
@@ -169,11 +187,11 @@ impl App {
             self.status = format!("{title} is already in the what-if profile");
             return;
         }
+        // A rating at the profile's own prediction; one interaction for implicit feedback.
         let value = shared
             .model
-            .manifest
-            .scale
-            .round(shared.model.factors.predict_for(&w.vector, w.bias, item));
+            .round(shared.model.factors.predict_for(&w.vector, w.bias, item))
+            .unwrap_or(1.0);
         w.ratings.push((item, value));
         let count = w.ratings.len();
         refresh(view, shared, Some(item));
@@ -208,7 +226,7 @@ impl App {
         if let Some(w) = &mut view.what_if
             && let Some(r) = w.ratings.iter_mut().find(|(j, _)| *j == item)
         {
-            r.1 = step(&shared.model.manifest.scale, r.1, up);
+            r.1 = step_value(&shared.model, r.1, up);
         }
         refresh(view, shared, Some(item));
     }

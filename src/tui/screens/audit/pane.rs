@@ -137,19 +137,18 @@ fn render_misses(
     hint: &str,
 ) {
     let focused = a.focus == MISSES;
+    let implicit = app.shared.model.implicit().is_some();
     let which = if a.worst_held_out {
         "held-out"
     } else {
         "training"
     };
-    frame.render_widget(
-        framed(
-            format!(" Largest misses · {which} ratings {hint}"),
-            focused,
-            theme,
-        ),
-        area,
-    );
+    let title = if implicit {
+        format!(" Lowest scores · {which} interactions {hint}")
+    } else {
+        format!(" Largest misses · {which} ratings {hint}")
+    };
+    frame.render_widget(framed(title, focused, theme), area);
     let body = inner(area);
     let width = body.width as usize;
     let users = &app.shared.model.ratings.users;
@@ -160,27 +159,45 @@ fn render_misses(
         .max()
         .unwrap_or(6)
         .max(6);
-    let mut lines = vec![Line::styled(
+    let header = if implicit {
+        format!(
+            "{:>6} {:>6}  {:<id_width$}  item",
+            "count", "score", "member"
+        )
+    } else {
         format!(
             "{:>6} {:>6} {:>7}  {:<id_width$}  item",
             "rated", "pred", "resid", "member"
-        ),
-        theme.muted(),
-    )];
+        )
+    };
+    let mut lines = vec![Line::styled(header, theme.muted())];
     let height = list_rows(MISSES, body.height);
     let start = window_start(a.selected[MISSES], a.worst.len(), height);
     for (k, m) in a.worst.iter().enumerate().skip(start).take(height) {
-        let text = format!(
-            "{:>6} {:>6.2} {:>+7.2}  {:<id_width$}  {}",
-            m.actual,
-            m.predicted,
-            m.residual(),
-            sextant::text::escaped(users.name(m.user)),
-            fit(app.title(m.item), width.saturating_sub(25 + id_width))
-        );
+        let member = sextant::text::escaped(users.name(m.user));
+        let text = if implicit {
+            format!(
+                "{:>6} {:>6.2}  {member:<id_width$}  {}",
+                m.actual,
+                m.predicted,
+                fit(app.title(m.item), width.saturating_sub(17 + id_width))
+            )
+        } else {
+            format!(
+                "{:>6} {:>6.2} {:>+7.2}  {member:<id_width$}  {}",
+                m.actual,
+                m.predicted,
+                m.residual(),
+                fit(app.title(m.item), width.saturating_sub(25 + id_width))
+            )
+        };
         lines.push(text_row(text, focused && k == a.selected[MISSES], theme));
     }
     frame.render_widget(Paragraph::new(lines), body);
+}
+
+fn implicit_model(app: &App) -> bool {
+    app.shared.model.implicit().is_some()
 }
 
 fn render_vectors(
@@ -205,8 +222,14 @@ fn render_vectors(
     // One line each, so no number is cut: support, then each side's lengths.
     let mut lines = vec![Line::raw(fit(
         &format!(
-            "thin (< rank ratings): {} members, {} items",
-            a.thin.0, a.thin.1
+            "thin (< rank {}): {} members, {} items",
+            if implicit_model(app) {
+                "interactions"
+            } else {
+                "ratings"
+            },
+            a.thin.0,
+            a.thin.1
         ),
         width,
     ))];

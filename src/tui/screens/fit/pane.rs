@@ -58,9 +58,147 @@ fn per_iteration<'a>(
         )
 }
 
+/// Convergence: how far each iteration's objective (`(iteration, value)` pairs) is from
+/// the last one, on a log scale, so the approach stays visible after the first big step.
+fn render_gaps(
+    frame: &mut Frame<'_>,
+    area: Rect,
+    values: &[(usize, f64)],
+    title: &str,
+    theme: Theme,
+) {
+    let last = values.last().map_or(0.0, |r| r.1);
+    let gaps: Vec<(f64, f64)> = values
+        .iter()
+        .filter(|r| r.1 != last)
+        .map(|&(iter, v)| (iter as f64, (last - v).abs().log10()))
+        .collect();
+    let yb = bounds(gaps.iter().map(|p| p.1));
+    let chart = per_iteration(
+        vec![line(&gaps, theme.positive())],
+        title,
+        values.len(),
+        yb,
+        [format!("1e{:.0}", yb[0]), format!("1e{:.0}", yb[1])],
+        theme,
+    );
+    frame.render_widget(chart, area);
+}
+
+/// The fit screen of an implicit-feedback model: the loss's approach to its final value,
+/// the held-out ranking and the confidence rule, and the training interactions' misses
+/// from their preference 1.
+fn render_implicit(
+    app: &App,
+    frame: &mut Frame<'_>,
+    area: Rect,
+    implicit: &sextant::model::manifest::ImplicitFit,
+    theme: Theme,
+) {
+    let m = &app.shared.model.manifest;
+    let [top, bottom] =
+        Layout::vertical([Constraint::Percentage(55), Constraint::Percentage(45)]).areas(area);
+    let [metrics_area, histogram_area] =
+        Layout::horizontal([Constraint::Min(51), Constraint::Percentage(50)]).areas(bottom);
+    if implicit.trace.is_empty() {
+        frame.render_widget(
+            Paragraph::new("imported model: no fitting trace").block(framed(
+                " Loss ".into(),
+                false,
+                theme,
+            )),
+            top,
+        );
+    } else {
+        let values: Vec<(usize, f64)> = implicit.trace.iter().map(|r| (r.iter, r.loss)).collect();
+        render_gaps(frame, top, &values, " Loss: gap to the final (log) ", theme);
+    }
+    let ranked = implicit.holdout_percentile_rank.map_or_else(
+        || "no held-out interactions to rank".to_owned(),
+        |p| format!("held-out expected percentile rank {:.2}%", 100.0 * p),
+    );
+    let state = if implicit.trace.is_empty() {
+        "imported: no fitting trace".to_owned()
+    } else {
+        format!(
+            "{} iterations, {}",
+            implicit.trace.len(),
+            if m.converged {
+                "converged"
+            } else {
+                "NOT converged (raise --max-iters)"
+            }
+        )
+    };
+    let lines = vec![
+        Line::styled(ranked, theme.title()),
+        Line::styled(
+            "  0% = every held-out item first; 50% = random",
+            theme.muted(),
+        ),
+        Line::styled(
+            state,
+            if m.converged || implicit.trace.is_empty() {
+                Style::new()
+            } else {
+                theme.warning()
+            },
+        ),
+        Line::raw(format!("rank {} · λ {}", m.rank, m.lambda)),
+        Line::raw(format!("confidence {}", implicit.confidence.describe())),
+        Line::styled("scores are preferences, not ratings", theme.muted()),
+    ];
+    frame.render_widget(
+        Paragraph::new(lines).block(framed(" Held-out ranking ".into(), false, theme)),
+        metrics_area,
+    );
+    render_histogram(
+        app,
+        frame,
+        histogram_area,
+        " 1 − score, chosen items, ±1.5 ",
+        theme,
+    );
+}
+
+/// The residual histogram of the fit screen's state.
+fn render_histogram(app: &App, frame: &mut Frame<'_>, area: Rect, title: &str, theme: Theme) {
+    let bars: Vec<Bar<'_>> = app
+        .screens
+        .fit
+        .histogram
+        .iter()
+        .map(|&(centre, count)| {
+            Bar::default()
+                .value(count)
+                .text_value(String::new())
+                .label(Line::raw(if centre.abs() < 1e-9 {
+                    "0".to_owned()
+                } else {
+                    String::new()
+                }))
+        })
+        .collect();
+    let inner_width = inner(area).width as usize;
+    let bar_width = (inner_width / app.screens.fit.histogram.len().max(1))
+        .saturating_sub(1)
+        .max(1) as u16;
+    let chart = BarChart::default()
+        .block(framed(title.to_owned(), false, theme))
+        .data(BarGroup::default().bars(&bars))
+        .bar_width(bar_width)
+        .bar_gap(1)
+        .bar_style(theme.category());
+    frame.render_widget(chart, area);
+}
+
 /// Draws the fit screen.
 pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let m = &app.shared.model.manifest;
+    if let Some(implicit) = &m.implicit {
+        render_implicit(app, frame, area, implicit, theme);
+        return;
+    }
     let [top, bottom] =
         Layout::vertical([Constraint::Percentage(55), Constraint::Percentage(45)]).areas(area);
     let [l_area, rmse_area] =
@@ -81,24 +219,14 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
             rmse_area,
         );
     } else {
-        // Convergence: how far each iteration's log joint likelihood is from the last one,
-        // on a log scale, so the approach stays visible after the first big step.
-        let last = trace.last().map_or(0.0, |r| r.log_joint);
-        let gaps: Vec<(f64, f64)> = trace
-            .iter()
-            .filter(|r| r.log_joint != last)
-            .map(|r| (r.iter as f64, (last - r.log_joint).abs().log10()))
-            .collect();
-        let yb = bounds(gaps.iter().map(|p| p.1));
-        let chart = per_iteration(
-            vec![line(&gaps, theme.positive())],
+        let values: Vec<(usize, f64)> = trace.iter().map(|r| (r.iter, r.log_joint)).collect();
+        render_gaps(
+            frame,
+            l_area,
+            &values,
             " Log joint: gap to the final (log) ",
-            trace.len(),
-            yb,
-            [format!("1e{:.0}", yb[0]), format!("1e{:.0}", yb[1])],
             theme,
         );
-        frame.render_widget(chart, l_area);
         let train: Vec<(f64, f64)> = trace
             .iter()
             .map(|r| (r.iter as f64, r.train_rmse))
@@ -208,35 +336,11 @@ pub fn render(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
         metrics_area,
     );
 
-    let bars: Vec<Bar<'_>> = app
-        .screens
-        .fit
-        .histogram
-        .iter()
-        .map(|&(centre, count)| {
-            Bar::default()
-                .value(count)
-                .text_value(String::new())
-                .label(Line::raw(if centre.abs() < 1e-9 {
-                    "0".to_owned()
-                } else {
-                    String::new()
-                }))
-        })
-        .collect();
-    let inner_width = inner(histogram_area).width as usize;
-    let bar_width = (inner_width / app.screens.fit.histogram.len().max(1))
-        .saturating_sub(1)
-        .max(1) as u16;
-    let chart = BarChart::default()
-        .block(framed(
-            " Training residuals, actual − predicted, −3 … +3 ".into(),
-            false,
-            theme,
-        ))
-        .data(BarGroup::default().bars(&bars))
-        .bar_width(bar_width)
-        .bar_gap(1)
-        .bar_style(theme.category());
-    frame.render_widget(chart, histogram_area);
+    render_histogram(
+        app,
+        frame,
+        histogram_area,
+        " Training residuals, actual − predicted, −3 … +3 ",
+        theme,
+    );
 }

@@ -75,19 +75,21 @@ fn render_empty(app: &App, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
 
 fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let users = &app.shared.model.ratings.users;
+    let implicit = app.shared.model.implicit().is_some();
     let train = m.rated.iter().filter(|r| !r.holdout).count();
-    let order = if m.by_residual {
-        "largest misses first"
-    } else {
-        "by title"
+    let order = match (m.by_residual, implicit) {
+        (true, false) => "largest misses first",
+        (true, true) => "most chosen first",
+        (false, _) => "by title",
     };
+    let what = if implicit { "items" } else { "ratings" };
     let title = match (&m.what_if, m.user) {
         (Some(_), Some(u)) => format!(
-            " What-if from member {} · {} ratings ",
+            " What-if from member {} · {} {what} ",
             users.name(u),
             m.rated.len()
         ),
-        (Some(_), None) => format!(" What-if · new profile · {} ratings ", m.rated.len()),
+        (Some(_), None) => format!(" What-if · new profile · {} {what} ", m.rated.len()),
         (None, Some(u)) => format!(
             " Member {} · {train} training + {} held out · {order} ",
             users.name(u),
@@ -138,13 +140,15 @@ fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, 
     }
     let width = body.width as usize;
     let height = (body.height as usize).saturating_sub(1);
-    let mut lines = vec![Line::styled(
+    let header = if implicit {
+        format!("{:>6} {:>6}  item  (* held out)", "count", "score")
+    } else {
         format!(
             "{:>6} {:>6} {:>4} {:>7}  item  (* held out)",
             "rated", "pred", "rnd", "resid"
-        ),
-        theme.muted(),
-    )];
+        )
+    };
+    let mut lines = vec![Line::styled(header, theme.muted())];
     let start = window_start(m.rated_selected, m.rated.len(), height);
     for (k, r) in m.rated.iter().enumerate().skip(start).take(height) {
         let mark = if r.holdout {
@@ -154,14 +158,21 @@ fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, 
         } else {
             " "
         };
-        let text = format!(
-            "{:>6} {:>6.2} {:>4} {:>+7.2}{mark} {}",
-            r.actual,
-            r.predicted,
-            r.rounded,
-            r.residual,
-            fit(app.title(r.item), width.saturating_sub(29))
-        );
+        let text = match r.rounded {
+            Some(rounded) => format!(
+                "{:>6} {:>6.2} {rounded:>4} {:>+7.2}{mark} {}",
+                r.actual,
+                r.predicted,
+                r.residual,
+                fit(app.title(r.item), width.saturating_sub(29))
+            ),
+            None => format!(
+                "{:>6} {:>6.2}{mark} {}",
+                r.actual,
+                r.predicted,
+                fit(app.title(r.item), width.saturating_sub(15))
+            ),
+        };
         let highlighted = k == m.rated_selected && m.explained_list == MemberPane::Ratings;
         lines.push(text_row(text, highlighted, theme));
     }
@@ -170,32 +181,42 @@ fn render_ratings(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, 
 
 fn render_suggestions(app: &App, m: &MemberView, frame: &mut Frame<'_>, area: Rect, theme: Theme) {
     let focused = m.focus == MemberPane::Suggestions;
-    frame.render_widget(
-        framed(
-            " Suggestions · unrated, highest predicted first ".into(),
-            focused,
-            theme,
-        ),
-        area,
-    );
+    let implicit = app.shared.model.implicit().is_some();
+    let title = if implicit {
+        " Suggestions · not chosen, highest score first "
+    } else {
+        " Suggestions · unrated, highest predicted first "
+    };
+    frame.render_widget(framed(title.into(), focused, theme), area);
     let body = inner(area);
     let height = (body.height as usize).saturating_sub(1);
-    let mut lines = vec![Line::styled(
-        format!("{:>3} {:>6} {:>5}  item", "#", "pred", "± sd"),
-        theme.muted(),
-    )];
+    let header = if implicit {
+        format!("{:>3} {:>6}  item", "#", "score")
+    } else {
+        format!("{:>3} {:>6} {:>5}  item", "#", "pred", "± sd")
+    };
+    let mut lines = vec![Line::styled(header, theme.muted())];
     let start = window_start(m.suggestion_selected, m.suggestions.len(), height);
     for (k, s) in m.suggestions.iter().enumerate().skip(start).take(height) {
         let sd = s
             .predictive_sd
             .map_or_else(|| "–".to_owned(), |v| format!("{v:.2}"));
         let mark = if app.has_note(s.item) { "✎" } else { " " };
-        let text = format!(
-            "{:>3} {:>6.2} {sd:>5} {mark}{}",
-            s.rank,
-            s.predicted,
-            fit(app.title(s.item), (body.width as usize).saturating_sub(19))
-        );
+        let text = if implicit {
+            format!(
+                "{:>3} {:>6.2} {mark}{}",
+                s.rank,
+                s.predicted,
+                fit(app.title(s.item), (body.width as usize).saturating_sub(13))
+            )
+        } else {
+            format!(
+                "{:>3} {:>6.2} {sd:>5} {mark}{}",
+                s.rank,
+                s.predicted,
+                fit(app.title(s.item), (body.width as usize).saturating_sub(19))
+            )
+        };
         let highlighted = k == m.suggestion_selected && m.explained_list == MemberPane::Suggestions;
         lines.push(text_row(text, highlighted, theme));
     }
@@ -237,31 +258,45 @@ fn by_rating_lines(e: &Explanation) -> usize {
 /// sum, the member's own ratings that moved it most (or, when that decomposition is not
 /// determined, their nearest rated items), and the support.
 pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<Line<'static>> {
-    let sd = e
-        .predictive_sd
-        .map_or_else(|| "undetermined".to_owned(), |v| format!("± {v:.2}"));
-    let actual = e
-        .actual
-        .map_or_else(|| "not rated".to_owned(), |a| format!("rated {a}"));
-    let mut lines = vec![
-        Line::styled(fit(app.title(e.item), width), theme.title()),
-        Line::raw(fit(
+    let implicit = app.shared.model.implicit().is_some();
+    let mut lines = vec![Line::styled(fit(app.title(e.item), width), theme.title())];
+    if implicit {
+        let actual = e.actual.filter(|&a| a > 0.0).map_or_else(
+            || "not chosen".to_owned(),
+            |a| format!("chosen {a} time(s)"),
+        );
+        lines.push(Line::raw(fit(
+            &format!("score {:.3}; {actual}", e.predicted),
+            width,
+        )));
+        lines.push(Line::styled(
+            fit("  a preference: near 1 likely, near 0 not", width),
+            theme.muted(),
+        ));
+    } else {
+        let sd = e
+            .predictive_sd
+            .map_or_else(|| "undetermined".to_owned(), |v| format!("± {v:.2}"));
+        let actual = e
+            .actual
+            .map_or_else(|| "not rated".to_owned(), |a| format!("rated {a}"));
+        lines.push(Line::raw(fit(
             &format!(
                 "predicted {:.3} → {} ({sd}); {actual}",
                 e.predicted,
                 e.rounded.map_or_else(String::new, |r| r.to_string())
             ),
             width,
-        )),
-        Line::raw(fit(
+        )));
+        lines.push(Line::raw(fit(
             &format!(
                 "  {:+8.3}  {}",
                 e.mu,
                 app.shared.model.manifest.center.mu_label()
             ),
             width,
-        )),
-    ];
+        )));
+    }
     if let Some((b, c)) = offsets(e) {
         for (value, what) in [(b, "the member's offset"), (c, "the item's offset")] {
             lines.push(Line::raw(fit(&format!("  {value:+8.3}  {what}"), width)));
@@ -280,12 +315,12 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
     lines.push(Line::styled(
         fit(
             &format!(
-                "= {:+8.3}  the prediction ({})",
+                "= {:+8.3}  the {}",
                 e.predicted,
-                if offsets(e).is_some() {
-                    "μ + offsets + factors"
-                } else {
-                    "μ plus every factor"
+                match (implicit, offsets(e).is_some()) {
+                    (true, _) => "score (every factor)",
+                    (false, true) => "prediction (μ + offsets + factors)",
+                    (false, false) => "prediction (μ plus every factor)",
                 }
             ),
             width,
@@ -298,14 +333,22 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
         } else {
             String::new()
         };
+        let (theirs, rated) = if implicit {
+            ("choices", "×")
+        } else {
+            ("ratings", "rated ")
+        };
         lines.push(Line::styled(
-            fit(&format!("their ratings that moved it most{behind}:"), width),
+            fit(
+                &format!("their {theirs} that moved it most{behind}:"),
+                width,
+            ),
             theme.muted(),
         ));
         for s in b.shares.iter().take(SHARES_SHOWN) {
             lines.push(Line::raw(fit(
                 &format!(
-                    "  {:+8.3}  rated {} · {}",
+                    "  {:+8.3}  {rated}{} · {}",
                     s.share,
                     s.rating,
                     app.title(s.item)
@@ -317,13 +360,15 @@ pub fn why_lines(app: &App, e: &Explanation, width: usize, theme: Theme) -> Vec<
     // The nearest rated items answer the same question less exactly: shown only when the
     // decomposition by rating is not determined.
     if !e.evidence.is_empty() && e.by_rating.is_none() {
-        lines.push(Line::styled(
-            "their own nearest rated items:",
-            theme.muted(),
-        ));
+        let (heading, rated) = if implicit {
+            ("their own nearest chosen items:", "×")
+        } else {
+            ("their own nearest rated items:", "rated ")
+        };
+        lines.push(Line::styled(heading, theme.muted()));
         for x in &e.evidence {
             lines.push(Line::raw(format!(
-                "  rated {} · {}",
+                "  {rated}{} · {}",
                 x.actual,
                 fit(app.title(x.item), width.saturating_sub(12))
             )));
