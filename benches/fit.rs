@@ -175,6 +175,7 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
     let mut times = Vec::new();
     let mut biased_times = Vec::new();
     let mut split = (0.0, 0.0);
+    let mut biased_split = (0.0, 0.0);
     for _ in 0..reps {
         let start = Instant::now();
         fitter.update_users().expect("users");
@@ -185,14 +186,17 @@ fn measure(ratings: &Ratings, rank: usize, reps: usize, dir: &Path, rust_only: b
         split.1 += middle.elapsed().as_secs_f64() / reps as f64;
         let start = Instant::now();
         biased_fitter.update_users().expect("users");
+        let middle = Instant::now();
         biased_fitter.update_items().expect("items");
         biased_times.push(start.elapsed().as_secs_f64());
+        biased_split.0 += (middle - start).as_secs_f64() / reps as f64;
+        biased_split.1 += middle.elapsed().as_secs_f64() / reps as f64;
     }
     let biased = median(biased_times);
     if rust_only {
         eprintln!(
-            "rank {rank}: users {:.4} s, items {:.4} s (means)",
-            split.0, split.1
+            "rank {rank}: users {:.4} s, items {:.4} s (means); with biases {:.4} s, {:.4} s",
+            split.0, split.1, biased_split.0, biased_split.1
         );
     }
     if rust_only {

@@ -7,8 +7,8 @@
 //! Buffers are reused across solves; one workspace per thread.
 
 use super::kernels::{
-    BATCH, COLUMN_BLOCK, LaneVector, Scratch, TILE, cholesky_solve, gram_rhs_and_sums_direct,
-    interleave, normal_equations, round_up, scaled_normal_equations,
+    BATCH, COLUMN_BLOCK, LaneVector, Scratch, TILE, cholesky_solve, interleave, normal_equations,
+    normal_equations_with_offsets, round_up, scaled_normal_equations,
 };
 
 /// Reusable buffers for ridge solves of a fixed rank.
@@ -32,7 +32,7 @@ pub struct RidgeWorkspace {
     /// For weighted problems: each row's scale `√(c − 1)` and target `c/√(c − 1)`.
     scales: Vec<f64>,
     scaled_targets: Vec<f64>,
-    /// For problems with an offset: the targets less the rows' known offsets.
+    /// For problems with an offset (wider ranks): the targets less the rows' known offsets.
     adjusted: Vec<f64>,
 }
 
@@ -281,49 +281,41 @@ impl RidgeWorkspace {
     ) {
         let (d, s) = (self.rank, self.stride);
         debug_assert!(rows.len() >= targets.len());
-        // The rows' known offsets come off the targets here, while both are in cache.
-        let targets = match offset {
-            Some((_, known)) => {
-                self.adjusted.clear();
-                self.adjusted.extend(
-                    targets
-                        .iter()
-                        .zip(rows)
-                        .map(|(&y, &r)| y - known[r as usize]),
-                );
-                &self.adjusted[..]
-            }
-            None => targets,
-        };
         let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
-        // With an offset, the rows' sum comes from the Gram kernel's own pass where one
-        // exists (a second pass over the rows costs as much again at low ranks).
-        let summed = offset.is_some()
-            && gram_rhs_and_sums_direct(table, d, rows, targets, gram, rhs, &mut self.sums[lane]);
-        if !summed {
+        let Some((offset_ridge, known)) = offset else {
             normal_equations(table, d, rows, targets, &mut self.scratch, gram, rhs);
-        }
-        if let Some((offset_ridge, _)) = offset {
-            let n = targets.len();
-            let sum = &mut self.sums[lane];
-            if !summed {
-                row_sums(table, d, &rows[..n], sum);
+            for k in 0..d {
+                gram[k * s + k] += ridge;
             }
-            let total: f64 = targets.iter().sum();
-            let den = n as f64 + offset_ridge;
-            self.totals[lane] = total;
-            self.denominators[lane] = den;
-            if den > 0.0 {
-                // The Schur complement of the offset's row and column.
-                for i in 0..d {
-                    let scaled = sum[i] / den;
-                    // Slices, not indices, so the row update is one vector loop.
-                    let row = &mut gram[i * s + i..i * s + d];
-                    for (g, &sj) in row.iter_mut().zip(&sum[i..d]) {
-                        *g -= scaled * sj;
-                    }
-                    rhs[i] -= scaled * total;
+            return;
+        };
+        // The rows' known offsets come off the targets, and the rows and targets are summed,
+        // in the pass that builds the normal equations.
+        let sum = &mut self.sums[lane];
+        let total = normal_equations_with_offsets(
+            table,
+            d,
+            (rows, targets, known),
+            &mut self.scratch,
+            &mut self.adjusted,
+            gram,
+            rhs,
+            sum,
+        );
+        let n = targets.len();
+        let den = n as f64 + offset_ridge;
+        self.totals[lane] = total;
+        self.denominators[lane] = den;
+        if den > 0.0 {
+            // The Schur complement of the offset's row and column.
+            for i in 0..d {
+                let scaled = sum[i] / den;
+                // Slices, not indices, so the row update is one vector loop.
+                let row = &mut gram[i * s + i..i * s + d];
+                for (g, &sj) in row.iter_mut().zip(&sum[i..d]) {
+                    *g -= scaled * sj;
                 }
+                rhs[i] -= scaled * total;
             }
         }
         for k in 0..d {
@@ -340,24 +332,6 @@ impl RidgeWorkspace {
                 gram[i * s + j] = if i == j { 1.0 } else { 0.0 };
             }
             rhs[i] = 0.0;
-        }
-    }
-}
-
-/// `sum = Σ_k table[rows[k]]` (rows of width `d`), each column one chain of additions in
-/// row order — the order the direct kernels use, so a fit with biases has the same bits
-/// whichever kernel built its sums. Every column of a row is added at once, so the chains
-/// of different columns overlap. The rows were just read by the Gram kernel and are in
-/// cache.
-fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
-    let sum = &mut sum[..d];
-    sum.fill(0.0);
-    for &r in rows {
-        for (s, &x) in sum
-            .iter_mut()
-            .zip(&table[r as usize * d..r as usize * d + d])
-        {
-            *s += x;
         }
     }
 }
@@ -415,26 +389,6 @@ mod tests {
             &mut b,
         );
         assert!(!ok[0], "{w:?} {b:?}");
-    }
-
-    #[test]
-    fn row_sums_have_the_same_bits_from_every_kernel() {
-        // The direct kernels' sums (from the padding column, or accumulators of their own)
-        // and the fallback pass add in the same order.
-        let mut rng = crate::rng::Rng::new(5);
-        for d in 1..=16 {
-            let table: Vec<f64> = (0..40 * d).map(|_| rng.normal() * 1e3).collect();
-            let rows: Vec<u32> = (0..23).map(|_| rng.below(40) as u32).collect();
-            let y: Vec<f64> = rows.iter().map(|_| rng.normal()).collect();
-            let s = round_up(d, TILE);
-            let (mut gram, mut rhs, mut direct) = (vec![0.0; s * s], vec![0.0; s], vec![0.0; d]);
-            if gram_rhs_and_sums_direct(&table, d, &rows, &y, &mut gram, &mut rhs, &mut direct) {
-                let mut pass = vec![0.0; d];
-                row_sums(&table, d, &rows, &mut pass);
-                let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
-                assert_eq!(bits(&direct), bits(&pass), "rank {d}");
-            }
-        }
     }
 
     #[test]

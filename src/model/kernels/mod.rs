@@ -387,30 +387,30 @@ fn direct<const D: usize, const S: usize>(
     gram: &mut [f64],
     rhs: &mut [f64],
 ) {
-    direct_and_sums::<D, S, false>(table, rows, y, gram, rhs, &mut []);
+    direct_and_sums::<D, S, false>(table, (rows, y, &[]), gram, rhs, &mut []);
 }
 
-/// [`gram_and_rhs_direct`] that also writes `sums[..d] = Σ_k x_k` (the rows' sum, which a
-/// solve with a free offset needs), accumulated in registers in the same pass. Returns
-/// false, writing nothing, where no such kernel exists (ranks above 12, and the 512-bit
-/// builds for now): the caller then sums the rows itself.
-pub fn gram_rhs_and_sums_direct(
+/// [`gram_and_rhs_direct`] for a problem with a free offset, in the same pass: the targets
+/// are `y_k − known[rows[k]]` (the rows' known offsets taken off as each row is read), and
+/// it writes `sums[..d] = Σ_k x_k` and returns `Σ_k (y_k − known[rows[k]])`, every sum in
+/// row order. `None`, writing nothing, where no such kernel exists (ranks above 12, and
+/// the 512-bit builds for now).
+fn gram_rhs_and_sums_direct(
     table: &[f64],
     d: usize,
-    rows: &[u32],
-    y: &[f64],
+    (rows, y, known): (&[u32], &[f64], &[f64]),
     gram: &mut [f64],
     rhs: &mut [f64],
     sums: &mut [f64],
-) -> bool {
+) -> Option<f64> {
     #[cfg(all(
         target_arch = "x86_64",
         target_feature = "avx512f",
         target_feature = "fma"
     ))]
     {
-        let _ = (table, d, rows, y, gram, rhs, sums);
-        false
+        let _ = (table, d, rows, y, known, gram, rhs, sums);
+        None
     }
     #[cfg(not(all(
         target_arch = "x86_64",
@@ -418,47 +418,188 @@ pub fn gram_rhs_and_sums_direct(
         target_feature = "fma"
     )))]
     {
-        let (t, r, g, h, s) = (table, rows, gram, rhs, sums);
-        match d {
-            1 => direct_and_sums::<1, 4, true>(t, r, y, g, h, s),
-            2 => direct_and_sums::<2, 4, true>(t, r, y, g, h, s),
-            3 => direct_and_sums::<3, 4, true>(t, r, y, g, h, s),
-            4 => direct_and_sums::<4, 4, true>(t, r, y, g, h, s),
-            5 => direct_and_sums::<5, 8, true>(t, r, y, g, h, s),
-            6 => direct_and_sums::<6, 8, true>(t, r, y, g, h, s),
-            7 => direct_and_sums::<7, 8, true>(t, r, y, g, h, s),
-            8 => direct_and_sums::<8, 8, true>(t, r, y, g, h, s),
-            9 => direct_and_sums::<9, 12, true>(t, r, y, g, h, s),
-            10 => direct_and_sums::<10, 12, true>(t, r, y, g, h, s),
-            11 => direct_and_sums::<11, 12, true>(t, r, y, g, h, s),
-            12 => direct_and_sums::<12, 12, true>(t, r, y, g, h, s),
-            _ => return false,
-        }
-        true
+        let (t, p, g, h, s) = (table, (rows, y, known), gram, rhs, sums);
+        Some(match d {
+            1 => direct_and_sums::<1, 4, true>(t, p, g, h, s),
+            2 => direct_and_sums::<2, 4, true>(t, p, g, h, s),
+            3 => direct_and_sums::<3, 4, true>(t, p, g, h, s),
+            4 => direct_and_sums::<4, 4, true>(t, p, g, h, s),
+            5 => direct_and_sums::<5, 8, true>(t, p, g, h, s),
+            6 => direct_and_sums::<6, 8, true>(t, p, g, h, s),
+            7 => direct_and_sums::<7, 8, true>(t, p, g, h, s),
+            8 => direct_and_sums::<8, 8, true>(t, p, g, h, s),
+            9 => direct_and_sums::<9, 12, true>(t, p, g, h, s),
+            10 => direct_and_sums::<10, 12, true>(t, p, g, h, s),
+            11 => direct_and_sums::<11, 12, true>(t, p, g, h, s),
+            12 => direct_and_sums::<12, 12, true>(t, p, g, h, s),
+            _ => return None,
+        })
     }
 }
 
-/// [`direct`], also summing the rows into `sums` when `SUMS` (the Gram and right-hand side
-/// are the same operations in the same order either way).
-fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
+/// The normal equations of a problem with a free offset (see
+/// [`super::solve::RidgeWorkspace::solve_batch_with_offsets`]): the upper triangle of `XᵀX`
+/// and `Xᵀy'` for the targets `y'_k = y_k − known[rows[k]]`, the rows' sum
+/// `sums[..d] = Σ_k x_k`, and the return value `Σ_k y'_k`. One pass over the rows where a
+/// kernel allows (the direct kernels, or the gather of the wider ranks); every sum is in
+/// row order, so the bits do not depend on which path ran.
+#[allow(clippy::too_many_arguments)]
+pub fn normal_equations_with_offsets(
     table: &[f64],
-    rows: &[u32],
-    y: &[f64],
+    d: usize,
+    (rows, y, known): (&[u32], &[f64], &[f64]),
+    scratch: &mut Scratch,
+    adjusted: &mut Vec<f64>,
     gram: &mut [f64],
     rhs: &mut [f64],
     sums: &mut [f64],
-) {
+) -> f64 {
+    if let Some(total) = gram_rhs_and_sums_direct(table, d, (rows, y, known), gram, rhs, sums) {
+        return total;
+    }
+    let n = y.len();
+    #[cfg(not(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )))]
+    {
+        let s = round_up(d, TILE);
+        let total = gather_with_sums(
+            table,
+            d,
+            (rows, y, known),
+            &mut scratch.gathered,
+            adjusted,
+            sums,
+        );
+        gram_and_rhs(&scratch.gathered[..n * s], s, adjusted, gram, rhs);
+        total
+    }
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    {
+        adjusted.clear();
+        adjusted.extend(y.iter().zip(rows).map(|(&t, &r)| t - known[r as usize]));
+        normal_equations(table, d, rows, adjusted, scratch, gram, rhs);
+        row_sums(table, d, &rows[..n], sums);
+        adjusted.iter().fold(-0.0, |a, &b| a + b)
+    }
+}
+
+/// [`gather`] of the rows of a problem with a free offset, summing them into `sums[..d]`
+/// and writing the targets less the rows' known offsets into `adjusted` in the same pass;
+/// returns the adjusted targets' sum. Sums in row order.
+#[cfg(not(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+)))]
+fn gather_with_sums(
+    table: &[f64],
+    d: usize,
+    (rows, y, known): (&[u32], &[f64], &[f64]),
+    gathered: &mut Vec<f64>,
+    adjusted: &mut Vec<f64>,
+    sums: &mut [f64],
+) -> f64 {
+    let n = y.len();
+    let s = round_up(d, TILE);
+    if gathered.len() < n * s {
+        gathered.resize(n * s, 0.0);
+    }
+    let sums = &mut sums[..d];
+    sums.fill(0.0);
+    adjusted.clear();
+    let mut total = -0.0;
+    for (k, (slot, (&t, &r))) in gathered[..n * s]
+        .chunks_exact_mut(s)
+        .zip(y.iter().zip(rows))
+        .enumerate()
+    {
+        // Rows and their offsets are scattered alike: both are asked for ahead of use.
+        prefetch_ahead(table, d, rows, k);
+        prefetch_ahead(known, 1, rows, k);
+        let source = &table[r as usize * d..(r as usize + 1) * d];
+        for ((to, &x), acc) in slot[..d].iter_mut().zip(source).zip(sums.iter_mut()) {
+            *to = x;
+            *acc += x;
+        }
+        slot[d..].fill(0.0);
+        let target = t - known[r as usize];
+        adjusted.push(target);
+        total += target;
+    }
+    total
+}
+
+/// `sum = Σ_k table[rows[k]]` (rows of width `d`), each column one chain of additions in
+/// row order — the order every kernel uses, so a fit with biases has the same bits
+/// whichever kernel built its sums.
+#[cfg(any(
+    test,
+    all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    )
+))]
+fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
+    let sum = &mut sum[..d];
+    sum.fill(0.0);
+    for &r in rows {
+        for (s, &x) in sum
+            .iter_mut()
+            .zip(&table[r as usize * d..r as usize * d + d])
+        {
+            *s += x;
+        }
+    }
+}
+
+/// [`direct`], also (when `SUMS`) taking the rows' known offsets `known[rows[k]]` off the
+/// targets, summing the rows into `sums` and returning the adjusted targets' sum (the Gram
+/// and right-hand side are the same operations in the same order either way).
+fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
+    table: &[f64],
+    (rows, y, known): (&[u32], &[f64], &[f64]),
+    gram: &mut [f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) -> f64 {
+    // Where the tile has a padding column, a 1 there makes the Gram kernel's own
+    // accumulators of that column the rows' sums (`fma(x, 1, a)` is exactly `a + x`), and
+    // the right-hand side's the targets' sum, at no extra cost; otherwise they are summed
+    // beside it. Either way each is one chain of additions in row order.
+    let padded = SUMS && D < S;
     let mut acc = [[0.0f64; S]; D];
     let mut right = [0.0f64; S];
     let mut total = [0.0f64; S];
-    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
+    let mut target_total = -0.0;
+    for (k, (&r, &y)) in rows.iter().zip(y).enumerate() {
         prefetch_ahead(table, D, rows, k);
+        let target = if SUMS {
+            prefetch_ahead(known, 1, rows, k);
+            let adjusted = y - known[r as usize];
+            if !padded {
+                target_total += adjusted;
+            }
+            adjusted
+        } else {
+            y
+        };
         let start = r as usize * D;
         let vector: &[f64; D] = table[start..start + D]
             .try_into()
             .expect("row inside the table");
         let mut row = [0.0f64; S];
         row[..D].copy_from_slice(vector);
+        if padded {
+            row[D] = 1.0;
+        }
         for a in 0..D {
             // Only tiles on or above the diagonal: columns from the start of a's tile. Rows
             // past D are padding and need no accumulators.
@@ -469,20 +610,34 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
         for c in 0..S {
             right[c] = target.mul_add(row[c], right[c]);
         }
-        if SUMS {
-            for c in 0..S {
+        if SUMS && !padded {
+            for c in 0..D {
                 total[c] += row[c];
             }
         }
+    }
+    if padded {
+        for (a, sum) in sums[..D].iter_mut().enumerate() {
+            *sum = acc[a][D];
+            acc[a][D] = 0.0;
+        }
+        // An empty problem's sum is -0.0, as the plain sum's is.
+        target_total = if rows.is_empty() || y.is_empty() {
+            -0.0
+        } else {
+            right[D]
+        };
+        right[D] = 0.0;
     }
     for a in 0..D {
         let start = a - a % TILE;
         gram[a * S + start..(a + 1) * S].copy_from_slice(&acc[a][start..]);
     }
     rhs[..S].copy_from_slice(&right);
-    if SUMS {
+    if SUMS && !padded {
         sums[..D].copy_from_slice(&total[..D]);
     }
+    target_total
 }
 
 /// Number of independent systems factored side by side, one per SIMD lane.
@@ -709,6 +864,61 @@ fn batch_any(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn offsets_sums_and_targets_have_the_same_bits_on_every_path() {
+        // The one-pass kernels (direct up to rank 12, the summing gather above) against the
+        // plain steps one by one: targets less the known offsets, the normal equations,
+        // the rows' sum and the targets' sum, each in row order.
+        let mut rng = crate::rng::Rng::new(5);
+        for d in 1..=40 {
+            let table: Vec<f64> = (0..40 * d).map(|_| rng.normal() * 1e3).collect();
+            let known: Vec<f64> = (0..40).map(|_| rng.normal()).collect();
+            let rows: Vec<u32> = (0..23).map(|_| rng.below(40) as u32).collect();
+            let y: Vec<f64> = (0..20).map(|_| rng.normal() * 3.0).collect();
+            let s = round_up(d, TILE);
+            let (mut gram, mut rhs, mut sums) = (vec![0.0; s * s], vec![0.0; s], vec![0.0; d]);
+            let mut adjusted = Vec::new();
+            let total = normal_equations_with_offsets(
+                &table,
+                d,
+                (&rows, &y, &known),
+                &mut Scratch::default(),
+                &mut adjusted,
+                &mut gram,
+                &mut rhs,
+                &mut sums,
+            );
+            let plain: Vec<f64> = y
+                .iter()
+                .zip(&rows)
+                .map(|(&t, &r)| t - known[r as usize])
+                .collect();
+            let (mut gram2, mut rhs2, mut sums2) = (vec![0.0; s * s], vec![0.0; s], vec![0.0; d]);
+            normal_equations(
+                &table,
+                d,
+                &rows,
+                &plain,
+                &mut Scratch::default(),
+                &mut gram2,
+                &mut rhs2,
+            );
+            row_sums(&table, d, &rows[..y.len()], &mut sums2);
+            let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+            let upper = |g: &[f64]| -> Vec<u64> {
+                (0..d)
+                    .flat_map(|i| (i..d).map(move |j| (i, j)))
+                    .map(|(i, j)| g[i * s + j].to_bits())
+                    .collect()
+            };
+            assert_eq!(upper(&gram), upper(&gram2), "rank {d}: gram");
+            assert_eq!(bits(&rhs[..d]), bits(&rhs2[..d]), "rank {d}: rhs");
+            assert_eq!(bits(&sums), bits(&sums2), "rank {d}: sums");
+            let expected: f64 = plain.iter().sum();
+            assert_eq!(total.to_bits(), expected.to_bits(), "rank {d}: total");
+        }
+    }
 
     /// Loads one upper-triangular system into lane `l`.
     fn load(a: &mut [Lanes], b: &mut [Lanes], l: usize, full: &[&[f64]], rhs: &[f64]) {
