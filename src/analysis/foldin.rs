@@ -171,9 +171,10 @@ fn implicit_step(
         base[k * d + k] += lambda;
     }
     let mut vector = vec![0.0; d];
+    let (scales, scaled) = crate::model::solve::confidence_weights(&confidences);
     let ok = RidgeWorkspace::new(d).solve_batch_weighted(
         items,
-        &[(&rows, &confidences)],
+        &[(&rows, &confidences, (&scales, &scaled))],
         &base,
         lambda == 0.0,
         &mut vector,

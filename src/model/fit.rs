@@ -213,6 +213,12 @@ impl Compressed {
     pub(super) fn rows(&self) -> usize {
         self.start.len() - 1
     }
+
+    /// Where row `r`'s entries sit in `columns` and `targets` (and in arrays laid out
+    /// like them).
+    pub(super) fn span(&self, r: usize) -> std::ops::Range<usize> {
+        self.start[r]..self.start[r + 1]
+    }
 }
 
 /// A fit in progress: exposes the half-steps so callers (and tests) can watch L.
@@ -344,7 +350,7 @@ impl<'a> Fitter<'a> {
                 Some(&mut biases.user),
                 &self.by_user,
                 self.model.rank,
-                |ws, problems, vectors, offsets| {
+                |ws, (_, problems), vectors, offsets| {
                     ws.solve_batch_with_offsets(
                         &self.model.items,
                         &biases.item,
@@ -381,7 +387,7 @@ impl<'a> Fitter<'a> {
                 Some(&mut biases.item),
                 &self.by_item,
                 self.model.rank,
-                |ws, problems, vectors, offsets| {
+                |ws, (_, problems), vectors, offsets| {
                     ws.solve_batch_with_offsets(
                         &self.model.users,
                         &biases.user,
@@ -559,13 +565,14 @@ fn solve_side(
     d: usize,
     ridge: f64,
 ) -> Option<u32> {
-    solve_rows(out, None, rows, d, |ws, problems, vectors, _| {
+    solve_rows(out, None, rows, d, |ws, (_, problems), vectors, _| {
         ws.solve_batch(other, problems, ridge, vectors)
     })
 }
 
-/// Solves every row of `rows` with `solve` (a batch of up to [`BATCH`] problems, each its
-/// columns and targets, into their vectors and, when `offsets` is given, their offsets),
+/// Solves every row of `rows` with `solve` (a batch of up to [`BATCH`] problems — the index
+/// of its first row, and each problem's columns and targets — into their vectors and, when
+/// `offsets` is given, their offsets),
 /// in parallel; returns the first row (in index order) that failed.
 pub(super) fn solve_rows(
     out: &mut [f64],
@@ -574,7 +581,7 @@ pub(super) fn solve_rows(
     d: usize,
     solve: impl Fn(
         &mut RidgeWorkspace,
-        &[super::solve::Problem<'_>],
+        (usize, &[super::solve::Problem<'_>]),
         &mut [f64],
         &mut [f64],
     ) -> [bool; BATCH]
@@ -600,7 +607,7 @@ pub(super) fn solve_rows(
                 for (k, problem) in problems.iter_mut().enumerate().take(count) {
                     *problem = rows.row_and_ahead(first + k);
                 }
-                let ok = solve(ws, &problems[..count], vectors, offsets);
+                let ok = solve(ws, (first, &problems[..count]), vectors, offsets);
                 (0..count).find(|&k| !ok[k]).map(|k| (first + k) as u32)
             },
         )

@@ -24,7 +24,7 @@ use super::fit::{
     Compressed, check_run, items_from_table, iterate_until, random_items, solve_rows,
 };
 use super::kernels::BATCH;
-use super::solve::RidgeWorkspace;
+use super::solve::{RidgeWorkspace, WeightedProblem, confidence_weights};
 use crate::data::{FactorTable, Ratings};
 use crate::error::FitError;
 
@@ -162,6 +162,10 @@ pub struct ImplicitFitter {
     by_user: Compressed,
     /// Per item: the members and their confidences.
     by_item: Compressed,
+    /// The scales and scaled targets of `by_user`'s and `by_item`'s confidences (see
+    /// [`confidence_weights`]), laid out like them: fixed for the whole fit.
+    user_weights: (Vec<f64>, Vec<f64>),
+    item_weights: (Vec<f64>, Vec<f64>),
     model: FactorModel,
 }
 
@@ -220,6 +224,8 @@ impl ImplicitFitter {
         let d = options.rank;
         Self {
             options: options.clone(),
+            user_weights: confidence_weights(&by_user.targets),
+            item_weights: confidence_weights(&by_item.targets),
             model: FactorModel {
                 rank: d,
                 mu: 0.0,
@@ -251,7 +257,7 @@ impl ImplicitFitter {
         half_step(
             &mut m.users,
             &m.items,
-            &self.by_user,
+            (&self.by_user, &self.user_weights),
             m.rank,
             self.options.lambda,
         )
@@ -264,7 +270,7 @@ impl ImplicitFitter {
         half_step(
             &mut m.items,
             &m.users,
-            &self.by_item,
+            (&self.by_item, &self.item_weights),
             m.rank,
             self.options.lambda,
         )
@@ -375,7 +381,7 @@ pub fn gram(v: &[f64], d: usize) -> Vec<f64> {
 fn half_step(
     out: &mut [f64],
     other: &[f64],
-    rows: &Compressed,
+    (rows, (scales, scaled)): (&Compressed, &(Vec<f64>, Vec<f64>)),
     d: usize,
     lambda: f64,
 ) -> Option<u32> {
@@ -389,9 +395,23 @@ fn half_step(
         None,
         rows,
         d,
-        |ws: &mut RidgeWorkspace, problems, vectors, _| {
+        |ws: &mut RidgeWorkspace, (first, problems), vectors, _| {
             debug_assert!(problems.len() <= BATCH);
-            ws.solve_batch_weighted(other, problems, &base, zero_ridge, vectors)
+            let empty: WeightedProblem<'_> = (&[], &[], (&[], &[]));
+            let mut weighted = [empty; BATCH];
+            for (k, (slot, &(columns, confidences))) in
+                weighted.iter_mut().zip(problems).enumerate()
+            {
+                let span = rows.span(first + k);
+                *slot = (columns, confidences, (&scales[span.clone()], &scaled[span]));
+            }
+            ws.solve_batch_weighted(
+                other,
+                &weighted[..problems.len()],
+                &base,
+                zero_ridge,
+                vectors,
+            )
         },
     )
 }

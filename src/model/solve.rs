@@ -29,9 +29,6 @@ pub struct RidgeWorkspace {
     sums: [Vec<f64>; BATCH],
     totals: [f64; BATCH],
     denominators: [f64; BATCH],
-    /// For weighted problems: each row's scale `√(c − 1)` and target `c/√(c − 1)`.
-    scales: Vec<f64>,
-    scaled_targets: Vec<f64>,
     /// For problems with an offset (wider ranks): the targets less the rows' known offsets.
     adjusted: Vec<f64>,
 }
@@ -45,6 +42,24 @@ pub struct NotPositiveDefinite;
 /// past the targets into those of the next problem, which are only prefetched (see
 /// [`super::kernels::normal_equations`]).
 pub type Problem<'a> = (&'a [u32], &'a [f64]);
+
+/// One weighted problem: its rows (which may run on, as in [`Problem`]), their confidences
+/// `c`, and the scales `√(c − 1)` and scaled targets `c/√(c − 1)` that
+/// [`confidence_weights`] derives from them once.
+pub type WeightedProblem<'a> = (&'a [u32], &'a [f64], (&'a [f64], &'a [f64]));
+
+/// The scales `√(c − 1)` and scaled targets `c/√(c − 1)` of confidences `c`: what
+/// [`RidgeWorkspace::solve_batch_weighted`] builds its normal equations from. They do not
+/// change while a fit runs, so a fit computes them once.
+pub fn confidence_weights(confidences: &[f64]) -> (Vec<f64>, Vec<f64>) {
+    let scales: Vec<f64> = confidences.iter().map(|&c| (c - 1.0).sqrt()).collect();
+    let targets = confidences
+        .iter()
+        .zip(&scales)
+        .map(|(&c, &r)| c / r)
+        .collect();
+    (scales, targets)
+}
 
 impl RidgeWorkspace {
     /// A workspace for vectors of width `rank`.
@@ -62,8 +77,6 @@ impl RidgeWorkspace {
             sums: std::array::from_fn(|_| vec![0.0; rank]),
             totals: [0.0; BATCH],
             denominators: [0.0; BATCH],
-            scales: Vec::new(),
-            scaled_targets: Vec::new(),
             adjusted: Vec::new(),
         }
     }
@@ -158,7 +171,7 @@ impl RidgeWorkspace {
     pub fn solve_batch_weighted(
         &mut self,
         table: &[f64],
-        problems: &[Problem<'_>],
+        problems: &[WeightedProblem<'_>],
         base: &[f64],
         exact_zero_ridge: bool,
         out: &mut [f64],
@@ -169,29 +182,21 @@ impl RidgeWorkspace {
         );
         let (d, s) = (self.rank, self.stride);
         for lane in 0..BATCH {
-            let Some(&(rows, weights)) = problems.get(lane) else {
+            let Some(&(rows, weights, (scales, scaled_targets))) = problems.get(lane) else {
                 self.load_identity(lane);
                 continue;
             };
             // Σ (c − 1) x xᵀ is the Gram matrix of the rows scaled by √(c − 1), so the
             // register-tiled kernels build it; the target c/√(c − 1) of a scaled row gives
             // Σ c x as its right-hand side.
-            self.scales.clear();
-            self.scaled_targets.clear();
-            let mut unscalable = false;
-            for &c in weights {
-                let root = (c - 1.0).sqrt();
-                unscalable |= root.is_nan() || root == 0.0;
-                self.scales.push(root);
-                self.scaled_targets.push(c / root);
-            }
+            let unscalable = scales.iter().any(|&r| r.is_nan() || r == 0.0);
             let (gram, rhs) = (&mut self.gram[lane], &mut self.rhs[lane]);
             scaled_normal_equations(
                 table,
                 d,
                 rows,
-                &self.scales,
-                &self.scaled_targets,
+                scales,
+                scaled_targets,
                 &mut self.scratch,
                 gram,
                 rhs,

@@ -124,15 +124,26 @@ pub struct Scratch {
         target_feature = "fma"
     )))]
     gathered: Vec<f64>,
-    /// Scaled rows of [`scaled_normal_equations`] where they are staged, and `0..n`.
+    /// Scaled rows of [`scaled_normal_equations`] where they are staged (the 512-bit
+    /// builds), and `0..n`.
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
     staging: Vec<f64>,
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
     sequence: Vec<u32>,
 }
 
 /// [`normal_equations`] of the rows scaled by `scale` (row `k` of `X` is `scale[k]` times
-/// row `rows[k]` of `table`), for weighted problems: `XᵀX = Σ scale² x xᵀ`. Where the Gram
-/// kernel gathers its rows anyway (the portable kernels above the direct ranks) the scaling
-/// happens in that copy; otherwise the scaled rows are staged once and read directly.
+/// row `rows[k]` of `table`), for weighted problems: `XᵀX = Σ scale² x xᵀ`. The portable
+/// kernels scale each row as they read it (in registers up to rank 12, in the gather's
+/// copy above); the 512-bit builds stage the scaled rows once and read them directly.
 #[allow(clippy::too_many_arguments)]
 pub fn scaled_normal_equations(
     table: &[f64],
@@ -144,23 +155,44 @@ pub fn scaled_normal_equations(
     gram: &mut [f64],
     rhs: &mut [f64],
 ) {
-    let n = y.len();
     #[cfg(not(all(
         target_arch = "x86_64",
         target_feature = "avx512f",
         target_feature = "fma"
     )))]
-    if d > PORTABLE_DIRECT_MAX {
-        let s = round_up(d, TILE);
-        gather(table, d, rows, n, &mut scratch.gathered);
-        for (slot, &c) in scratch.gathered[..n * s].chunks_exact_mut(s).zip(scale) {
-            for v in &mut slot[..d] {
-                *v *= c;
-            }
+    {
+        // The rows are scaled as they are read: in registers by the direct kernels, in the
+        // copy the wider ranks' gather makes anyway.
+        if !scaled_direct(table, d, (rows, y, scale), gram, rhs) {
+            let (n, s) = (y.len(), round_up(d, TILE));
+            gather_scaled(table, d, rows, Some(scale), n, &mut scratch.gathered);
+            gram_and_rhs(&scratch.gathered[..n * s], s, y, gram, rhs);
         }
-        gram_and_rhs(&scratch.gathered[..n * s], s, y, gram, rhs);
-        return;
     }
+    #[cfg(all(
+        target_arch = "x86_64",
+        target_feature = "avx512f",
+        target_feature = "fma"
+    ))]
+    staged_scaled(table, d, (rows, y, scale), scratch, gram, rhs);
+}
+
+/// [`scaled_normal_equations`] by staging the scaled rows once and running the unscaled
+/// kernels on them (the 512-bit builds).
+#[cfg(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+))]
+fn staged_scaled(
+    table: &[f64],
+    d: usize,
+    (rows, y, scale): (&[u32], &[f64], &[f64]),
+    scratch: &mut Scratch,
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) {
+    let n = y.len();
     let mut staging = std::mem::take(&mut scratch.staging);
     staging.clear();
     for (&r, &c) in rows.iter().zip(scale).take(n) {
@@ -178,14 +210,6 @@ pub fn scaled_normal_equations(
     scratch.sequence = sequence;
     scratch.staging = staging;
 }
-
-/// The largest rank the portable direct kernels handle.
-#[cfg(not(all(
-    target_arch = "x86_64",
-    target_feature = "avx512f",
-    target_feature = "fma"
-)))]
-const PORTABLE_DIRECT_MAX: usize = 12;
 
 /// Upper triangle of `XᵀX` and `Xᵀy`, where row `k` of `X` is row `rows[k]` of the
 /// row-major `table` (width `d`): the normal equations of one ridge problem, without the
@@ -234,6 +258,18 @@ pub fn normal_equations(
 /// pass over scattered memory, then every pass of the Gram kernel reads from cache. Every
 /// value is written, so the buffer only grows and is never cleared.
 pub fn gather(table: &[f64], d: usize, rows: &[u32], n: usize, gathered: &mut Vec<f64>) {
+    gather_scaled(table, d, rows, None, n, gathered);
+}
+
+/// [`gather`], each row multiplied by its `scale` as it is copied (when given).
+pub fn gather_scaled(
+    table: &[f64],
+    d: usize,
+    rows: &[u32],
+    scale: Option<&[f64]>,
+    n: usize,
+    gathered: &mut Vec<f64>,
+) {
     let s = round_up(d, TILE);
     if gathered.len() < n * s {
         gathered.resize(n * s, 0.0);
@@ -243,6 +279,14 @@ pub fn gather(table: &[f64], d: usize, rows: &[u32], n: usize, gathered: &mut Ve
     for (k, (slot, &r)) in gathered.chunks_exact_mut(s).zip(rows).enumerate() {
         prefetch_ahead(table, d, rows, k);
         let source = &table[r as usize * d..(r as usize + 1) * d];
+        if let Some(scale) = scale {
+            let c = scale[k];
+            for (to, &from) in slot[..d].iter_mut().zip(source) {
+                *to = from * c;
+            }
+            slot[d..].fill(0.0);
+            continue;
+        }
         // Fixed-size chunks compile to plain vector moves (no library call per row).
         for (to, from) in slot[..whole]
             .chunks_exact_mut(TILE)
@@ -387,7 +431,40 @@ fn direct<const D: usize, const S: usize>(
     gram: &mut [f64],
     rhs: &mut [f64],
 ) {
-    direct_and_sums::<D, S, false>(table, (rows, y, &[]), gram, rhs, &mut []);
+    direct_and_sums::<D, S, false, false>(table, (rows, y, &[]), gram, rhs, &mut []);
+}
+
+/// [`gram_and_rhs_direct`] of rows scaled by `scale` (row `k` times `scale[k]`, multiplied
+/// in registers as it is read). False, writing nothing, above the direct ranks.
+#[cfg(not(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+)))]
+fn scaled_direct(
+    table: &[f64],
+    d: usize,
+    (rows, y, scale): (&[u32], &[f64], &[f64]),
+    gram: &mut [f64],
+    rhs: &mut [f64],
+) -> bool {
+    let (t, p, g, h) = (table, (rows, y, scale), gram, rhs);
+    match d {
+        1 => direct_and_sums::<1, 4, false, true>(t, p, g, h, &mut []),
+        2 => direct_and_sums::<2, 4, false, true>(t, p, g, h, &mut []),
+        3 => direct_and_sums::<3, 4, false, true>(t, p, g, h, &mut []),
+        4 => direct_and_sums::<4, 4, false, true>(t, p, g, h, &mut []),
+        5 => direct_and_sums::<5, 8, false, true>(t, p, g, h, &mut []),
+        6 => direct_and_sums::<6, 8, false, true>(t, p, g, h, &mut []),
+        7 => direct_and_sums::<7, 8, false, true>(t, p, g, h, &mut []),
+        8 => direct_and_sums::<8, 8, false, true>(t, p, g, h, &mut []),
+        9 => direct_and_sums::<9, 12, false, true>(t, p, g, h, &mut []),
+        10 => direct_and_sums::<10, 12, false, true>(t, p, g, h, &mut []),
+        11 => direct_and_sums::<11, 12, false, true>(t, p, g, h, &mut []),
+        12 => direct_and_sums::<12, 12, false, true>(t, p, g, h, &mut []),
+        _ => return false,
+    };
+    true
 }
 
 /// [`gram_and_rhs_direct`] for a problem with a free offset, in the same pass: the targets
@@ -420,18 +497,18 @@ fn gram_rhs_and_sums_direct(
     {
         let (t, p, g, h, s) = (table, (rows, y, known), gram, rhs, sums);
         Some(match d {
-            1 => direct_and_sums::<1, 4, true>(t, p, g, h, s),
-            2 => direct_and_sums::<2, 4, true>(t, p, g, h, s),
-            3 => direct_and_sums::<3, 4, true>(t, p, g, h, s),
-            4 => direct_and_sums::<4, 4, true>(t, p, g, h, s),
-            5 => direct_and_sums::<5, 8, true>(t, p, g, h, s),
-            6 => direct_and_sums::<6, 8, true>(t, p, g, h, s),
-            7 => direct_and_sums::<7, 8, true>(t, p, g, h, s),
-            8 => direct_and_sums::<8, 8, true>(t, p, g, h, s),
-            9 => direct_and_sums::<9, 12, true>(t, p, g, h, s),
-            10 => direct_and_sums::<10, 12, true>(t, p, g, h, s),
-            11 => direct_and_sums::<11, 12, true>(t, p, g, h, s),
-            12 => direct_and_sums::<12, 12, true>(t, p, g, h, s),
+            1 => direct_and_sums::<1, 4, true, false>(t, p, g, h, s),
+            2 => direct_and_sums::<2, 4, true, false>(t, p, g, h, s),
+            3 => direct_and_sums::<3, 4, true, false>(t, p, g, h, s),
+            4 => direct_and_sums::<4, 4, true, false>(t, p, g, h, s),
+            5 => direct_and_sums::<5, 8, true, false>(t, p, g, h, s),
+            6 => direct_and_sums::<6, 8, true, false>(t, p, g, h, s),
+            7 => direct_and_sums::<7, 8, true, false>(t, p, g, h, s),
+            8 => direct_and_sums::<8, 8, true, false>(t, p, g, h, s),
+            9 => direct_and_sums::<9, 12, true, false>(t, p, g, h, s),
+            10 => direct_and_sums::<10, 12, true, false>(t, p, g, h, s),
+            11 => direct_and_sums::<11, 12, true, false>(t, p, g, h, s),
+            12 => direct_and_sums::<12, 12, true, false>(t, p, g, h, s),
             _ => return None,
         })
     }
@@ -561,11 +638,12 @@ fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
 }
 
 /// [`direct`], also (when `SUMS`) taking the rows' known offsets `known[rows[k]]` off the
-/// targets, summing the rows into `sums` and returning the adjusted targets' sum (the Gram
-/// and right-hand side are the same operations in the same order either way).
-fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
+/// targets, summing the rows into `sums` and returning the adjusted targets' sum, or (when
+/// `SCALED`) multiplying row `k` by `extra[k]` as it is read (the Gram and right-hand side
+/// are the same operations in the same order either way).
+fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALED: bool>(
     table: &[f64],
-    (rows, y, known): (&[u32], &[f64], &[f64]),
+    (rows, y, extra): (&[u32], &[f64], &[f64]),
     gram: &mut [f64],
     rhs: &mut [f64],
     sums: &mut [f64],
@@ -582,6 +660,7 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
     for (k, (&r, &y)) in rows.iter().zip(y).enumerate() {
         prefetch_ahead(table, D, rows, k);
         let target = if SUMS {
+            let known = extra;
             prefetch_ahead(known, 1, rows, k);
             let adjusted = y - known[r as usize];
             if !padded {
@@ -596,7 +675,14 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool>(
             .try_into()
             .expect("row inside the table");
         let mut row = [0.0f64; S];
-        row[..D].copy_from_slice(vector);
+        if SCALED {
+            let c = extra[k];
+            for (to, &from) in row[..D].iter_mut().zip(vector) {
+                *to = from * c;
+            }
+        } else {
+            row[..D].copy_from_slice(vector);
+        }
         if padded {
             row[D] = 1.0;
         }
@@ -864,6 +950,63 @@ fn batch_any(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn rows_scaled_as_they_are_read_give_the_bits_of_rows_scaled_first() {
+        // Weighted problems: the kernels scale each row in registers or in the gather;
+        // the same Gram matrix and right-hand side as the plain kernels on a table of the
+        // rows already scaled.
+        let mut rng = crate::rng::Rng::new(9);
+        for d in 1..=40 {
+            let table: Vec<f64> = (0..30 * d).map(|_| rng.normal()).collect();
+            let rows: Vec<u32> = (0..19).map(|_| rng.below(30) as u32).collect();
+            let scale: Vec<f64> = (0..17).map(|_| 1.0 + 5.0 * rng.uniform()).collect();
+            let y: Vec<f64> = (0..17).map(|_| rng.normal()).collect();
+            let s = round_up(d, TILE);
+            let (mut gram, mut rhs) = (vec![0.0; s * s], vec![0.0; s]);
+            let mut scratch = Scratch::default();
+            scaled_normal_equations(
+                &table,
+                d,
+                &rows,
+                &scale,
+                &y,
+                &mut scratch,
+                &mut gram,
+                &mut rhs,
+            );
+            let staged: Vec<f64> = rows
+                .iter()
+                .zip(&scale)
+                .flat_map(|(&r, &c)| {
+                    table[r as usize * d..(r as usize + 1) * d]
+                        .iter()
+                        .map(move |v| v * c)
+                })
+                .collect();
+            let sequence: Vec<u32> = (0..17).collect();
+            let (mut gram2, mut rhs2) = (vec![0.0; s * s], vec![0.0; s]);
+            normal_equations(
+                &staged,
+                d,
+                &sequence,
+                &y,
+                &mut scratch,
+                &mut gram2,
+                &mut rhs2,
+            );
+            for i in 0..d {
+                for j in i..d {
+                    assert_eq!(
+                        gram[i * s + j].to_bits(),
+                        gram2[i * s + j].to_bits(),
+                        "rank {d}"
+                    );
+                }
+                assert_eq!(rhs[i].to_bits(), rhs2[i].to_bits(), "rank {d}");
+            }
+        }
+    }
 
     #[test]
     fn offsets_sums_and_targets_have_the_same_bits_on_every_path() {
