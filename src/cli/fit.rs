@@ -267,22 +267,6 @@ fn announce(
             options.confidence.describe(),
             mark(args.feedback.alpha.is_none() && args.feedback.confidence.is_none())
         );
-        eprintln!(
-            "options: rank {}{}, lambda {}{}, holdout {}{}, tol {:e}{}, max-iters {}{}, seed {}{}",
-            given.rank,
-            mark(given.rank == d.rank),
-            given.lambda,
-            mark(given.lambda == d.lambda),
-            solver.holdout,
-            mark(solver.holdout == DEFAULT_HOLDOUT),
-            given.tol,
-            mark(given.tol == d.tol),
-            given.max_iters,
-            mark(given.max_iters == d.max_iters),
-            given.seed,
-            mark(given.seed == d.seed),
-        );
-        return;
     }
     if let Some(lambda_bias) = given.lambda_bias {
         eprintln!(
@@ -290,25 +274,36 @@ fn announce(
             mark(args.biases.prior.lambda_bias.is_none()).replace("default", "default: --lambda")
         );
     }
-    eprintln!(
-        "options: rank {}{}, lambda {}{}, sigma2 {}{}, center {}{}, holdout {}{}, tol {:e}{}, max-iters {}{}, seed {}{}",
-        given.rank,
-        mark(given.rank == d.rank),
-        given.lambda,
-        mark(given.lambda == d.lambda),
-        given.sigma2,
-        mark(given.sigma2 == d.sigma2),
-        given.center.name(),
-        mark(given.center == d.center),
-        solver.holdout,
-        mark(solver.holdout == DEFAULT_HOLDOUT),
-        given.tol,
-        mark(given.tol == d.tol),
-        given.max_iters,
-        mark(given.max_iters == d.max_iters),
-        given.seed,
-        mark(given.seed == d.seed),
-    );
+    let ratings = matches!(kind, Kind::Ratings(_));
+    // (name, value, left at its default); σ² and the centring are settings of ratings.
+    let options = [
+        ("rank", given.rank.to_string(), given.rank == d.rank),
+        ("lambda", given.lambda.to_string(), given.lambda == d.lambda),
+        ("sigma2", given.sigma2.to_string(), given.sigma2 == d.sigma2),
+        (
+            "center",
+            given.center.name().to_owned(),
+            given.center == d.center,
+        ),
+        (
+            "holdout",
+            solver.holdout.to_string(),
+            solver.holdout == DEFAULT_HOLDOUT,
+        ),
+        ("tol", format!("{:e}", given.tol), given.tol == d.tol),
+        (
+            "max-iters",
+            given.max_iters.to_string(),
+            given.max_iters == d.max_iters,
+        ),
+        ("seed", given.seed.to_string(), given.seed == d.seed),
+    ];
+    let shown: Vec<String> = options
+        .iter()
+        .filter(|(name, _, _)| ratings || !matches!(*name, "sigma2" | "center"))
+        .map(|(name, value, default)| format!("{name} {value}{}", mark(*default)))
+        .collect();
+    eprintln!("options: {}", shown.join(", "));
 }
 
 /// Per-iteration progress: a bar when stderr is a terminal, nothing otherwise.

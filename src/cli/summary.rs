@@ -307,31 +307,12 @@ fn table(model: &Model, label: &str) -> String {
             support(metrics.low_support_items, "vectors")
         ),
     );
-    if let Some(meta) = &model.meta {
-        line(
-            "metadata",
-            format!("{} items described", group(meta.described())),
-        );
-    }
-    if let (Origin::Fit, Some(options)) = (m.origin, &m.options) {
-        let state = if m.converged {
-            "converged"
-        } else {
-            "stopped without converging"
-        };
-        line(
-            "fit",
-            format!(
-                "{state} after {} of at most {} iterations (tol {:e}), seed {}",
-                m.trace.len(),
-                options.max_iters,
-                options.tol,
-                m.seed
-            ),
-        );
-        if let Some(last) = m.trace.last() {
-            line("log joint", format!("{:.4} (final)", last.log_joint));
-        }
+    let objective = m
+        .trace
+        .last()
+        .map(|last| ("log joint", format!("{:.4} (final)", last.log_joint)));
+    for (key, value) in run_lines(model, m.trace.len(), objective) {
+        line(key, value);
     }
     let _ = writeln!(out);
     let _ = writeln!(
@@ -359,6 +340,39 @@ fn table(model: &Model, label: &str) -> String {
     out
 }
 
+/// The lines both kinds of model show after their counts: the catalogue, and for a fit
+/// how it ended after `iterations` and its final `objective` (name, text).
+fn run_lines(
+    model: &Model,
+    iterations: usize,
+    objective: Option<(&'static str, String)>,
+) -> Vec<(&'static str, String)> {
+    let m = &model.manifest;
+    let mut lines = Vec::new();
+    if let Some(meta) = &model.meta {
+        lines.push((
+            "metadata",
+            format!("{} items described", group(meta.described())),
+        ));
+    }
+    if let (Origin::Fit, Some(options)) = (m.origin, &m.options) {
+        let state = if m.converged {
+            "converged"
+        } else {
+            "stopped without converging"
+        };
+        lines.push((
+            "fit",
+            format!(
+                "{state} after {iterations} of at most {} iterations (tol {:e}), seed {}",
+                options.max_iters, options.tol, m.seed
+            ),
+        ));
+        lines.extend(objective);
+    }
+    lines
+}
+
 /// The rest of the table of an implicit-feedback model: interactions, the loss and the
 /// held-out ranking in place of rating accuracy.
 fn implicit_table(model: &Model, implicit: &ImplicitFit, mut out: String) -> String {
@@ -379,31 +393,12 @@ fn implicit_table(model: &Model, implicit: &ImplicitFit, mut out: String) -> Str
     );
     line("users", group(c.users));
     line("items", group(c.items));
-    if let Some(meta) = &model.meta {
-        line(
-            "metadata",
-            format!("{} items described", group(meta.described())),
-        );
-    }
-    if let (Origin::Fit, Some(options)) = (m.origin, &m.options) {
-        let state = if m.converged {
-            "converged"
-        } else {
-            "stopped without converging"
-        };
-        line(
-            "fit",
-            format!(
-                "{state} after {} of at most {} iterations (tol {:e}), seed {}",
-                implicit.trace.len(),
-                options.max_iters,
-                options.tol,
-                m.seed
-            ),
-        );
-        if let Some(last) = implicit.trace.last() {
-            line("loss", format!("{:.6e} (final)", last.loss));
-        }
+    let objective = implicit
+        .trace
+        .last()
+        .map(|last| ("loss", format!("{:.6e} (final)", last.loss)));
+    for (key, value) in run_lines(model, implicit.trace.len(), objective) {
+        line(key, value);
     }
     line(
         "held out",
