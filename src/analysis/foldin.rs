@@ -7,7 +7,7 @@
 //! the fit's last user step gave them. In a model with biases the step solves the
 //! profile's vector and offset `(u, b)` jointly, against targets `r_j − μ − c_j`. In a
 //! model of implicit feedback it is the fitter's weighted member step over the profile's
-//! counts ([`fold_in_implicit`]).
+//! counts.
 
 use super::explain::Profile;
 use super::suggest::{Suggestion, top_unrated};
@@ -142,20 +142,9 @@ pub fn fold_in_vectors(
 }
 
 /// [`fold_in`] for a model of implicit feedback, on bare item vectors (row-major, width
-/// `d`), λ and the confidence rule: `x = (YᵀY + λI + Σ_j (c_j − 1) y_j y_jᵀ)⁻¹ Σ_j c_j y_j`
-/// over the profile's (item, count) pairs, by the fitter's own solver (a count of 0 is no
-/// interaction).
-pub fn fold_in_implicit(
-    items: &[f64],
-    d: usize,
-    (lambda, confidence): (f64, crate::model::implicit::Confidence),
-    rated: &[(u32, f64)],
-) -> Result<Vec<f64>, FoldInError> {
-    let gram = crate::model::implicit::gram(items, d);
-    implicit_step((items, &gram), d, (lambda, confidence), rated)
-}
-
-/// [`fold_in_implicit`] given `YᵀY` (row-major `d × d`).
+/// `d`) and their `YᵀY` (row-major `d × d`), λ and the confidence rule:
+/// `x = (YᵀY + λI + Σ_j (c_j − 1) y_j y_jᵀ)⁻¹ Σ_j c_j y_j` over the profile's (item,
+/// count) pairs, by the fitter's own solver (a count of 0 is no interaction).
 fn implicit_step(
     (items, gram): (&[f64], &[f64]),
     d: usize,
