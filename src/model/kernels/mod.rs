@@ -44,8 +44,11 @@ fn tile(row: &[f64], at: usize) -> &[f64; TILE] {
 /// Tiles of the right-hand side one pass keeps in registers.
 const RHS_BLOCK: usize = 8;
 
-/// Most tiles one panel pass keeps in registers.
-const PANEL: usize = 6;
+/// Most tiles one panel pass keeps in registers: 4 × 2 tiles are 8 vector accumulators,
+/// which with the row's two right tiles and a broadcast fit the 16 vector registers of a
+/// 256-bit build. Wider panels spill accumulators to the stack on every row: 6 tiles ran
+/// the rank-32 fit at half the speed (`cargo bench --bench fit -- --ranks=32`).
+const PANEL: usize = 2;
 
 /// Rows `rb..rb+4`, columns `cb..cb+4T` of `XᵀX` in one pass over the rows of `X`.
 fn panel<const T: usize>(x: &[f64], s: usize, rb: usize, cb: usize, gram: &mut [f64]) {
@@ -74,37 +77,81 @@ fn panel<const T: usize>(x: &[f64], s: usize, rb: usize, cb: usize, gram: &mut [
 /// multiply-adds over the rows in order.
 pub fn gram_and_rhs(x: &[f64], s: usize, y: &[f64], gram: &mut [f64], rhs: &mut [f64]) {
     debug_assert!(s.is_multiple_of(TILE) && x.len() == y.len() * s);
-    let n = y.len();
-    let row = |k: usize| &x[k * s..(k + 1) * s];
-    // Panels of 4 rows × up to 24 columns: up to 24 vector accumulators in registers.
+    gram_panels(x, s, gram);
+    rhs_and_sums::<RHS_BLOCK, false>(x, s, y, rhs, &mut []);
+}
+
+/// [`gram_and_rhs`], and the rows' sum `sums[..d] = Σ_k x_k` (`d ≤ s` the width of
+/// `sums`), each entry one chain of additions over the rows in order.
+#[cfg(not(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+)))]
+fn gram_rhs_and_sums(
+    x: &[f64],
+    s: usize,
+    y: &[f64],
+    gram: &mut [f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) {
+    debug_assert!(s.is_multiple_of(TILE) && x.len() == y.len() * s);
+    gram_panels(x, s, gram);
+    // Half the blocks' width, so the sums' accumulators stay in registers too.
+    rhs_and_sums::<{ RHS_BLOCK / 2 }, true>(x, s, y, rhs, sums);
+}
+
+/// The upper triangle of `XᵀX` by panels.
+fn gram_panels(x: &[f64], s: usize, gram: &mut [f64]) {
+    // Panels of 4 rows × up to 8 columns, all their accumulators in registers.
     for rb in (0..s).step_by(TILE) {
         for cb in (rb..s).step_by(PANEL * TILE) {
             match ((s - cb) / TILE).min(PANEL) {
                 1 => panel::<1>(x, s, rb, cb, gram),
-                2 => panel::<2>(x, s, rb, cb, gram),
-                3 => panel::<3>(x, s, rb, cb, gram),
-                4 => panel::<4>(x, s, rb, cb, gram),
-                5 => panel::<5>(x, s, rb, cb, gram),
                 _ => panel::<PANEL>(x, s, rb, cb, gram),
             }
         }
     }
-    // Right-hand side in blocks of tiles held in registers (a running sum in memory would
-    // chain every row's update through a store and a reload); one chain per entry.
-    for cb in (0..s).step_by(RHS_BLOCK * TILE) {
-        let count = ((s - cb) / TILE).min(RHS_BLOCK);
-        let mut acc = [[0.0f64; TILE]; RHS_BLOCK];
+}
+
+/// `Xᵀy` into `rhs[..s]` and, when `SUMS`, `Xᵀ1` into `sums` (as much of it as `sums`
+/// holds), in blocks of `BLOCK` tiles held in registers (a running sum in memory would
+/// chain every row's update through a store and a reload); one chain per entry.
+fn rhs_and_sums<const BLOCK: usize, const SUMS: bool>(
+    x: &[f64],
+    s: usize,
+    y: &[f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) {
+    let n = y.len();
+    let row = |k: usize| &x[k * s..(k + 1) * s];
+    for cb in (0..s).step_by(BLOCK * TILE) {
+        let count = ((s - cb) / TILE).min(BLOCK);
+        let mut acc = [[0.0f64; TILE]; BLOCK];
+        let mut total = [[0.0f64; TILE]; BLOCK];
         for k in 0..n {
             let x = row(k);
             for v in 0..count {
                 let t = tile(x, cb + v * TILE);
                 for c in 0..TILE {
                     acc[v][c] = y[k].mul_add(t[c], acc[v][c]);
+                    if SUMS {
+                        total[v][c] += t[c];
+                    }
                 }
             }
         }
         for v in 0..count {
             rhs[cb + v * TILE..cb + (v + 1) * TILE].copy_from_slice(&acc[v]);
+            if SUMS {
+                for (c, &value) in total[v].iter().enumerate() {
+                    if let Some(sum) = sums.get_mut(cb + v * TILE + c) {
+                        *sum = value;
+                    }
+                }
+            }
         }
     }
 }
@@ -542,15 +589,18 @@ pub fn normal_equations_with_offsets(
     )))]
     {
         let s = round_up(d, TILE);
-        let total = gather_with_sums(
-            table,
-            d,
-            (rows, y, known),
-            &mut scratch.gathered,
+        let total = adjusted_targets((rows, y, known), adjusted);
+        gather(table, d, rows, n, &mut scratch.gathered);
+        // The rows' sums in registers beside the right-hand side: summed in the gather's
+        // copy instead, every row's update went through memory (+8% on a rank-32 fit).
+        gram_rhs_and_sums(
+            &scratch.gathered[..n * s],
+            s,
             adjusted,
-            sums,
+            gram,
+            rhs,
+            &mut sums[..d],
         );
-        gram_and_rhs(&scratch.gathered[..n * s], s, adjusted, gram, rhs);
         total
     }
     #[cfg(all(
@@ -559,58 +609,19 @@ pub fn normal_equations_with_offsets(
         target_feature = "fma"
     ))]
     {
-        adjusted.clear();
-        adjusted.extend(y.iter().zip(rows).map(|(&t, &r)| t - known[r as usize]));
+        let total = adjusted_targets((rows, y, known), adjusted);
         normal_equations(table, d, rows, adjusted, scratch, gram, rhs);
         row_sums(table, d, &rows[..n], sums);
-        adjusted.iter().fold(-0.0, |a, &b| a + b)
+        total
     }
 }
 
-/// [`gather`] of the rows of a problem with a free offset, summing them into `sums[..d]`
-/// and writing the targets less the rows' known offsets into `adjusted` in the same pass;
-/// returns the adjusted targets' sum. Sums in row order.
-#[cfg(not(all(
-    target_arch = "x86_64",
-    target_feature = "avx512f",
-    target_feature = "fma"
-)))]
-fn gather_with_sums(
-    table: &[f64],
-    d: usize,
-    (rows, y, known): (&[u32], &[f64], &[f64]),
-    gathered: &mut Vec<f64>,
-    adjusted: &mut Vec<f64>,
-    sums: &mut [f64],
-) -> f64 {
-    let n = y.len();
-    let s = round_up(d, TILE);
-    if gathered.len() < n * s {
-        gathered.resize(n * s, 0.0);
-    }
-    let sums = &mut sums[..d];
-    sums.fill(0.0);
+/// The targets of a problem with a free offset less the rows' known offsets, into
+/// `adjusted`; returns their sum (in row order).
+fn adjusted_targets((rows, y, known): (&[u32], &[f64], &[f64]), adjusted: &mut Vec<f64>) -> f64 {
     adjusted.clear();
-    let mut total = -0.0;
-    for (k, (slot, (&t, &r))) in gathered[..n * s]
-        .chunks_exact_mut(s)
-        .zip(y.iter().zip(rows))
-        .enumerate()
-    {
-        // Rows and their offsets are scattered alike: both are asked for ahead of use.
-        prefetch_ahead(table, d, rows, k);
-        prefetch_ahead(known, 1, rows, k);
-        let source = &table[r as usize * d..(r as usize + 1) * d];
-        for ((to, &x), acc) in slot[..d].iter_mut().zip(source).zip(sums.iter_mut()) {
-            *to = x;
-            *acc += x;
-        }
-        slot[d..].fill(0.0);
-        let target = t - known[r as usize];
-        adjusted.push(target);
-        total += target;
-    }
-    total
+    adjusted.extend(y.iter().zip(rows).map(|(&t, &r)| t - known[r as usize]));
+    adjusted.iter().fold(-0.0, |a, &b| a + b)
 }
 
 /// `sum = Σ_k table[rows[k]]` (rows of width `d`), each column one chain of additions in
@@ -648,11 +659,9 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
     rhs: &mut [f64],
     sums: &mut [f64],
 ) -> f64 {
-    // Where the tile has a padding column, a 1 there makes the Gram kernel's own
-    // accumulators of that column the rows' sums (`fma(x, 1, a)` is exactly `a + x`), and
-    // the right-hand side's the targets' sum, at no extra cost; otherwise they are summed
-    // beside it. Either way each is one chain of additions in row order.
-    let padded = SUMS && D < S;
+    // The rows' sums and the targets' sum are kept beside the Gram accumulators, each one
+    // chain of additions in row order. (Summing through a padding column set to 1 was tried:
+    // the compiler then splits the last tile and spills more, +30% on the rank-10 pass.)
     let mut acc = [[0.0f64; S]; D];
     let mut right = [0.0f64; S];
     let mut total = [0.0f64; S];
@@ -663,9 +672,7 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
             let known = extra;
             prefetch_ahead(known, 1, rows, k);
             let adjusted = y - known[r as usize];
-            if !padded {
-                target_total += adjusted;
-            }
+            target_total += adjusted;
             adjusted
         } else {
             y
@@ -683,9 +690,6 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
         } else {
             row[..D].copy_from_slice(vector);
         }
-        if padded {
-            row[D] = 1.0;
-        }
         for a in 0..D {
             // Only tiles on or above the diagonal: columns from the start of a's tile. Rows
             // past D are padding and need no accumulators.
@@ -696,31 +700,18 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
         for c in 0..S {
             right[c] = target.mul_add(row[c], right[c]);
         }
-        if SUMS && !padded {
+        if SUMS {
             for c in 0..D {
                 total[c] += row[c];
             }
         }
-    }
-    if padded {
-        for (a, sum) in sums[..D].iter_mut().enumerate() {
-            *sum = acc[a][D];
-            acc[a][D] = 0.0;
-        }
-        // An empty problem's sum is -0.0, as the plain sum's is.
-        target_total = if rows.is_empty() || y.is_empty() {
-            -0.0
-        } else {
-            right[D]
-        };
-        right[D] = 0.0;
     }
     for a in 0..D {
         let start = a - a % TILE;
         gram[a * S + start..(a + 1) * S].copy_from_slice(&acc[a][start..]);
     }
     rhs[..S].copy_from_slice(&right);
-    if SUMS && !padded {
+    if SUMS {
         sums[..D].copy_from_slice(&total[..D]);
     }
     target_total
@@ -1010,7 +1001,7 @@ mod tests {
 
     #[test]
     fn offsets_sums_and_targets_have_the_same_bits_on_every_path() {
-        // The one-pass kernels (direct up to rank 12, the summing gather above) against the
+        // The one-pass kernels (direct up to rank 12, the summing Gram pass above) against the
         // plain steps one by one: targets less the known offsets, the normal equations,
         // the rows' sum and the targets' sum, each in row order.
         let mut rng = crate::rng::Rng::new(5);
