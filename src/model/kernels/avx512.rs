@@ -51,22 +51,36 @@ fn load_row<const D: usize, const T: usize>(table: &[f64], at: usize) -> [f64x8;
     })
 }
 
-/// [`super::gram_and_rhs_direct`] for ranks up to 16: one pass over the rows, reading them
-/// straight from the row-major `table` (width `D`); the upper triangle in `T` vectors per
-/// row (from the vector holding the diagonal on) and the right-hand side stay in registers
-/// (at most 26 of the 32). `gram` has row stride `s`; `rhs` holds `s` values.
-pub(super) fn direct<const D: usize, const T: usize>(
+/// [`super::gram_and_rhs_direct`] for ranks up to 16, and when `SUMS` the work of a problem
+/// with a free offset in the same pass. One pass over the rows, reading them straight from
+/// the row-major `table` (width `D`); the upper triangle in `T` vectors per row (from the
+/// vector holding the diagonal on) and the right-hand side stay in registers (at most 26 of
+/// the 32). With `SUMS` the targets are `y_k − known[rows[k]]`, `sums[..D]` gets `Σ_k x_k`
+/// (two more vectors: at most 30 registers at rank 16 with the row and a broadcast), and it
+/// returns the adjusted targets' sum; every sum runs in row order, as in the portable
+/// kernels. `out.gram` has row stride `out.s`; `rhs` holds `s` values.
+pub(super) fn direct_and_sums<const D: usize, const T: usize, const SUMS: bool>(
     table: &[f64],
-    rows: &[u32],
-    y: &[f64],
-    gram: &mut [f64],
-    s: usize,
+    (rows, y, known): (&[u32], &[f64], &[f64]),
+    out: Out<'_>,
     rhs: &mut [f64],
-) {
+    sums: &mut [f64],
+) -> f64 {
     let mut acc = [[f64x8::ZERO; T]; D];
     let mut right = [f64x8::ZERO; T];
+    let mut total = [f64x8::ZERO; T];
+    let mut target_total = -0.0;
     for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
         prefetch_ahead(table, D, rows, k);
+        let target = if SUMS {
+            // The offsets are scattered too: without asking ahead, +10% at rank 10.
+            prefetch_ahead(known, 1, rows, k);
+            let adjusted = target - known[r as usize];
+            target_total += adjusted;
+            adjusted
+        } else {
+            target
+        };
         let at = r as usize * D;
         let x = load_row::<D, T>(table, at);
         let values: &[f64; D] = table[at..at + D].try_into().expect("row inside the table");
@@ -79,8 +93,12 @@ pub(super) fn direct<const D: usize, const T: usize>(
         let target = f64x8::splat(target);
         for t in 0..T {
             right[t] = target.mul_add(x[t], right[t]);
+            if SUMS {
+                total[t] += x[t];
+            }
         }
     }
+    let Out { gram, s, .. } = out;
     for a in 0..D {
         for t in a / LANES..T {
             store(acc[a][t], &mut gram[a * s..a * s + D], first_column::<D>(t));
@@ -88,7 +106,11 @@ pub(super) fn direct<const D: usize, const T: usize>(
     }
     for t in 0..T {
         store(right[t], &mut rhs[..D], first_column::<D>(t));
+        if SUMS {
+            store(total[t], &mut sums[..D], first_column::<D>(t));
+        }
     }
+    target_total
 }
 
 /// Writes the lanes of `v` to `out[from..]`, as many as fit.
@@ -115,18 +137,30 @@ const PASS_REGISTERS: usize = 24;
 /// passes over the panel, each holding up to 24 vectors of the Gram matrix in registers: a
 /// block of 8 rows against up to 3 vectors of columns. `gram` has row stride `s`; `rhs`
 /// holds `s` values; both get columns `0..d` of every row (and nothing past `d`).
+///
+/// With `offsets = Some((known, sums))` it is a problem with a free offset, as in
+/// [`direct_and_sums`]: the first pass takes `known[rows[k]]` off the targets and sums the
+/// rows into `sums[..d]`, and the adjusted targets' sum is returned (−0.0 otherwise).
 pub(super) fn gram_and_rhs(
     table: &[f64],
-    rows: &[u32],
-    y: &[f64],
+    (rows, y): (&[u32], &[f64]),
+    offsets: Option<(&[f64], &mut [f64])>,
     panel: &mut Vec<f64x8>,
     out: Out<'_>,
     rhs: &mut [f64],
-) {
+) -> f64 {
     let Out { gram, s, d } = out;
     let t = d.div_ceil(LANES);
     let n = y.len();
-    gather(table, d, t, rows, y, panel, &mut rhs[..d]);
+    if panel.len() < n * t {
+        panel.resize(n * t, f64x8::ZERO);
+    }
+    let first = &mut panel[..n * t];
+    let rhs = &mut rhs[..d];
+    let total = match offsets {
+        Some((known, sums)) => gather::<true>(table, d, t, (rows, y, known), first, rhs, sums),
+        None => gather::<false>(table, d, t, (rows, y, &[]), first, rhs, &mut []),
+    };
     let panel = &panel[..n * t];
     for block in 0..t {
         let mut first = block;
@@ -141,6 +175,7 @@ pub(super) fn gram_and_rhs(
             first += count;
         }
     }
+    total
 }
 
 /// Where the Gram kernels write: the matrix, its row stride and the rank.
@@ -151,30 +186,26 @@ pub(super) struct Out<'a> {
 }
 
 /// Copies the rows into `panel` (`t` vectors each, zero-padded) and sums `Σ_k y_k x_k`
-/// into `rhs`, one sequential chain per entry.
-fn gather(
+/// into `rhs`, one sequential chain per entry; with `SUMS`, the targets less
+/// `known[rows[k]]`, the rows' sum into `sums` and the targets' sum returned.
+fn gather<const SUMS: bool>(
     table: &[f64],
     d: usize,
     t: usize,
-    rows: &[u32],
-    y: &[f64],
-    panel: &mut Vec<f64x8>,
+    problem: (&[u32], &[f64], &[f64]),
+    panel: &mut [f64x8],
     rhs: &mut [f64],
-) {
-    let n = y.len();
-    if panel.len() < n * t {
-        panel.resize(n * t, f64x8::ZERO);
-    }
-    let panel = &mut panel[..n * t];
+    sums: &mut [f64],
+) -> f64 {
     // A constant width keeps the right-hand side in registers and the copy inline.
     match t {
-        3 => gather_fixed::<3>(table, d, rows, y, panel, rhs),
-        4 => gather_fixed::<4>(table, d, rows, y, panel, rhs),
-        5 => gather_fixed::<5>(table, d, rows, y, panel, rhs),
-        6 => gather_fixed::<6>(table, d, rows, y, panel, rhs),
-        7 => gather_fixed::<7>(table, d, rows, y, panel, rhs),
-        8 => gather_fixed::<8>(table, d, rows, y, panel, rhs),
-        _ => gather_wide(table, d, t, rows, y, panel, rhs),
+        3 => gather_fixed::<3, SUMS>(table, d, problem, panel, rhs, sums),
+        4 => gather_fixed::<4, SUMS>(table, d, problem, panel, rhs, sums),
+        5 => gather_fixed::<5, SUMS>(table, d, problem, panel, rhs, sums),
+        6 => gather_fixed::<6, SUMS>(table, d, problem, panel, rhs, sums),
+        7 => gather_fixed::<7, SUMS>(table, d, problem, panel, rhs, sums),
+        8 => gather_fixed::<8, SUMS>(table, d, problem, panel, rhs, sums),
+        _ => gather_wide::<SUMS>(table, d, t, problem, panel, rhs, sums),
     }
 }
 
@@ -190,47 +221,74 @@ fn row_vectors<const T: usize>(table: &[f64], d: usize, r: usize) -> [f64x8; T] 
     })
 }
 
+/// Row `k`'s target: `y[k]`, or with `SUMS` `y[k] − known[rows[k]]` (asking for the offset
+/// [`super::LOOKAHEAD`] rows ahead, as the rows are).
+#[inline(always)]
+fn target<const SUMS: bool>((rows, y, known): (&[u32], &[f64], &[f64]), k: usize) -> f64 {
+    if SUMS {
+        prefetch_ahead(known, 1, rows, k);
+        y[k] - known[rows[k] as usize]
+    } else {
+        y[k]
+    }
+}
+
 /// [`gather`] for rows of exactly `T` vectors.
-fn gather_fixed<const T: usize>(
+fn gather_fixed<const T: usize, const SUMS: bool>(
     table: &[f64],
     d: usize,
-    rows: &[u32],
-    y: &[f64],
+    problem: (&[u32], &[f64], &[f64]),
     panel: &mut [f64x8],
     rhs: &mut [f64],
-) {
+    sums: &mut [f64],
+) -> f64 {
+    let (rows, y, _) = problem;
     let mut right = [f64x8::ZERO; T];
-    for (k, ((&r, &target), slots)) in rows
+    let mut total = [f64x8::ZERO; T];
+    let mut target_total = -0.0;
+    for (k, (&r, slots)) in rows
         .iter()
-        .zip(y)
         .zip(panel.chunks_exact_mut(T))
+        .take(y.len())
         .enumerate()
     {
         prefetch_ahead(table, d, rows, k);
+        let value = target::<SUMS>(problem, k);
+        if SUMS {
+            target_total += value;
+        }
         let x = row_vectors::<T>(table, d, r as usize);
-        let target = f64x8::splat(target);
+        let value = f64x8::splat(value);
         for v in 0..T {
             slots[v] = x[v];
-            right[v] = target.mul_add(x[v], right[v]);
+            right[v] = value.mul_add(x[v], right[v]);
+            if SUMS {
+                total[v] += x[v];
+            }
         }
     }
     for v in 0..T {
         store(right[v], rhs, v * LANES);
+        if SUMS {
+            store(total[v], sums, v * LANES);
+        }
     }
+    target_total
 }
 
-/// [`gather`] for rows wider than 64 values: a copy, then the right-hand side in blocks
-/// of 8 vectors from the panel (the same chains).
-fn gather_wide(
+/// [`gather`] for rows wider than 64 values: a copy, then the right-hand side (and the
+/// sums) in blocks of 8 vectors from the panel (the same chains).
+fn gather_wide<const SUMS: bool>(
     table: &[f64],
     d: usize,
     t: usize,
-    rows: &[u32],
-    y: &[f64],
+    problem: (&[u32], &[f64], &[f64]),
     panel: &mut [f64x8],
     rhs: &mut [f64],
-) {
+    sums: &mut [f64],
+) -> f64 {
     const BLOCK: usize = 8;
+    let (rows, y, _) = problem;
     for (k, (&r, slots)) in rows.iter().zip(panel.chunks_exact_mut(t)).enumerate() {
         prefetch_ahead(table, d, rows, k);
         let row = &table[r as usize * d..(r as usize + 1) * d];
@@ -240,19 +298,34 @@ fn gather_wide(
             }));
         }
     }
+    let mut target_total = -0.0;
     for first in (0..t).step_by(BLOCK) {
         let count = (t - first).min(BLOCK);
         let mut right = [f64x8::ZERO; BLOCK];
-        for (k, &target) in y.iter().enumerate() {
-            let target = f64x8::splat(target);
+        let mut total = [f64x8::ZERO; BLOCK];
+        for k in 0..y.len() {
+            // Recomputed for each block: the same value every time.
+            let value = target::<SUMS>(problem, k);
+            if SUMS && first == 0 {
+                target_total += value;
+            }
+            let value = f64x8::splat(value);
             for v in 0..count {
-                right[v] = target.mul_add(panel[k * t + first + v], right[v]);
+                let x = panel[k * t + first + v];
+                right[v] = value.mul_add(x, right[v]);
+                if SUMS {
+                    total[v] += x;
+                }
             }
         }
         for v in 0..count {
             store(right[v], rhs, (first + v) * LANES);
+            if SUMS {
+                store(total[v], sums, (first + v) * LANES);
+            }
         }
     }
+    target_total
 }
 
 /// Rows `r0..r0 + 8` of the Gram matrix, columns of vectors `first..first + N`, in one

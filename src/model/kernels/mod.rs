@@ -284,8 +284,8 @@ pub fn normal_equations(
     ))]
     avx512::gram_and_rhs(
         table,
-        rows,
-        y,
+        (rows, y),
+        None,
         &mut scratch.panel,
         avx512::Out { gram, s, d },
         rhs,
@@ -363,34 +363,13 @@ pub fn gram_and_rhs_direct(
     gram: &mut [f64],
     rhs: &mut [f64],
 ) -> bool {
-    let (t, r, g, h) = (table, rows, gram, rhs);
     #[cfg(all(
         target_arch = "x86_64",
         target_feature = "avx512f",
         target_feature = "fma"
     ))]
     {
-        let s = round_up(d, TILE);
-        match d {
-            1 => avx512::direct::<1, 1>(t, r, y, g, s, h),
-            2 => avx512::direct::<2, 1>(t, r, y, g, s, h),
-            3 => avx512::direct::<3, 1>(t, r, y, g, s, h),
-            4 => avx512::direct::<4, 1>(t, r, y, g, s, h),
-            5 => avx512::direct::<5, 1>(t, r, y, g, s, h),
-            6 => avx512::direct::<6, 1>(t, r, y, g, s, h),
-            7 => avx512::direct::<7, 1>(t, r, y, g, s, h),
-            8 => avx512::direct::<8, 1>(t, r, y, g, s, h),
-            9 => avx512::direct::<9, 2>(t, r, y, g, s, h),
-            10 => avx512::direct::<10, 2>(t, r, y, g, s, h),
-            11 => avx512::direct::<11, 2>(t, r, y, g, s, h),
-            12 => avx512::direct::<12, 2>(t, r, y, g, s, h),
-            13 => avx512::direct::<13, 2>(t, r, y, g, s, h),
-            14 => avx512::direct::<14, 2>(t, r, y, g, s, h),
-            15 => avx512::direct::<15, 2>(t, r, y, g, s, h),
-            16 => avx512::direct::<16, 2>(t, r, y, g, s, h),
-            _ => return false,
-        }
-        true
+        wide_direct::<false>(table, d, (rows, y, &[]), gram, rhs, &mut []).is_some()
     }
     #[cfg(not(all(
         target_arch = "x86_64",
@@ -398,8 +377,51 @@ pub fn gram_and_rhs_direct(
         target_feature = "fma"
     )))]
     {
-        portable_direct(t, d, r, y, g, h)
+        portable_direct(table, d, rows, y, gram, rhs)
     }
+}
+
+/// The 512-bit direct kernels by rank (up to 16, two registers per row above 8): without
+/// (`SUMS` false) or with a free offset; see [`avx512::direct_and_sums`]. `None`, writing
+/// nothing, above rank 16.
+#[cfg(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+))]
+fn wide_direct<const SUMS: bool>(
+    table: &[f64],
+    d: usize,
+    problem: (&[u32], &[f64], &[f64]),
+    gram: &mut [f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) -> Option<f64> {
+    let (t, p, h, u) = (table, problem, rhs, sums);
+    let g = avx512::Out {
+        gram,
+        s: round_up(d, TILE),
+        d,
+    };
+    Some(match d {
+        1 => avx512::direct_and_sums::<1, 1, SUMS>(t, p, g, h, u),
+        2 => avx512::direct_and_sums::<2, 1, SUMS>(t, p, g, h, u),
+        3 => avx512::direct_and_sums::<3, 1, SUMS>(t, p, g, h, u),
+        4 => avx512::direct_and_sums::<4, 1, SUMS>(t, p, g, h, u),
+        5 => avx512::direct_and_sums::<5, 1, SUMS>(t, p, g, h, u),
+        6 => avx512::direct_and_sums::<6, 1, SUMS>(t, p, g, h, u),
+        7 => avx512::direct_and_sums::<7, 1, SUMS>(t, p, g, h, u),
+        8 => avx512::direct_and_sums::<8, 1, SUMS>(t, p, g, h, u),
+        9 => avx512::direct_and_sums::<9, 2, SUMS>(t, p, g, h, u),
+        10 => avx512::direct_and_sums::<10, 2, SUMS>(t, p, g, h, u),
+        11 => avx512::direct_and_sums::<11, 2, SUMS>(t, p, g, h, u),
+        12 => avx512::direct_and_sums::<12, 2, SUMS>(t, p, g, h, u),
+        13 => avx512::direct_and_sums::<13, 2, SUMS>(t, p, g, h, u),
+        14 => avx512::direct_and_sums::<14, 2, SUMS>(t, p, g, h, u),
+        15 => avx512::direct_and_sums::<15, 2, SUMS>(t, p, g, h, u),
+        16 => avx512::direct_and_sums::<16, 2, SUMS>(t, p, g, h, u),
+        _ => return None,
+    })
 }
 
 /// The portable form of [`gram_and_rhs_direct`] (ranks up to 12), also used by the tests
@@ -517,8 +539,8 @@ fn scaled_direct(
 /// [`gram_and_rhs_direct`] for a problem with a free offset, in the same pass: the targets
 /// are `y_k − known[rows[k]]` (the rows' known offsets taken off as each row is read), and
 /// it writes `sums[..d] = Σ_k x_k` and returns `Σ_k (y_k − known[rows[k]])`, every sum in
-/// row order. `None`, writing nothing, where no such kernel exists (ranks above 12, and
-/// the 512-bit builds for now).
+/// row order. `None`, writing nothing, above the direct ranks (12; 16 in the 512-bit
+/// builds).
 fn gram_rhs_and_sums_direct(
     table: &[f64],
     d: usize,
@@ -533,8 +555,7 @@ fn gram_rhs_and_sums_direct(
         target_feature = "fma"
     ))]
     {
-        let _ = (table, d, rows, y, known, gram, rhs, sums);
-        None
+        wide_direct::<true>(table, d, (rows, y, known), gram, rhs, sums)
     }
     #[cfg(not(all(
         target_arch = "x86_64",
@@ -581,14 +602,13 @@ pub fn normal_equations_with_offsets(
     if let Some(total) = gram_rhs_and_sums_direct(table, d, (rows, y, known), gram, rhs, sums) {
         return total;
     }
-    let n = y.len();
     #[cfg(not(all(
         target_arch = "x86_64",
         target_feature = "avx512f",
         target_feature = "fma"
     )))]
     {
-        let s = round_up(d, TILE);
+        let (n, s) = (y.len(), round_up(d, TILE));
         let total = adjusted_targets((rows, y, known), adjusted);
         gather(table, d, rows, n, &mut scratch.gathered);
         // The rows' sums in registers beside the right-hand side: summed in the gather's
@@ -609,15 +629,30 @@ pub fn normal_equations_with_offsets(
         target_feature = "fma"
     ))]
     {
-        let total = adjusted_targets((rows, y, known), adjusted);
-        normal_equations(table, d, rows, adjusted, scratch, gram, rhs);
-        row_sums(table, d, &rows[..n], sums);
-        total
+        // The first pass over the rows adjusts the targets as it goes: no buffer.
+        let _ = adjusted;
+        avx512::gram_and_rhs(
+            table,
+            (rows, y),
+            Some((known, &mut sums[..d])),
+            &mut scratch.panel,
+            avx512::Out {
+                gram,
+                s: round_up(d, TILE),
+                d,
+            },
+            rhs,
+        )
     }
 }
 
 /// The targets of a problem with a free offset less the rows' known offsets, into
 /// `adjusted`; returns their sum (in row order).
+#[cfg(not(all(
+    target_arch = "x86_64",
+    target_feature = "avx512f",
+    target_feature = "fma"
+)))]
 fn adjusted_targets((rows, y, known): (&[u32], &[f64], &[f64]), adjusted: &mut Vec<f64>) -> f64 {
     adjusted.clear();
     adjusted.extend(y.iter().zip(rows).map(|(&t, &r)| t - known[r as usize]));
@@ -627,14 +662,7 @@ fn adjusted_targets((rows, y, known): (&[u32], &[f64], &[f64]), adjusted: &mut V
 /// `sum = Σ_k table[rows[k]]` (rows of width `d`), each column one chain of additions in
 /// row order — the order every kernel uses, so a fit with biases has the same bits
 /// whichever kernel built its sums.
-#[cfg(any(
-    test,
-    all(
-        target_arch = "x86_64",
-        target_feature = "avx512f",
-        target_feature = "fma"
-    )
-))]
+#[cfg(test)]
 fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
     let sum = &mut sum[..d];
     sum.fill(0.0);
@@ -654,6 +682,27 @@ fn row_sums(table: &[f64], d: usize, rows: &[u32], sum: &mut [f64]) {
 /// are the same operations in the same order either way).
 fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALED: bool>(
     table: &[f64],
+    problem: (&[u32], &[f64], &[f64]),
+    gram: &mut [f64],
+    rhs: &mut [f64],
+    sums: &mut [f64],
+) -> f64 {
+    direct_pass::<D, S, 0, D, true, SUMS, SCALED>(table, problem, gram, rhs, sums)
+}
+
+/// One pass of [`direct_and_sums`] over the rows: the Gram rows `A0..A1` (from the start of
+/// each one's tile to `S`), and when `RIGHT` the right-hand side (and the sums, when `SUMS`).
+/// The first pass of a problem asks for its rows ahead; later ones find them in cache.
+fn direct_pass<
+    const D: usize,
+    const S: usize,
+    const A0: usize,
+    const A1: usize,
+    const RIGHT: bool,
+    const SUMS: bool,
+    const SCALED: bool,
+>(
+    table: &[f64],
     (rows, y, extra): (&[u32], &[f64], &[f64]),
     gram: &mut [f64],
     rhs: &mut [f64],
@@ -667,9 +716,12 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
     let mut total = [0.0f64; S];
     let mut target_total = -0.0;
     for (k, (&r, &y)) in rows.iter().zip(y).enumerate() {
-        prefetch_ahead(table, D, rows, k);
+        if A0 == 0 {
+            prefetch_ahead(table, D, rows, k);
+        }
         let target = if SUMS {
             let known = extra;
+            // The offsets are scattered too (asked ahead, as in the 512-bit kernels).
             prefetch_ahead(known, 1, rows, k);
             let adjusted = y - known[r as usize];
             target_total += adjusted;
@@ -690,15 +742,17 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
         } else {
             row[..D].copy_from_slice(vector);
         }
-        for a in 0..D {
+        for a in A0..A1 {
             // Only tiles on or above the diagonal: columns from the start of a's tile. Rows
             // past D are padding and need no accumulators.
             for c in (a - a % TILE)..S {
                 acc[a][c] = row[a].mul_add(row[c], acc[a][c]);
             }
         }
-        for c in 0..S {
-            right[c] = target.mul_add(row[c], right[c]);
+        if RIGHT {
+            for c in 0..S {
+                right[c] = target.mul_add(row[c], right[c]);
+            }
         }
         if SUMS {
             for c in 0..D {
@@ -706,11 +760,13 @@ fn direct_and_sums<const D: usize, const S: usize, const SUMS: bool, const SCALE
             }
         }
     }
-    for a in 0..D {
+    for a in A0..A1 {
         let start = a - a % TILE;
         gram[a * S + start..(a + 1) * S].copy_from_slice(&acc[a][start..]);
     }
-    rhs[..S].copy_from_slice(&right);
+    if RIGHT {
+        rhs[..S].copy_from_slice(&right);
+    }
     if SUMS {
         sums[..D].copy_from_slice(&total[..D]);
     }
@@ -1001,11 +1057,13 @@ mod tests {
 
     #[test]
     fn offsets_sums_and_targets_have_the_same_bits_on_every_path() {
-        // The one-pass kernels (direct up to rank 12, the summing Gram pass above) against the
+        // The one-pass kernels (direct up to rank 12, or 16 on 512 bits; the summing Gram
+        // pass above) against the
         // plain steps one by one: targets less the known offsets, the normal equations,
         // the rows' sum and the targets' sum, each in row order.
         let mut rng = crate::rng::Rng::new(5);
-        for d in 1..=40 {
+        // Past rank 64 the 512-bit gather copies the rows first and sums from the copy.
+        for d in (1..=40).chain([64, 65, 72, 81]) {
             let table: Vec<f64> = (0..40 * d).map(|_| rng.normal() * 1e3).collect();
             let known: Vec<f64> = (0..40).map(|_| rng.normal()).collect();
             let rows: Vec<u32> = (0..23).map(|_| rng.below(40) as u32).collect();
