@@ -58,10 +58,16 @@ fn load_row<const D: usize, const T: usize>(table: &[f64], at: usize) -> [f64x8;
 /// the 32). With `SUMS` the targets are `y_k − known[rows[k]]`, `sums[..D]` gets `Σ_k x_k`
 /// (two more vectors: at most 30 registers at rank 16 with the row and a broadcast), and it
 /// returns the adjusted targets' sum; every sum runs in row order, as in the portable
-/// kernels. `out.gram` has row stride `out.s`; `rhs` holds `s` values.
-pub(super) fn direct_and_sums<const D: usize, const T: usize, const SUMS: bool>(
+/// kernels. With `SCALED` instead, row `k` is multiplied by `extra[k]` as it is read (the
+/// weighted problems of implicit feedback). `out.gram` has row stride `out.s`; `rhs` holds `s` values.
+pub(super) fn direct_and_sums<
+    const D: usize,
+    const T: usize,
+    const SUMS: bool,
+    const SCALED: bool,
+>(
     table: &[f64],
-    (rows, y, known): (&[u32], &[f64], &[f64]),
+    (rows, y, extra): (&[u32], &[f64], &[f64]),
     out: Out<'_>,
     rhs: &mut [f64],
     sums: &mut [f64],
@@ -73,7 +79,9 @@ pub(super) fn direct_and_sums<const D: usize, const T: usize, const SUMS: bool>(
     for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
         prefetch_ahead(table, D, rows, k);
         let target = if SUMS {
-            // The offsets are scattered too: without asking ahead, +10% at rank 10.
+            // The offsets are scattered too (asking ahead took a fifth off the cost of
+            // biases at rank 10).
+            let known = extra;
             prefetch_ahead(known, 1, rows, k);
             let adjusted = target - known[r as usize];
             target_total += adjusted;
@@ -82,8 +90,18 @@ pub(super) fn direct_and_sums<const D: usize, const T: usize, const SUMS: bool>(
             target
         };
         let at = r as usize * D;
-        let x = load_row::<D, T>(table, at);
-        let values: &[f64; D] = table[at..at + D].try_into().expect("row inside the table");
+        let mut x = load_row::<D, T>(table, at);
+        let mut values: [f64; D] = table[at..at + D].try_into().expect("row inside the table");
+        if SCALED {
+            // The same products as a row scaled before the kernel reads it.
+            let scale = extra[k];
+            for value in &mut values {
+                *value *= scale;
+            }
+            for vector in &mut x {
+                *vector *= f64x8::splat(scale);
+            }
+        }
         for a in 0..D {
             let left = f64x8::splat(values[a]);
             for t in a / LANES..T {
@@ -138,13 +156,14 @@ const PASS_REGISTERS: usize = 24;
 /// block of 8 rows against up to 3 vectors of columns. `gram` has row stride `s`; `rhs`
 /// holds `s` values; both get columns `0..d` of every row (and nothing past `d`).
 ///
-/// With `offsets = Some((known, sums))` it is a problem with a free offset, as in
-/// [`direct_and_sums`]: the first pass takes `known[rows[k]]` off the targets and sums the
-/// rows into `sums[..d]`, and the adjusted targets' sum is returned (−0.0 otherwise).
+/// With [`Extra::Offsets`] it is a problem with a free offset, as in [`direct_and_sums`]:
+/// the first pass takes `known[rows[k]]` off the targets and sums the rows into
+/// `sums[..d]`, and the adjusted targets' sum is returned (−0.0 otherwise). With
+/// [`Extra::Scales`] row `k` is multiplied by `scale[k]` as it is copied.
 pub(super) fn gram_and_rhs(
     table: &[f64],
     (rows, y): (&[u32], &[f64]),
-    offsets: Option<(&[f64], &mut [f64])>,
+    extra: Extra<'_>,
     panel: &mut Vec<f64x8>,
     out: Out<'_>,
     rhs: &mut [f64],
@@ -157,9 +176,14 @@ pub(super) fn gram_and_rhs(
     }
     let first = &mut panel[..n * t];
     let rhs = &mut rhs[..d];
-    let total = match offsets {
-        Some((known, sums)) => gather::<true>(table, d, t, (rows, y, known), first, rhs, sums),
-        None => gather::<false>(table, d, t, (rows, y, &[]), first, rhs, &mut []),
+    let total = match extra {
+        Extra::Plain => gather::<false, false>(table, d, t, (rows, y, &[]), first, rhs, &mut []),
+        Extra::Offsets { known, sums } => {
+            gather::<true, false>(table, d, t, (rows, y, known), first, rhs, sums)
+        }
+        Extra::Scales(scale) => {
+            gather::<false, true>(table, d, t, (rows, y, scale), first, rhs, &mut [])
+        }
     };
     let panel = &panel[..n * t];
     for block in 0..t {
@@ -178,6 +202,18 @@ pub(super) fn gram_and_rhs(
     total
 }
 
+/// What [`gram_and_rhs`] does besides the plain normal equations.
+pub(super) enum Extra<'a> {
+    Plain,
+    /// A free offset: the rows' known offsets, and where the rows' sum goes.
+    Offsets {
+        known: &'a [f64],
+        sums: &'a mut [f64],
+    },
+    /// Weighted rows: row `k` times `scale[k]`.
+    Scales(&'a [f64]),
+}
+
 /// Where the Gram kernels write: the matrix, its row stride and the rank.
 pub(super) struct Out<'a> {
     pub gram: &'a mut [f64],
@@ -187,8 +223,9 @@ pub(super) struct Out<'a> {
 
 /// Copies the rows into `panel` (`t` vectors each, zero-padded) and sums `Σ_k y_k x_k`
 /// into `rhs`, one sequential chain per entry; with `SUMS`, the targets less
-/// `known[rows[k]]`, the rows' sum into `sums` and the targets' sum returned.
-fn gather<const SUMS: bool>(
+/// `known[rows[k]]`, the rows' sum into `sums` and the targets' sum returned; with
+/// `SCALED`, row `k` times `extra[k]`.
+fn gather<const SUMS: bool, const SCALED: bool>(
     table: &[f64],
     d: usize,
     t: usize,
@@ -199,13 +236,13 @@ fn gather<const SUMS: bool>(
 ) -> f64 {
     // A constant width keeps the right-hand side in registers and the copy inline.
     match t {
-        3 => gather_fixed::<3, SUMS>(table, d, problem, panel, rhs, sums),
-        4 => gather_fixed::<4, SUMS>(table, d, problem, panel, rhs, sums),
-        5 => gather_fixed::<5, SUMS>(table, d, problem, panel, rhs, sums),
-        6 => gather_fixed::<6, SUMS>(table, d, problem, panel, rhs, sums),
-        7 => gather_fixed::<7, SUMS>(table, d, problem, panel, rhs, sums),
-        8 => gather_fixed::<8, SUMS>(table, d, problem, panel, rhs, sums),
-        _ => gather_wide::<SUMS>(table, d, t, problem, panel, rhs, sums),
+        3 => gather_fixed::<3, SUMS, SCALED>(table, d, problem, panel, rhs, sums),
+        4 => gather_fixed::<4, SUMS, SCALED>(table, d, problem, panel, rhs, sums),
+        5 => gather_fixed::<5, SUMS, SCALED>(table, d, problem, panel, rhs, sums),
+        6 => gather_fixed::<6, SUMS, SCALED>(table, d, problem, panel, rhs, sums),
+        7 => gather_fixed::<7, SUMS, SCALED>(table, d, problem, panel, rhs, sums),
+        8 => gather_fixed::<8, SUMS, SCALED>(table, d, problem, panel, rhs, sums),
+        _ => gather_wide::<SUMS, SCALED>(table, d, t, problem, panel, rhs, sums),
     }
 }
 
@@ -234,7 +271,7 @@ fn target<const SUMS: bool>((rows, y, known): (&[u32], &[f64], &[f64]), k: usize
 }
 
 /// [`gather`] for rows of exactly `T` vectors.
-fn gather_fixed<const T: usize, const SUMS: bool>(
+fn gather_fixed<const T: usize, const SUMS: bool, const SCALED: bool>(
     table: &[f64],
     d: usize,
     problem: (&[u32], &[f64], &[f64]),
@@ -257,7 +294,13 @@ fn gather_fixed<const T: usize, const SUMS: bool>(
         if SUMS {
             target_total += value;
         }
-        let x = row_vectors::<T>(table, d, r as usize);
+        let mut x = row_vectors::<T>(table, d, r as usize);
+        if SCALED {
+            let scale = f64x8::splat(problem.2[k]);
+            for vector in &mut x {
+                *vector *= scale;
+            }
+        }
         let value = f64x8::splat(value);
         for v in 0..T {
             slots[v] = x[v];
@@ -278,7 +321,7 @@ fn gather_fixed<const T: usize, const SUMS: bool>(
 
 /// [`gather`] for rows wider than 64 values: a copy, then the right-hand side (and the
 /// sums) in blocks of 8 vectors from the panel (the same chains).
-fn gather_wide<const SUMS: bool>(
+fn gather_wide<const SUMS: bool, const SCALED: bool>(
     table: &[f64],
     d: usize,
     t: usize,
@@ -288,7 +331,7 @@ fn gather_wide<const SUMS: bool>(
     sums: &mut [f64],
 ) -> f64 {
     const BLOCK: usize = 8;
-    let (rows, y, _) = problem;
+    let (rows, y, extra) = problem;
     for (k, (&r, slots)) in rows.iter().zip(panel.chunks_exact_mut(t)).enumerate() {
         prefetch_ahead(table, d, rows, k);
         let row = &table[r as usize * d..(r as usize + 1) * d];
@@ -296,6 +339,9 @@ fn gather_wide<const SUMS: bool>(
             *slot = f64x8::new(std::array::from_fn(|c| {
                 row.get(v * LANES + c).copied().unwrap_or(0.0)
             }));
+            if SCALED {
+                *slot *= f64x8::splat(extra[k]);
+            }
         }
     }
     let mut target_total = -0.0;

@@ -171,26 +171,13 @@ pub struct Scratch {
         target_feature = "fma"
     )))]
     gathered: Vec<f64>,
-    /// Scaled rows of [`scaled_normal_equations`] where they are staged (the 512-bit
-    /// builds), and `0..n`.
-    #[cfg(all(
-        target_arch = "x86_64",
-        target_feature = "avx512f",
-        target_feature = "fma"
-    ))]
-    staging: Vec<f64>,
-    #[cfg(all(
-        target_arch = "x86_64",
-        target_feature = "avx512f",
-        target_feature = "fma"
-    ))]
-    sequence: Vec<u32>,
 }
 
 /// [`normal_equations`] of the rows scaled by `scale` (row `k` of `X` is `scale[k]` times
 /// row `rows[k]` of `table`), for weighted problems: `XᵀX = Σ scale² x xᵀ`. The portable
 /// kernels scale each row as they read it (in registers up to rank 12, in the gather's
-/// copy above); the 512-bit builds stage the scaled rows once and read them directly.
+/// copy above); the 512-bit ones likewise, in registers up to rank 16 and in the copy
+/// into the panel above it.
 #[allow(clippy::too_many_arguments)]
 pub fn scaled_normal_equations(
     table: &[f64],
@@ -221,41 +208,20 @@ pub fn scaled_normal_equations(
         target_feature = "avx512f",
         target_feature = "fma"
     ))]
-    staged_scaled(table, d, (rows, y, scale), scratch, gram, rhs);
-}
-
-/// [`scaled_normal_equations`] by staging the scaled rows once and running the unscaled
-/// kernels on them (the 512-bit builds).
-#[cfg(all(
-    target_arch = "x86_64",
-    target_feature = "avx512f",
-    target_feature = "fma"
-))]
-fn staged_scaled(
-    table: &[f64],
-    d: usize,
-    (rows, y, scale): (&[u32], &[f64], &[f64]),
-    scratch: &mut Scratch,
-    gram: &mut [f64],
-    rhs: &mut [f64],
-) {
-    let n = y.len();
-    let mut staging = std::mem::take(&mut scratch.staging);
-    staging.clear();
-    for (&r, &c) in rows.iter().zip(scale).take(n) {
-        staging.extend(
-            table[r as usize * d..(r as usize + 1) * d]
-                .iter()
-                .map(|v| v * c),
+    if wide_direct::<false, true>(table, d, (rows, y, scale), gram, rhs, &mut []).is_none() {
+        avx512::gram_and_rhs(
+            table,
+            (rows, y),
+            avx512::Extra::Scales(scale),
+            &mut scratch.panel,
+            avx512::Out {
+                gram,
+                s: round_up(d, TILE),
+                d,
+            },
+            rhs,
         );
     }
-    if scratch.sequence.len() < n {
-        scratch.sequence = (0..n as u32).collect();
-    }
-    let sequence = std::mem::take(&mut scratch.sequence);
-    normal_equations(&staging, d, &sequence[..n], y, scratch, gram, rhs);
-    scratch.sequence = sequence;
-    scratch.staging = staging;
 }
 
 /// Upper triangle of `XᵀX` and `Xᵀy`, where row `k` of `X` is row `rows[k]` of the
@@ -285,7 +251,7 @@ pub fn normal_equations(
     avx512::gram_and_rhs(
         table,
         (rows, y),
-        None,
+        avx512::Extra::Plain,
         &mut scratch.panel,
         avx512::Out { gram, s, d },
         rhs,
@@ -369,7 +335,7 @@ pub fn gram_and_rhs_direct(
         target_feature = "fma"
     ))]
     {
-        wide_direct::<false>(table, d, (rows, y, &[]), gram, rhs, &mut []).is_some()
+        wide_direct::<false, false>(table, d, (rows, y, &[]), gram, rhs, &mut []).is_some()
     }
     #[cfg(not(all(
         target_arch = "x86_64",
@@ -381,15 +347,15 @@ pub fn gram_and_rhs_direct(
     }
 }
 
-/// The 512-bit direct kernels by rank (up to 16, two registers per row above 8): without
-/// (`SUMS` false) or with a free offset; see [`avx512::direct_and_sums`]. `None`, writing
-/// nothing, above rank 16.
+/// The 512-bit direct kernels by rank (up to 16, two registers per row above 8): plain, with
+/// a free offset (`SUMS`) or with scaled rows (`SCALED`); see [`avx512::direct_and_sums`].
+/// `None`, writing nothing, above rank 16.
 #[cfg(all(
     target_arch = "x86_64",
     target_feature = "avx512f",
     target_feature = "fma"
 ))]
-fn wide_direct<const SUMS: bool>(
+fn wide_direct<const SUMS: bool, const SCALED: bool>(
     table: &[f64],
     d: usize,
     problem: (&[u32], &[f64], &[f64]),
@@ -404,22 +370,22 @@ fn wide_direct<const SUMS: bool>(
         d,
     };
     Some(match d {
-        1 => avx512::direct_and_sums::<1, 1, SUMS>(t, p, g, h, u),
-        2 => avx512::direct_and_sums::<2, 1, SUMS>(t, p, g, h, u),
-        3 => avx512::direct_and_sums::<3, 1, SUMS>(t, p, g, h, u),
-        4 => avx512::direct_and_sums::<4, 1, SUMS>(t, p, g, h, u),
-        5 => avx512::direct_and_sums::<5, 1, SUMS>(t, p, g, h, u),
-        6 => avx512::direct_and_sums::<6, 1, SUMS>(t, p, g, h, u),
-        7 => avx512::direct_and_sums::<7, 1, SUMS>(t, p, g, h, u),
-        8 => avx512::direct_and_sums::<8, 1, SUMS>(t, p, g, h, u),
-        9 => avx512::direct_and_sums::<9, 2, SUMS>(t, p, g, h, u),
-        10 => avx512::direct_and_sums::<10, 2, SUMS>(t, p, g, h, u),
-        11 => avx512::direct_and_sums::<11, 2, SUMS>(t, p, g, h, u),
-        12 => avx512::direct_and_sums::<12, 2, SUMS>(t, p, g, h, u),
-        13 => avx512::direct_and_sums::<13, 2, SUMS>(t, p, g, h, u),
-        14 => avx512::direct_and_sums::<14, 2, SUMS>(t, p, g, h, u),
-        15 => avx512::direct_and_sums::<15, 2, SUMS>(t, p, g, h, u),
-        16 => avx512::direct_and_sums::<16, 2, SUMS>(t, p, g, h, u),
+        1 => avx512::direct_and_sums::<1, 1, SUMS, SCALED>(t, p, g, h, u),
+        2 => avx512::direct_and_sums::<2, 1, SUMS, SCALED>(t, p, g, h, u),
+        3 => avx512::direct_and_sums::<3, 1, SUMS, SCALED>(t, p, g, h, u),
+        4 => avx512::direct_and_sums::<4, 1, SUMS, SCALED>(t, p, g, h, u),
+        5 => avx512::direct_and_sums::<5, 1, SUMS, SCALED>(t, p, g, h, u),
+        6 => avx512::direct_and_sums::<6, 1, SUMS, SCALED>(t, p, g, h, u),
+        7 => avx512::direct_and_sums::<7, 1, SUMS, SCALED>(t, p, g, h, u),
+        8 => avx512::direct_and_sums::<8, 1, SUMS, SCALED>(t, p, g, h, u),
+        9 => avx512::direct_and_sums::<9, 2, SUMS, SCALED>(t, p, g, h, u),
+        10 => avx512::direct_and_sums::<10, 2, SUMS, SCALED>(t, p, g, h, u),
+        11 => avx512::direct_and_sums::<11, 2, SUMS, SCALED>(t, p, g, h, u),
+        12 => avx512::direct_and_sums::<12, 2, SUMS, SCALED>(t, p, g, h, u),
+        13 => avx512::direct_and_sums::<13, 2, SUMS, SCALED>(t, p, g, h, u),
+        14 => avx512::direct_and_sums::<14, 2, SUMS, SCALED>(t, p, g, h, u),
+        15 => avx512::direct_and_sums::<15, 2, SUMS, SCALED>(t, p, g, h, u),
+        16 => avx512::direct_and_sums::<16, 2, SUMS, SCALED>(t, p, g, h, u),
         _ => return None,
     })
 }
@@ -555,7 +521,7 @@ fn gram_rhs_and_sums_direct(
         target_feature = "fma"
     ))]
     {
-        wide_direct::<true>(table, d, (rows, y, known), gram, rhs, sums)
+        wide_direct::<true, false>(table, d, (rows, y, known), gram, rhs, sums)
     }
     #[cfg(not(all(
         target_arch = "x86_64",
@@ -634,7 +600,10 @@ pub fn normal_equations_with_offsets(
         avx512::gram_and_rhs(
             table,
             (rows, y),
-            Some((known, &mut sums[..d])),
+            avx512::Extra::Offsets {
+                known,
+                sums: &mut sums[..d],
+            },
             &mut scratch.panel,
             avx512::Out {
                 gram,
@@ -1015,7 +984,8 @@ mod tests {
         // the same Gram matrix and right-hand side as the plain kernels on a table of the
         // rows already scaled.
         let mut rng = crate::rng::Rng::new(9);
-        for d in 1..=40 {
+        // Past rank 64 the 512-bit gather scales the rows as it copies them.
+        for d in (1..=40).chain([64, 65, 72, 81]) {
             let table: Vec<f64> = (0..30 * d).map(|_| rng.normal()).collect();
             let rows: Vec<u32> = (0..19).map(|_| rng.below(30) as u32).collect();
             let scale: Vec<f64> = (0..17).map(|_| 1.0 + 5.0 * rng.uniform()).collect();
