@@ -298,11 +298,17 @@ fn numpy(dir: &Path, reps: usize, extra: &[&str]) -> serde_json::Value {
         .env_remove("OPENBLAS_L2_SIZE")
         .output()
         .expect("python3 runs benches/numpy_fit.py");
-    assert!(
-        output.status.success(),
-        "numpy baseline failed: {}",
-        String::from_utf8_lossy(&output.stderr)
-    );
+    if !output.status.success() {
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        eprintln!("the numpy baseline (benches/numpy_fit.py) failed:\n{stderr}");
+        if stderr.contains("No module named 'numpy'") {
+            eprintln!(
+                "this benchmark times numpy beside sextant: install it with \
+                 `python3 -m pip install numpy`, or pass --rust-only to time sextant alone"
+            );
+        }
+        std::process::exit(2);
+    }
     serde_json::from_slice(&output.stdout).expect("numpy JSON")
 }
 
