@@ -8,7 +8,7 @@ use nalgebra::DMatrix;
 use sextant::analysis::principal_angles;
 use sextant::data::{Rating, Ratings, RatingsOptions, assign_holdout, load_ratings};
 use sextant::error::FitError;
-use sextant::model::{Center, FitOptions, Fitter, fit};
+use sextant::model::{Accel, Center, FitOptions, Fitter, fit};
 use sextant::rng::Rng;
 
 fn demo_ratings() -> Ratings {
@@ -296,6 +296,7 @@ fn committed_demo_model_is_reproduced_bit_for_bit() {
         tol: recorded.tol,
         seed: committed.manifest.seed,
         lambda_bias: committed.manifest.lambda_bias,
+        accel: Accel::None,
     };
     let result = fit(&ratings, &options, None, |_| {}).unwrap();
     assert_eq!(result.trace, committed.manifest.trace);
@@ -320,4 +321,90 @@ fn committed_demo_model_is_reproduced_bit_for_bit() {
     let dir = out.path().join("model");
     sextant::model::save_model(&dir, &model).unwrap();
     common::assert_same_model_files(&dir, &repo("demo-data/model"));
+}
+
+#[test]
+fn accelerated_fits_never_lower_l_and_do_not_depend_on_threads() {
+    // Each iteration keeps a proposal only when it raises L above the plain iteration's
+    // result, so the trace is non-decreasing as for the plain method (common practice for
+    // safeguarded acceleration); the proposals are element-wise and the sums in fixed
+    // order, so the bits do not depend on the thread count. With biases too.
+    let mut ratings = demo_ratings();
+    assign_holdout(&mut ratings, 0.1, 4);
+    for accel in [Accel::Line, Accel::Anderson] {
+        for lambda_bias in [None, Some(0.5)] {
+            let options = FitOptions {
+                max_iters: 40,
+                seed: 4,
+                accel,
+                lambda_bias,
+                ..FitOptions::default()
+            };
+            let run = |threads: usize| {
+                let pool = rayon::ThreadPoolBuilder::new()
+                    .num_threads(threads)
+                    .build()
+                    .unwrap();
+                pool.install(|| fit(&ratings, &options, None, |_| {}).unwrap())
+            };
+            let one = run(1);
+            let what = format!("{accel:?}, biases {lambda_bias:?}");
+            assert!(
+                one.trace
+                    .windows(2)
+                    .all(|w| w[1].log_joint >= w[0].log_joint),
+                "{what}"
+            );
+            assert!(
+                one.trace.iter().any(|r| r.extrapolated),
+                "{what}: never taken"
+            );
+            assert!(!one.trace[0].extrapolated, "{what}");
+            let two = run(2);
+            assert_eq!(one.factors, two.factors, "{what}");
+            assert_eq!(one.trace, two.trace, "{what}");
+        }
+    }
+}
+
+#[test]
+fn accelerated_fits_reach_the_plain_fits_optimum() {
+    // Run to a tight tolerance, every method ends at the same L (a local optimum of a
+    // well-determined rank-4 fit of the demo) and the same held-out RMSE.
+    let mut ratings = demo_ratings();
+    assign_holdout(&mut ratings, 0.1, 5);
+    let end = |accel: Accel| {
+        let options = FitOptions {
+            rank: 4,
+            lambda: 5.0,
+            tol: 1e-12,
+            max_iters: 20_000,
+            accel,
+            ..FitOptions::default()
+        };
+        let result = fit(&ratings, &options, None, |_| {}).unwrap();
+        assert!(result.converged, "{accel:?}");
+        let last = *result.trace.last().unwrap();
+        (
+            last.log_joint,
+            last.holdout_rmse.unwrap(),
+            result.trace.len(),
+        )
+    };
+    let (plain, plain_rmse, plain_iters) = end(Accel::None);
+    for accel in [Accel::Line, Accel::Anderson] {
+        let (l, rmse, iters) = end(accel);
+        assert!(
+            (l - plain).abs() <= 1e-9 * plain.abs(),
+            "{accel:?}: {l} vs {plain}"
+        );
+        assert!(
+            (rmse - plain_rmse).abs() <= 1e-6,
+            "{accel:?}: {rmse} vs {plain_rmse}"
+        );
+        assert!(
+            iters < plain_iters,
+            "{accel:?}: {iters} vs {plain_iters} iterations"
+        );
+    }
 }

@@ -263,6 +263,7 @@ impl SolverArgs {
             tol: self.tol,
             seed: self.seed,
             lambda_bias: None,
+            accel: sextant::model::Accel::None,
         }
     }
 

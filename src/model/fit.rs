@@ -8,6 +8,7 @@
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use super::extrapolate::{Extrapolation, Method};
 use super::kernels::{BATCH, LOOKAHEAD};
 use super::solve::RidgeWorkspace;
 use super::{Biases, FactorModel, dot, squared_norm};
@@ -71,6 +72,32 @@ pub struct FitOptions {
     /// (`None`: a model without biases).
     #[serde(default)]
     pub lambda_bias: Option<f64>,
+    /// How iterations are accelerated (see [`Accel`]).
+    #[serde(default, skip_serializing_if = "Accel::is_none")]
+    pub accel: Accel,
+}
+
+/// How a fit moves from one iteration to the next.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Accel {
+    /// Plain coordinate ascent: one exact solve per member, then per item.
+    #[default]
+    None,
+    /// After each plain iteration, a longer step along its change, kept only when it
+    /// raises L further (see [`super::extrapolate`]).
+    Line,
+    /// After each plain iteration, Anderson mixing of the last few, kept only when it
+    /// raises L further.
+    Anderson,
+}
+
+impl Accel {
+    // A reference, as serde's `skip_serializing_if` passes one.
+    #[allow(clippy::trivially_copy_pass_by_ref)]
+    fn is_none(&self) -> bool {
+        *self == Self::None
+    }
 }
 
 impl Default for FitOptions {
@@ -84,6 +111,7 @@ impl Default for FitOptions {
             tol: 1e-6,
             seed: 0,
             lambda_bias: None,
+            accel: Accel::None,
         }
     }
 }
@@ -149,6 +177,9 @@ pub struct IterationRecord {
     pub train_rmse: f64,
     /// Root mean squared error on the held-out ratings, when there are any.
     pub holdout_rmse: Option<f64>,
+    /// Whether this iteration ended on an extrapolated point (see [`Accel::Line`]).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub extrapolated: bool,
 }
 
 /// What a fit produces.
@@ -235,6 +266,8 @@ pub struct Fitter<'a> {
     by_item: Compressed,
     holdout: Vec<(u32, u32, f64)>,
     model: FactorModel,
+    /// The state of [`Accel::Line`], when the fit uses it.
+    extrapolation: Option<Extrapolation>,
 }
 
 impl<'a> Fitter<'a> {
@@ -295,6 +328,11 @@ impl<'a> Fitter<'a> {
             by_item,
             holdout,
             model,
+            extrapolation: match options.accel {
+                Accel::None => None,
+                Accel::Line => Some(Extrapolation::new(Method::Line)),
+                Accel::Anderson => Some(Extrapolation::new(Method::Anderson)),
+            },
         }
         .with_optional_biases(options.lambda_bias))
     }
@@ -480,15 +518,38 @@ impl<'a> Fitter<'a> {
 
     /// One full iteration (users, then items) and its record.
     pub fn iterate(&mut self, iter: usize) -> Result<IterationRecord, FitError> {
+        if let Some(extrapolation) = &mut self.extrapolation {
+            extrapolation.remember_start(&self.model);
+        }
         self.update_users()?;
         self.update_items()?;
-        let sse = self.training_sse();
+        let mut sse = self.training_sse();
+        let mut extrapolated = false;
+        // The first iteration starts from member vectors of zero, not from a solve: its
+        // change is no direction to follow.
+        if let Some(mut extrapolation) = self.extrapolation.take() {
+            if iter > 1 {
+                let plain = self.log_joint_with(sse);
+                if extrapolation.propose(&mut self.model) {
+                    let further = self.training_sse();
+                    // Also refuses a proposal whose L is not a number.
+                    if self.log_joint_with(further) > plain {
+                        extrapolation.accept();
+                        (sse, extrapolated) = (further, true);
+                    } else {
+                        extrapolation.reject(&mut self.model);
+                    }
+                }
+            }
+            self.extrapolation = Some(extrapolation);
+        }
         let n = self.by_user.columns.len() as f64;
         Ok(IterationRecord {
             iter,
             log_joint: self.log_joint_with(sse),
             train_rmse: (sse / n).sqrt(),
             holdout_rmse: self.holdout_rmse(),
+            extrapolated,
         })
     }
 

@@ -19,6 +19,7 @@
 
 pub mod build;
 pub mod dir;
+pub mod extrapolate;
 pub mod fit;
 pub mod implicit;
 pub mod kernels;
@@ -29,7 +30,7 @@ pub mod store;
 
 pub use build::Provenance;
 pub use dir::{load_model, save_model};
-pub use fit::{Center, FitOptions, FitResult, Fitter, IterationRecord, fit};
+pub use fit::{Accel, Center, FitOptions, FitResult, Fitter, IterationRecord, fit};
 pub use solve::RidgeWorkspace;
 pub use store::Model;
 
