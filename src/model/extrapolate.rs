@@ -26,7 +26,7 @@ pub enum Method {
     Line,
     /// Anderson mixing of the last iterations of the map `X ↦ P` (Walker & Ni, SIAM J.
     /// Numer. Anal. 49(4), 2011): with `f = P − X`, the combination of the last
-    /// [`DEPTH`] changes that best cancels `f` (least squares), applied to `P`.
+    /// five changes that best cancels `f` (least squares), applied to `P`.
     Anderson,
 }
 
