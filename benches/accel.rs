@@ -17,54 +17,19 @@
 use std::path::Path;
 use std::time::Instant;
 
-use sextant::data::{Rating, Ratings, RatingsOptions, assign_holdout, read_ratings};
+use sextant::data::{Ratings, RatingsOptions, assign_holdout, read_ratings};
 use sextant::model::{Accel, Center, FitOptions, fit};
-use sextant::rng::Rng;
 
-/// Ratings from a planted rank-`k` model: `clamp(round(3 + u·v + noise), 1, 5)`, items drawn
-/// with a popularity skew, about `per_user` ratings a member.
-fn planted(users: usize, items: usize, per_user: usize, k: usize, seed: u64) -> Ratings {
-    let mut rng = Rng::new(seed);
-    let mut ratings = Ratings::default();
-    for i in 0..users {
-        ratings.users.intern(&format!("m{i}"));
-    }
-    for j in 0..items {
-        ratings.items.intern(&format!("r{j}"));
-    }
-    let scale = (1.0 / k as f64).sqrt();
-    let u: Vec<f64> = (0..users * k).map(|_| rng.normal() * scale).collect();
-    let v: Vec<f64> = (0..items * k).map(|_| rng.normal()).collect();
-    let weights: Vec<f64> = (0..items).map(|j| 1.0 / (j as f64 + 50.0)).collect();
-    let total: f64 = weights.iter().sum();
-    let mut cumulative = Vec::with_capacity(items);
-    let mut running = 0.0;
-    for w in &weights {
-        running += w / total;
-        cumulative.push(running);
-    }
-    let mut chosen = std::collections::HashSet::new();
-    for user in 0..users {
-        let count = per_user / 2 + rng.below(per_user as u64 + 1) as usize;
-        chosen.clear();
-        while chosen.len() < count.min(items) {
-            let item = cumulative
-                .partition_point(|&c| c < rng.uniform())
-                .min(items - 1);
-            if chosen.insert(item) {
-                let dot: f64 = (0..k).map(|c| u[user * k + c] * v[item * k + c]).sum();
-                let value = (3.0 + dot + 0.5 * rng.normal()).round().clamp(1.0, 5.0);
-                ratings.entries.push(Rating {
-                    user: user as u32,
-                    item: item as u32,
-                    value,
-                    holdout: false,
-                });
-            }
-        }
-    }
-    ratings.entries.sort_by_key(|r| (r.user, r.item));
-    ratings
+/// The project's seeded planted ratings (`sextant::synthetic`), read as a user would.
+fn planted(users: usize, items: usize, per_user: u64, seed: u64) -> Ratings {
+    let mut csv = Vec::new();
+    sextant::synthetic::write_ratings(&mut csv, users, items, per_user, seed).expect("generate");
+    read_ratings(
+        &csv[..],
+        Path::new("planted.csv"),
+        &RatingsOptions::default(),
+    )
+    .expect("planted ratings")
 }
 
 struct Run {
@@ -114,9 +79,9 @@ fn main() {
         "demo".to_owned(),
         read_ratings(file, &demo, &RatingsOptions::default()).expect("demo ratings"),
     )];
-    sets.push(("200k".to_owned(), planted(5_000, 2_000, 40, 8, 7)));
+    sets.push(("200k".to_owned(), planted(5_000, 2_000, 40, 7)));
     if !quick {
-        sets.push(("2M".to_owned(), planted(50_000, 10_000, 40, 8, 8)));
+        sets.push(("2M".to_owned(), planted(50_000, 10_000, 40, 8)));
     }
     println!(
         "set    rank  method  tol     iters  extrap  seconds   converged  (L - L_plain@1e-10)/|L|"

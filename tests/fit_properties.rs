@@ -11,6 +11,14 @@ use sextant::error::FitError;
 use sextant::model::{Accel, Center, FitOptions, Fitter, fit};
 use sextant::rng::Rng;
 
+/// A thread pool of `threads` threads, to run a fit on.
+fn pool_of(threads: usize) -> rayon::ThreadPool {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .unwrap()
+}
+
 fn demo_ratings() -> Ratings {
     load_ratings(&repo("demo-data/ratings.csv"), &RatingsOptions::default()).unwrap()
 }
@@ -127,10 +135,7 @@ fn results_are_bit_identical_whatever_the_thread_count() {
         ..FitOptions::default()
     };
     let run = |threads: usize| {
-        let pool = rayon::ThreadPoolBuilder::new()
-            .num_threads(threads)
-            .build()
-            .unwrap();
+        let pool = pool_of(threads);
         pool.install(|| fit(&ratings, &options, None, |_| {}).unwrap())
     };
     let one = run(1);
@@ -142,10 +147,7 @@ fn results_are_bit_identical_whatever_the_thread_count() {
     }
     // With member and item offsets too; and L never falls.
     let biased = |threads: usize| {
-        let pool = rayon::ThreadPoolBuilder::new()
-            .num_threads(threads)
-            .build()
-            .unwrap();
+        let pool = pool_of(threads);
         pool.install(|| {
             sextant::model::Fitter::new(&ratings, &options, None)
                 .and_then(|f| f.with_biases(0.5))
@@ -172,10 +174,7 @@ fn results_are_bit_identical_whatever_the_thread_count() {
     // Implicit feedback (the ratings read as counts, with the Gram sums in fixed chunks):
     // the same bits on any number of threads, and the loss never rises.
     let implicit = |threads: usize| {
-        let pool = rayon::ThreadPoolBuilder::new()
-            .num_threads(threads)
-            .build()
-            .unwrap();
+        let pool = pool_of(threads);
         let options = sextant::model::implicit::ImplicitOptions {
             rank: options.rank,
             max_iters: 8,
@@ -341,10 +340,7 @@ fn accelerated_fits_never_lower_l_and_do_not_depend_on_threads() {
                 ..FitOptions::default()
             };
             let run = |threads: usize| {
-                let pool = rayon::ThreadPoolBuilder::new()
-                    .num_threads(threads)
-                    .build()
-                    .unwrap();
+                let pool = pool_of(threads);
                 pool.install(|| fit(&ratings, &options, None, |_| {}).unwrap())
             };
             let one = run(1);

@@ -87,11 +87,6 @@ impl Extrapolation {
         }
     }
 
-    /// The current step `α`.
-    pub fn step(&self) -> f64 {
-        self.step
-    }
-
     /// Replaces `model` (the plain iteration's result `P`) by the proposal, keeping `P` to
     /// go back to; false, leaving `model` alone, when there is nothing to propose yet.
     pub fn propose(&mut self, model: &mut FactorModel) -> bool {

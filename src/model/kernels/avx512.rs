@@ -11,7 +11,7 @@
 
 use wide::f64x8;
 
-use super::prefetch_ahead;
+use super::{prefetch_ahead, row_target};
 
 /// Values per vector register.
 const LANES: usize = 8;
@@ -76,19 +76,12 @@ pub(super) fn direct_and_sums<
     let mut right = [f64x8::ZERO; T];
     let mut total = [f64x8::ZERO; T];
     let mut target_total = -0.0;
-    for (k, (&r, &target)) in rows.iter().zip(y).enumerate() {
+    for (k, &r) in rows.iter().take(y.len()).enumerate() {
         prefetch_ahead(table, D, rows, k);
-        let target = if SUMS {
-            // The offsets are scattered too (asking ahead took a fifth off the cost of
-            // biases at rank 10).
-            let known = extra;
-            prefetch_ahead(known, 1, rows, k);
-            let adjusted = target - known[r as usize];
-            target_total += adjusted;
-            adjusted
-        } else {
-            target
-        };
+        let target = row_target::<SUMS>((rows, y, extra), k);
+        if SUMS {
+            target_total += target;
+        }
         let at = r as usize * D;
         let mut x = load_row::<D, T>(table, at);
         let mut values: [f64; D] = table[at..at + D].try_into().expect("row inside the table");
@@ -258,18 +251,6 @@ fn row_vectors<const T: usize>(table: &[f64], d: usize, r: usize) -> [f64x8; T] 
     })
 }
 
-/// Row `k`'s target: `y[k]`, or with `SUMS` `y[k] − known[rows[k]]` (asking for the offset
-/// [`super::LOOKAHEAD`] rows ahead, as the rows are).
-#[inline(always)]
-fn target<const SUMS: bool>((rows, y, known): (&[u32], &[f64], &[f64]), k: usize) -> f64 {
-    if SUMS {
-        prefetch_ahead(known, 1, rows, k);
-        y[k] - known[rows[k] as usize]
-    } else {
-        y[k]
-    }
-}
-
 /// [`gather`] for rows of exactly `T` vectors.
 fn gather_fixed<const T: usize, const SUMS: bool, const SCALED: bool>(
     table: &[f64],
@@ -290,7 +271,7 @@ fn gather_fixed<const T: usize, const SUMS: bool, const SCALED: bool>(
         .enumerate()
     {
         prefetch_ahead(table, d, rows, k);
-        let value = target::<SUMS>(problem, k);
+        let value = row_target::<SUMS>(problem, k);
         if SUMS {
             target_total += value;
         }
@@ -351,7 +332,7 @@ fn gather_wide<const SUMS: bool, const SCALED: bool>(
         let mut total = [f64x8::ZERO; BLOCK];
         for k in 0..y.len() {
             // Recomputed for each block: the same value every time.
-            let value = target::<SUMS>(problem, k);
+            let value = row_target::<SUMS>(problem, k);
             if SUMS && first == 0 {
                 target_total += value;
             }
